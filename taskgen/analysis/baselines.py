@@ -1,0 +1,95 @@
+"""The three reference agents of a task, each computed exactly on the compiled model.
+
+- optimal: remembers the cue (sees the full state), best return by backward induction;
+- chance: never uses the cue (it knows position and time, never the cue value), best return
+  by backward induction over cue-blind states;
+- random: picks actions uniformly.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from ..errors import AnalysisError
+from ..model import TaskModel
+from .dp import Objective, at_reset, evaluate, optimise, optimise_tables, uniform_policy
+
+OPTIMAL_CLASS = "remembers the cue: sees the full state (position, time, cue value)"
+CHANCE_CLASS = ("never uses the cue: sees position and time but not the cue value "
+                "(deterministic, time-dependent; an upper bound for memoryless agents "
+                "that cannot carry the cue in position or timing)")
+RANDOM_CLASS = "uniform-random actions"
+
+
+@dataclass(frozen=True)
+class Baseline:
+    """One reference agent's exact figures and how they were obtained."""
+
+    success_rate: float
+    mean_return: float
+    mean_length: float
+    method: str
+    policy_class: str
+
+    def to_dict(self) -> dict[str, float | str]:
+        """Plain-data form for JSON output."""
+        return asdict(self)
+
+
+def _figures(model: TaskModel, policy: np.ndarray, policy_class: str) -> Baseline:
+    return Baseline(
+        success_rate=at_reset(model, evaluate(model, policy, Objective.success(model))),
+        mean_return=at_reset(model, evaluate(model, policy)),
+        mean_length=at_reset(model, evaluate(model, policy, Objective.length(model))),
+        method="exact", policy_class=policy_class,
+    )
+
+
+def optimal_policy(model: TaskModel) -> np.ndarray:
+    """The optimal deterministic policy ``int[H, S]`` of an agent that knows the cue."""
+    return optimise(model)[1]
+
+
+def optimal_baseline(model: TaskModel) -> Baseline:
+    """Exact figures of the agent that remembers the cue."""
+    return _figures(model, optimal_policy(model), OPTIMAL_CLASS)
+
+
+def random_baseline(model: TaskModel) -> Baseline:
+    """Exact figures of the uniform-random agent."""
+    return _figures(model, uniform_policy(model), RANDOM_CLASS)
+
+
+def cue_blind_policy(model: TaskModel) -> np.ndarray:
+    """The best policy that never uses the cue, as ``int[H, S]`` (equal on cue-blind twins).
+
+    Exact when the cue changes only rewards: transitions, terminal flags and the reset
+    distribution of cue-blind states must not depend on it, so the blind agent's belief about
+    the cue stays the prior and its expected reward is the prior-weighted mean.
+    """
+    blind, B = model.blind_state, int(model.blind_state.max()) + 1
+    blind_next = model.blind_state[model.next_state]                   # [S, A]
+    rep = np.zeros(B, dtype=np.int64)
+    rep[blind] = np.arange(model.num_states)                           # one member per class
+    if not (blind_next == blind_next[rep[blind]]).all():
+        raise AnalysisError("the cue changes transitions, so the cue-blind figure is not exact here")
+    if not (model.terminal == model.terminal[rep[blind]]).all():
+        raise AnalysisError("the cue changes which states end the episode; cue-blind figure not exact")
+    weight = model.hidden_prior[model.hidden]
+    mass = np.bincount(blind, weights=weight, minlength=B)
+    reset_blind = np.bincount(blind, weights=model.initial, minlength=B)
+    expected_initial = reset_blind[blind] * weight / mass[blind]
+    if not np.allclose(expected_initial, model.initial):
+        raise AnalysisError("the reset distribution ties the cue to the start; cue-blind figure not exact")
+    reward = np.zeros((B, model.num_actions))
+    np.add.at(reward, blind, model.reward * (weight / mass[blind])[:, None])
+    objective = Objective(reward, model.discount, model.timeout_reward)
+    _, blind_policy = optimise_tables(blind_next[rep], model.terminal[rep], model.horizon, objective)
+    return blind_policy[:, blind]
+
+
+def chance_baseline(model: TaskModel) -> Baseline:
+    """Exact figures of the best agent that never uses the cue (the chance level)."""
+    return _figures(model, cue_blind_policy(model), CHANCE_CLASS)

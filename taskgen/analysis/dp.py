@@ -1,0 +1,140 @@
+"""Exact dynamic programming on a compiled model: finite-horizon optimisation and evaluation.
+
+Policies are either deterministic, ``int[H, S]`` (an action per step and state), or
+stochastic and stationary, ``float[S, A]`` (action probabilities per state).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import AnalysisError
+from ..model import TaskModel
+
+TIE_TOLERANCE = 1e-12
+
+
+@dataclass(frozen=True)
+class Objective:
+    """What a DP sums: per-step payoff, discount and what reaching the horizon adds."""
+
+    reward: np.ndarray   # float64[S, A]
+    discount: float
+    timeout: float
+
+    @classmethod
+    def task_return(cls, model: TaskModel) -> "Objective":
+        """The task's own return: its rewards, discount and timeout reward."""
+        return cls(model.reward, model.discount, model.timeout_reward)
+
+    @classmethod
+    def success(cls, model: TaskModel) -> "Objective":
+        """Probability of entering a success state before the horizon."""
+        live = ~model.terminal[:, None]
+        return cls((model.success[model.next_state] & live).astype(np.float64), 1.0, 0.0)
+
+    @classmethod
+    def length(cls, model: TaskModel) -> "Objective":
+        """Expected number of steps the episode lasts."""
+        live = np.broadcast_to(~model.terminal[:, None], model.next_state.shape)
+        return cls(live.astype(np.float64), 1.0, 0.0)
+
+
+def _backup(next_state: np.ndarray, terminal: np.ndarray, objective: Objective,
+            v_next: np.ndarray, last: bool) -> np.ndarray:
+    """Q[s, a] for one step, given the values one step later."""
+    if last:
+        tail = np.where(terminal[next_state] | terminal[:, None], 0.0, objective.timeout)
+        return objective.reward + tail
+    return objective.reward + objective.discount * v_next[next_state]
+
+
+def greedy(q: np.ndarray) -> np.ndarray:
+    """The lowest-numbered action among the best ones (a canonical tie-break)."""
+    return np.argmax(q >= q.max(axis=1, keepdims=True) - TIE_TOLERANCE, axis=1)
+
+
+def optimise_tables(next_state: np.ndarray, terminal: np.ndarray, horizon: int,
+                    objective: Objective) -> tuple[np.ndarray, np.ndarray]:
+    """Backward induction on bare tables: values ``V[H+1, S]`` and greedy policy ``int[H, S]``."""
+    S = next_state.shape[0]
+    values = np.zeros((horizon + 1, S))
+    policy = np.zeros((horizon, S), dtype=np.int64)
+    for t in range(horizon - 1, -1, -1):
+        q = _backup(next_state, terminal, objective, values[t + 1], last=t == horizon - 1)
+        policy[t] = greedy(q)
+        values[t] = q[np.arange(S), policy[t]]
+    return values, policy
+
+
+def optimise(model: TaskModel, objective: Objective | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Best policy of an agent that sees the full state, by backward induction over the horizon."""
+    objective = objective or Objective.task_return(model)
+    return optimise_tables(model.next_state, model.terminal, model.horizon, objective)
+
+
+def evaluate(model: TaskModel, policy: np.ndarray, objective: Objective | None = None) -> np.ndarray:
+    """Exact values ``V[H+1, S]`` of a policy under an objective (default: the task's return)."""
+    objective = objective or Objective.task_return(model)
+    H, S = model.horizon, model.num_states
+    stochastic = policy.dtype.kind == "f"
+    if stochastic and policy.shape != (S, model.num_actions):
+        raise AnalysisError(f"a stochastic policy must have shape (S, A) = {(S, model.num_actions)}")
+    if not stochastic and policy.shape != (H, S):
+        raise AnalysisError(f"a deterministic policy must have shape (H, S) = {(H, S)}")
+    values = np.zeros((H + 1, S))
+    for t in range(H - 1, -1, -1):
+        q = _backup(model.next_state, model.terminal, objective, values[t + 1], last=t == H - 1)
+        values[t] = (q * policy).sum(axis=1) if stochastic else q[np.arange(S), policy[t]]
+    return values
+
+
+def at_reset(model: TaskModel, values: np.ndarray) -> float:
+    """Expected value at reset (``values`` is ``V[H+1, S]`` or ``V[S]``)."""
+    v0 = values[0] if values.ndim == 2 else values
+    return float(model.initial @ v0)
+
+
+def uniform_policy(model: TaskModel) -> np.ndarray:
+    """The uniform-random policy as ``float[S, A]``."""
+    return np.full((model.num_states, model.num_actions), 1.0 / model.num_actions)
+
+
+def hitting_times(model: TaskModel, policy: np.ndarray, target: np.ndarray,
+                  cost: np.ndarray | None = None) -> np.ndarray:
+    """Expected cost accumulated before first entering ``target`` under a stationary stochastic
+    policy, with no step limit, per start state (0 on the target). Solved as a linear system.
+
+    ``cost[s, a]`` defaults to 1 (expected steps). Every state must reach the target with
+    probability 1, or the expectation does not exist and AnalysisError is raised.
+    """
+    S = model.num_states
+    cost = np.ones((S, model.num_actions)) if cost is None else cost
+    transient = np.flatnonzero(~target)
+    index = -np.ones(S, dtype=np.int64)
+    index[transient] = np.arange(transient.size)
+    P = np.zeros((transient.size, transient.size))
+    rows = np.repeat(np.arange(transient.size), model.num_actions)
+    cols = index[model.next_state[transient]].ravel()
+    probs = policy[transient].ravel()
+    inside = cols >= 0
+    np.add.at(P, (rows[inside], cols[inside]), probs[inside])
+    c = (policy[transient] * cost[transient]).sum(axis=1)
+    escape = 1.0 - P.sum(axis=1)
+    if not _drains(P, escape):
+        raise AnalysisError("the target is not reached with probability 1 from every state")
+    h = np.zeros(S)
+    h[transient] = np.linalg.solve(np.eye(transient.size) - P, c)
+    return h
+
+
+def _drains(P: np.ndarray, escape: np.ndarray) -> bool:
+    """True when every transient state can leak out of the transient set."""
+    can = escape > 1e-15
+    while True:
+        more = can | ((P > 0) & can[None, :]).any(axis=1)
+        if (more == can).all():
+            return bool(can.all())
+        can = more

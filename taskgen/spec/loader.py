@@ -1,0 +1,211 @@
+"""Read spec text into a validated :class:`Spec`, turning every problem into a located SpecError."""
+
+from __future__ import annotations
+
+import difflib
+import os
+from pathlib import Path
+from typing import Any, Mapping
+
+import yaml
+from pydantic import BaseModel, ValidationError
+
+from ..errors import Location, SpecError, SpecErrors
+from .params import describe
+from .schema import Spec
+
+PathKey = tuple[Any, ...]
+
+
+class _Positions:
+    """Line and column (1-based) of every key and value in a YAML document, by field path."""
+
+    def __init__(self, source: str) -> None:
+        self.source = source
+        self.values: dict[PathKey, tuple[int, int]] = {}
+        self.keys: dict[PathKey, tuple[int, int]] = {}
+        self.overridden: dict[PathKey, str] = {}
+
+    def locate(self, path: PathKey, field: str, at_key: bool = False) -> Location:
+        """The position of ``path``, or of its nearest ancestor that the file has."""
+        for n in range(len(path), 0, -1):
+            if path[:n] in self.overridden:
+                return Location(f"override {self.overridden[path[:n]]}", None, None, field)
+        table = self.keys if at_key and path in self.keys else self.values
+        probe = tuple(path)
+        while probe and probe not in table:
+            probe = probe[:-1]
+            table = self.values
+        line, column = table.get(probe, (None, None))
+        return Location(self.source, line, column, field)
+
+
+def _mark(node: yaml.Node) -> tuple[int, int]:
+    return node.start_mark.line + 1, node.start_mark.column + 1
+
+
+def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positions) -> Any:
+    """Build plain Python data from a node tree, recording positions and refusing duplicate keys."""
+    pos.values[path] = _mark(node)
+    if isinstance(node, yaml.MappingNode):
+        out: dict[Any, Any] = {}
+        for key_node, value_node in node.value:
+            key = loader.construct_object(key_node, deep=True)
+            if not isinstance(key, str):
+                line, col = _mark(key_node)
+                raise SpecError(Location(pos.source, line, col, ".".join(map(str, path))),
+                                "expected a text key", describe(key))
+            child = path + (key,)
+            if key in out:
+                line, col = _mark(key_node)
+                first = pos.keys[child]
+                raise SpecError(Location(pos.source, line, col, _dotted(child)),
+                                f"expected each key once (first given at line {first[0]})",
+                                "a duplicate key")
+            pos.keys[child] = _mark(key_node)
+            out[key] = _walk(loader, value_node, child, pos)
+        return out
+    if isinstance(node, yaml.SequenceNode):
+        return [_walk(loader, item, path + (i,), pos) for i, item in enumerate(node.value)]
+    return loader.construct_object(node, deep=True)
+
+
+def _dotted(path: PathKey) -> str:
+    text = ""
+    for part in path:
+        text += f"[{part}]" if isinstance(part, int) else (f".{part}" if text else str(part))
+    return text
+
+
+def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
+    """Parse one YAML document with the safe loader, keeping node positions."""
+    pos = _Positions(source)
+    loader = yaml.SafeLoader(text)
+    try:
+        node = loader.get_single_node()
+        if node is None:
+            raise SpecError(Location(source, 1, 1), "expected a YAML mapping", "an empty document")
+        data = _walk(loader, node, (), pos)
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        line = mark.line + 1 if mark else None
+        column = mark.column + 1 if mark else None
+        problem = exc.problem or exc.context or "unreadable YAML"
+        raise SpecError(Location(source, line, column), "expected valid YAML", problem) from None
+    except yaml.YAMLError as exc:
+        raise SpecError(Location(source), "expected valid YAML", str(exc)) from None
+    finally:
+        loader.dispose()
+    return data, pos
+
+
+def _model_at(path: PathKey) -> type[BaseModel] | None:
+    """The pydantic model whose fields are valid at ``path`` (for did-you-mean hints)."""
+    model: Any = Spec
+    for part in path:
+        if isinstance(part, int) or model is None:
+            continue
+        field = model.model_fields.get(part)
+        if field is None:
+            return None
+        annotation = field.annotation
+        candidates = [annotation, *getattr(annotation, "__args__", ())]
+        model = next((c for c in candidates if isinstance(c, type) and issubclass(c, BaseModel)), None)
+    return model
+
+
+def _number_word(path: PathKey, fallback: Any) -> str:
+    model = _model_at(path[:-1])
+    field = model.model_fields.get(path[-1]) if model and path else None
+    if field is not None and field.annotation is int:
+        return "an integer"
+    if field is not None and field.annotation is float:
+        return "a number"
+    return "an integer" if isinstance(fallback, int) else "a number"
+
+
+def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
+    """One pydantic error dict → one SpecError in taskgen's template."""
+    path = tuple(err["loc"])
+    kind = err["type"]
+    ctx = err.get("ctx") or {}
+    value = err.get("input")
+    field = _dotted(path)
+    if kind == "extra_forbidden":
+        known = list((_model_at(path[:-1]) or Spec).model_fields)
+        found = repr(str(path[-1]))
+        hint = difflib.get_close_matches(str(path[-1]), known, n=1)
+        if hint:
+            found += f"; did you mean '{hint[0]}'?"
+        return SpecError(pos.locate(path, field, at_key=True),
+                         f"expected a known key ({', '.join(known)})", found)
+    if kind == "missing":
+        return SpecError(pos.locate(path, field), "expected this required key", "none")
+    if kind == "taskgen_expected":
+        return SpecError(pos.locate(path, field), f"expected {ctx['expected']}", ctx["found"])
+    bounds = {"greater_than_equal": "≥", "greater_than": ">", "less_than_equal": "≤", "less_than": "<"}
+    if kind in bounds:
+        limit = next(iter(ctx.values()))
+        expected = f"expected {_number_word(path, value)} {bounds[kind]} {limit}"
+        return SpecError(pos.locate(path, field), expected, describe(value))
+    words = {
+        "int_type": "an integer", "int_parsing": "an integer", "int_from_float": "an integer",
+        "float_type": "a number", "float_parsing": "a number", "bool_type": "true or false",
+        "bool_parsing": "true or false", "string_type": "a string", "model_type": "a mapping",
+        "model_attributes_type": "a mapping", "dict_type": "a mapping", "list_type": "a list",
+        "finite_number": "a finite number",
+    }
+    if kind in words:
+        return SpecError(pos.locate(path, field), f"expected {words[kind]}", describe(value))
+    if kind == "literal_error":
+        return SpecError(pos.locate(path, field), f"expected {ctx.get('expected')}", describe(value))
+    if kind == "string_pattern_mismatch":
+        return SpecError(pos.locate(path, field),
+                         "expected lower-case letters, digits and dashes (at most 63)", describe(value))
+    return SpecError(pos.locate(path, field), f"expected {err['msg'].lower()}", describe(value))
+
+
+def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any], pos: _Positions) -> None:
+    """Merge ``a__b__c=value`` keyword overrides into the raw document before validation."""
+    for name, value in overrides.items():
+        path = tuple(name.split("__"))
+        node: Any = data
+        for part in path[:-1]:
+            if not isinstance(node.get(part), dict):
+                node[part] = {}
+            node = node[part]
+        node[path[-1]] = value
+        pos.overridden[path] = name
+
+
+def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | None = None) -> Spec:
+    """Validate parsed YAML data; all problems are raised together as SpecErrors."""
+    if not isinstance(data, dict):
+        raise SpecError(pos.locate((), ""), "expected a YAML mapping at the top level", describe(data))
+    if overrides:
+        data = dict(data)
+        _apply_overrides(data, overrides, pos)
+    try:
+        return Spec.model_validate(data)
+    except ValidationError as exc:
+        errors = [_translate(e, pos) for e in exc.errors(include_url=False)]
+        errors.sort(key=lambda e: (e.location.line or 0, e.location.column or 0))
+        raise (errors[0] if len(errors) == 1 else SpecErrors(errors)) from None
+
+
+def load_spec_text(text: str, source: str = "<spec>", **overrides: Any) -> Spec:
+    """Validate spec text; ``source`` names it in error messages."""
+    data, pos = parse_yaml(text, source)
+    return validate_data(data, pos, overrides)
+
+
+def load_spec(path: str | os.PathLike[str], **overrides: Any) -> Spec:
+    """Read and validate a spec file. Overrides use ``__`` between keys: ``layout__corridor__length=9``."""
+    source = os.fspath(path)
+    try:
+        text = Path(source).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise SpecError(Location(source), "expected a spec file", "no such file") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise SpecError(Location(source), "expected a readable UTF-8 file", str(exc)) from None
+    return load_spec_text(text, source, **overrides)

@@ -1,0 +1,143 @@
+"""The spec language, version 1, as pydantic models: the one place a spec is validated.
+
+Every later stage trusts a validated :class:`Spec`. Field descriptions double as the
+spec reference, so keep them true when behaviour changes.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Any, Literal, Union
+
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+
+from .params import IntParam, expected_error, int_param
+
+FORMAT_VERSION = 1
+MAX_CUE_VALUES = 8
+
+
+class Strict(BaseModel):
+    """Base of every spec block: unknown keys are refused, types are not coerced."""
+
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+
+
+class Corridor(Strict):
+    """A straight corridor from the start to a junction, then one dead-end arm per cue value."""
+
+    length: int_param(0) = Field(  # type: ignore[valid-type]
+        description="Steps from the start cell to the junction (0 puts the start on the junction). "
+        "An integer, {range: [low, high]} or {choice: [...]}, drawn per variant.",
+        examples=[8, {"range": [6, 12]}, {"choice": [4, 8, 16]}],
+    )
+    arm_length: int_param(1) = Field(  # type: ignore[valid-type]
+        default=IntParam(1, 1),
+        description="Cells in each arm beyond the junction's spine; the last cell is the arm's end.",
+        examples=[1, {"range": [1, 3]}],
+    )
+
+
+class Layout(Strict):
+    """Where the agent walks. Version 1 knows one layout family: the corridor."""
+
+    corridor: Corridor = Field(description="A cue-recall corridor with one arm per cue value.")
+
+
+class Cue(Strict):
+    """The signal the agent must remember: which arm is rewarded this episode."""
+
+    values: int = Field(
+        ge=2, le=MAX_CUE_VALUES,
+        description="How many cue values (and arms) there are; drawn uniformly at every reset.",
+        examples=[2, 3],
+    )
+    visible_steps: int = Field(
+        default=1, ge=1,
+        description="The cue is part of the first N observations of an episode (the reset one is the first).",
+        examples=[1, 3],
+    )
+
+
+class Rewards(Strict):
+    """What each outcome pays. Rewards are added, so a step into the right arm end pays step + correct."""
+
+    correct: float = Field(default=1.0, description="Entering the arm end the cue named.", examples=[1.0])
+    wrong: float = Field(default=0.0, description="Entering any other arm end (the episode ends).", examples=[-1.0])
+    step: float = Field(default=0.0, description="Paid on every step, the last one included.", examples=[-0.01])
+    timeout: float = Field(
+        default=0.0, description="Added on the step that reaches the step limit without an arm end.",
+        examples=[-0.5],
+    )
+
+
+def _max_steps(value: Any) -> Any:
+    if value == "auto" or (isinstance(value, int) and not isinstance(value, bool) and value >= 1):
+        return value
+    raise expected_error("an integer ≥ 1 or 'auto'", value)
+
+
+class Episode(Strict):
+    """How long an episode may last and how the analyses weigh time."""
+
+    max_steps: Annotated[Union[int, Literal["auto"]], BeforeValidator(_max_steps)] = Field(
+        default="auto",
+        description="Step limit (truncation). 'auto' sets it to ceil(max_steps_factor × the longest "
+        "shortest solution over cue values) for each variant.",
+        examples=["auto", 40],
+    )
+    max_steps_factor: float = Field(
+        default=2.0, ge=1.0, description="Multiplier used when max_steps is 'auto'.", examples=[2.0]
+    )
+    discount: float = Field(
+        default=1.0, gt=0.0, le=1.0,
+        description="Discount factor γ of the returns the analyses report (the environment never discounts).",
+        examples=[1.0, 0.99],
+    )
+
+
+class Noise(Strict):
+    """Distractor bits appended to the vector: each flips with the given probability every step."""
+
+    bits: int = Field(ge=1, le=1024, description="How many noise bits.", examples=[8])
+    flip_probability: float = Field(
+        ge=0.0, le=1.0, description="Chance that a bit flips on a step (initial bits are uniform).",
+        examples=[0.1],
+    )
+
+
+class VectorObservation(Strict):
+    """A flat float32 vector made of named blocks, in this order: cue, position, walls, noise."""
+
+    cue: bool = Field(default=True, description="One bit per cue value, set while the cue is visible.")
+    position: Literal["one_hot", "coordinates", "none"] = Field(
+        default="one_hot",
+        description="one_hot: a bit per cell; coordinates: row and column scaled to [0, 1]; none: no position.",
+        examples=["one_hot"],
+    )
+    walls: bool = Field(default=True, description="Four bits: a wall to the north, east, south, west.")
+    noise: Noise | None = Field(default=None, description="Distractor noise bits, or null for none.")
+
+
+class Observation(Strict):
+    """What the agent receives. Version 1 offers the vector observation."""
+
+    vector: VectorObservation = Field(default_factory=VectorObservation, description="The vector observation.")
+
+
+class Spec(Strict):
+    """A memory-task spec: one YAML document."""
+
+    format_version: Literal[1] = Field(
+        description="Version of the spec language this file is written in.", examples=[1]
+    )
+    name: str = Field(
+        pattern=r"^[a-z0-9][a-z0-9-]{0,62}$",
+        description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v0.",
+        examples=["orchard-gate"],
+    )
+    description: str = Field(default="", description="What the task tests, in a sentence or two.")
+    layout: Layout = Field(description="The layout family and its parameters.")
+    cue: Cue = Field(description="The cue to remember.")
+    rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.")
+    episode: Episode = Field(default_factory=Episode, description="Step limit and discount.")
+    observation: Observation = Field(default_factory=Observation, description="What the agent sees.")
