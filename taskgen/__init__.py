@@ -1,0 +1,27 @@
+"""taskgen: compile YAML memory-task specs into seeded, checked Gymnasium environments.
+
+Pipeline: spec text → :class:`Spec` → :class:`Variant` → :class:`TaskModel` → analyses,
+environments and renderers → the ``taskgen`` command line.
+"""
+
+from importlib.metadata import PackageNotFoundError, version
+
+from .analysis import VariantReport, analyse
+from .envs import TaskEnv, build_model, bundled_specs, make, register_bundled
+from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
+from .model import TaskModel, compile_variant
+from .spec import Spec, load_spec, load_spec_text
+from .variant import Variant, make_variant
+
+try:
+    __version__ = version("taskgen")
+except PackageNotFoundError:  # a source checkout that was never installed
+    __version__ = "0.0.0+source"
+
+register_bundled()
+
+__all__ = [
+    "AnalysisError", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskgenError", "Variant",
+    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "compile_variant",
+    "load_spec", "load_spec_text", "make", "make_variant", "register_bundled",
+]

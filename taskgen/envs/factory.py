@@ -1,0 +1,73 @@
+"""Build environments from a spec, a spec file or a bundled spec name; register bundled specs."""
+
+from __future__ import annotations
+
+import os
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+import gymnasium as gym
+import yaml
+
+from ..model import TaskModel, compile_variant
+from ..render import vector_layout
+from ..spec import Spec, load_spec, load_spec_text
+from ..variant import make_variant
+from .single import TaskEnv
+
+NAMESPACE = "taskgen"
+
+
+def bundled_specs() -> dict[str, Path]:
+    """The example specs shipped with taskgen, by spec file stem."""
+    try:
+        folder = Path(str(resources.files("taskgen._specs")))
+    except ModuleNotFoundError:
+        folder = Path(__file__).resolve().parents[2] / "specs"   # a source checkout
+    return {p.stem: p for p in sorted(folder.glob("*.yaml"))}
+
+
+def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) -> Spec:
+    """A Spec as given, or loaded from a path or a bundled spec's name."""
+    if isinstance(spec_or_path, Spec):
+        if overrides:  # re-validate with the overrides applied
+            return load_spec_text(yaml.safe_dump(spec_or_path.model_dump(mode="json")),
+                                  f"<spec {spec_or_path.name}>", **overrides)
+        return spec_or_path
+    path = Path(spec_or_path)
+    if not path.exists() and str(spec_or_path) in bundled_specs():
+        path = bundled_specs()[str(spec_or_path)]
+    return load_spec(path, **overrides)
+
+
+def build_model(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
+                **overrides: Any) -> TaskModel:
+    """Spec → variant (``seed``, default 0) → compiled model, in one call."""
+    spec = resolve_spec(spec_or_path, **overrides)
+    return compile_variant(make_variant(spec, 0 if seed is None else seed))
+
+
+def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
+         render_mode: str | None = None, **overrides: Any) -> TaskEnv:
+    """A ``gymnasium.Env`` for one variant of a spec.
+
+    ``seed`` names the variant (its sampled parameters and layout; None means variant 0);
+    episodes are seeded as usual through ``reset(seed=...)``. Overrides replace spec fields,
+    with ``__`` between keys: ``make("specs/x.yaml", layout__corridor__length=12)``.
+    """
+    spec = resolve_spec(spec_or_path, **overrides)
+    model = compile_variant(make_variant(spec, 0 if seed is None else seed))
+    return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
+
+
+def register_bundled() -> list[str]:
+    """Register every bundled spec as ``taskgen/<name>-v0`` (idempotent); returns the IDs."""
+    ids = []
+    for stem, path in bundled_specs().items():
+        env_id = f"{NAMESPACE}/{stem}-v0"
+        if env_id not in gym.registry:
+            gym.register(id=env_id, entry_point="taskgen.envs.factory:make",
+                         kwargs={"spec_or_path": str(path)}, disable_env_checker=False)
+        ids.append(env_id)
+    return ids

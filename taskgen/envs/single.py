@@ -1,0 +1,87 @@
+"""Stage 5b of the pipeline: one Gymnasium environment that steps through a model's tables."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import gymnasium as gym
+import numpy as np
+from gymnasium import spaces
+
+from ..model import TaskModel
+from ..render import TopDownRenderer, VectorLayout
+
+
+class TaskEnv(gym.Env):
+    """A compiled task as a ``gymnasium.Env`` with a vector observation.
+
+    Actions are ``Discrete(4)``: north, east, south, west. Rewards, termination and
+    truncation come from the model's tables and step limit. ``info`` holds ``variant_id``,
+    ``step`` and, under ``analysis_only``, the hidden cue and the model state: these are for
+    analyses and baselines only; an agent that reads them is no longer tested on memory.
+    """
+
+    metadata = {"render_modes": ["rgb_array"], "render_fps": 6}
+
+    def __init__(self, model: TaskModel, vector: VectorLayout, render_mode: str | None = None) -> None:
+        if render_mode is not None and render_mode not in self.metadata["render_modes"]:
+            raise ValueError(f"render_mode must be one of {self.metadata['render_modes']} or None, "
+                             f"got {render_mode!r}")
+        self.model = model
+        self.vector = vector
+        self.render_mode = render_mode
+        self.observation_blocks = dict(vector.blocks)
+        self.observation_space = spaces.Box(0.0, 1.0, shape=(vector.size,), dtype=np.float32)
+        self.action_space = spaces.Discrete(model.num_actions)
+        self._starts = model.initial_states()
+        self._start_probs = model.initial[self._starts]
+        self._renderer: TopDownRenderer | None = None
+        self._state = int(self._starts[0])
+        self._step = 0
+        self._noise = np.zeros(vector.noise_bits, dtype=bool)
+
+    def _observation(self) -> np.ndarray:
+        clean = self.vector.table[self.model.obs_key[self._state]]
+        if not self.vector.noise_bits:
+            return clean.copy()
+        return np.concatenate([clean, self._noise.astype(np.float32)])
+
+    def _info(self) -> dict[str, Any]:
+        return {
+            "variant_id": self.model.variant_id,
+            "step": self._step,
+            "analysis_only": {"cue": int(self.model.hidden[self._state]), "state": self._state},
+        }
+
+    def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
+        """Draw the cue (and noise bits) from ``np_random`` and return the first observation."""
+        super().reset(seed=seed)
+        self._state = int(self.np_random.choice(self._starts, p=self._start_probs))
+        self._step = 0
+        if self.vector.noise_bits:
+            self._noise = self.np_random.random(self.vector.noise_bits) < 0.5
+        return self._observation(), self._info()
+
+    def step(self, action: int):
+        """Move by the model's tables; flip noise bits; truncate at the step limit."""
+        if not self.action_space.contains(action):
+            raise ValueError(f"action must be an integer in [0, {self.model.num_actions}), got {action!r}")
+        s = self._state
+        self._state = int(self.model.next_state[s, action])
+        reward = float(self.model.reward[s, action])
+        self._step += 1
+        terminated = bool(self.model.terminal[self._state])
+        truncated = not terminated and self._step >= self.model.horizon
+        if truncated:
+            reward += self.model.timeout_reward
+        if self.vector.noise_bits:
+            self._noise ^= self.np_random.random(self.vector.noise_bits) < self.vector.flip_probability
+        return self._observation(), reward, terminated, truncated, self._info()
+
+    def render(self) -> np.ndarray | None:
+        """A top-down RGB picture of the current state (``render_mode="rgb_array"``)."""
+        if self.render_mode is None:
+            return None
+        if self._renderer is None:
+            self._renderer = TopDownRenderer(self.model)
+        return self._renderer.frame(int(self.model.obs_key[self._state]))

@@ -1,0 +1,6 @@
+"""Stage 5c of the pipeline: observation keys → arrays (vectors, pictures)."""
+
+from .topdown import TopDownRenderer
+from .vector import VectorLayout, vector_layout
+
+__all__ = ["TopDownRenderer", "VectorLayout", "vector_layout"]
