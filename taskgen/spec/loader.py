@@ -178,6 +178,19 @@ def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any], pos: _P
         pos.overridden[path] = name
 
 
+def _explained_by_typo(err: Mapping[str, Any], errors: list[Any]) -> bool:
+    """A missing key whose misspelling sits beside it is reported once, as the unknown key."""
+    if err["type"] != "missing":
+        return False
+    parent, name = tuple(err["loc"][:-1]), err["loc"][-1]
+    for other in errors:
+        loc = tuple(other["loc"])
+        if other["type"] == "extra_forbidden" and loc[:-1] == parent:
+            if name in difflib.get_close_matches(str(loc[-1]), [name], n=1):
+                return True
+    return False
+
+
 def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | None = None) -> Spec:
     """Validate parsed YAML data; all problems are raised together as SpecErrors."""
     if not isinstance(data, dict):
@@ -188,7 +201,8 @@ def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | Non
     try:
         return Spec.model_validate(data)
     except ValidationError as exc:
-        errors = [_translate(e, pos) for e in exc.errors(include_url=False)]
+        raw = exc.errors(include_url=False)
+        errors = [_translate(e, pos) for e in raw if not _explained_by_typo(e, raw)]
         errors.sort(key=lambda e: (e.location.line or 0, e.location.column or 0))
         raise (errors[0] if len(errors) == 1 else SpecErrors(errors)) from None
 

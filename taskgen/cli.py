@@ -1,0 +1,68 @@
+"""The `taskgen` command line: a thin shell over taskgen.tools."""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+import traceback
+
+import click
+
+from .errors import TaskgenError
+from .envs import resolve_spec
+from .tools import format_text, run_check
+
+EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="taskgen")
+def cli() -> None:
+    """Compile memory-task specs into checked Gymnasium environments."""
+
+
+@cli.command()
+@click.argument("spec", type=click.Path(dir_okay=False))
+@click.option("--variants", "-n", default=1, show_default=True, type=click.IntRange(min=1),
+              help="How many variants to compile and analyse.")
+@click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
+              help="Seed of the first variant; the others follow it.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
+def check(spec: str, variants: int, seed: int, as_json: bool) -> None:
+    """Validate SPEC, compile variants and report solvability, recall distance and baselines.
+
+    Exits 0 when every check passes, 1 when one fails, 2 on a bad spec.
+    """
+    run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed)
+    if as_json:
+        click.echo(json.dumps(run.to_dict(), indent=2))
+    else:
+        click.echo(format_text(run))
+    sys.exit(0 if run.ok else EXIT_FAILED)
+
+
+def main() -> None:
+    """Entry point: bad input exits 2 with a located message, never a traceback."""
+    try:
+        cli.main(standalone_mode=False)
+    except click.exceptions.Abort:
+        click.echo("aborted", err=True)
+        sys.exit(130)
+    except click.ClickException as exc:
+        exc.show()
+        sys.exit(EXIT_BAD_INPUT)
+    except TaskgenError as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    except SystemExit:
+        raise
+    except Exception as exc:  # a bug in taskgen: say so plainly, trace only on request
+        if os.environ.get("TASKGEN_DEBUG"):
+            traceback.print_exc()
+        click.echo(f"internal error: {type(exc).__name__}: {exc} (set TASKGEN_DEBUG=1 for a trace)", err=True)
+        sys.exit(EXIT_INTERNAL)
+
+
+if __name__ == "__main__":
+    main()
