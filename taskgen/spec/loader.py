@@ -47,6 +47,12 @@ def _mark(node: yaml.Node) -> tuple[int, int]:
 def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positions) -> Any:
     """Build plain Python data from a node tree, recording positions and refusing duplicate keys."""
     pos.values[path] = _mark(node)
+    plain = {yaml.MappingNode: "tag:yaml.org,2002:map", yaml.SequenceNode: "tag:yaml.org,2002:seq"}
+    if type(node) in plain and node.tag != plain[type(node)]:
+        line, col = _mark(node)
+        raise SpecError(Location(pos.source, line, col, _dotted(path)),
+                        "expected plain YAML without tags",
+                        "the tag " + node.tag.replace("tag:yaml.org,2002:", "!!"))
     if isinstance(node, yaml.MappingNode):
         out: dict[Any, Any] = {}
         for key_node, value_node in node.value:

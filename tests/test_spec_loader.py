@@ -1,0 +1,120 @@
+"""Loading specs: located errors in one template, unknown-key hints, overrides."""
+
+from __future__ import annotations
+
+import pytest
+
+from taskgen import SpecError, load_spec, load_spec_text
+from taskgen.spec import IntParam
+
+GOOD = """\
+format_version: 1
+name: tiny
+layout:
+  corridor:
+    length: 4
+cue:
+  values: 2
+"""
+
+
+def test_minimal_spec_gets_defaults():
+    """A spec with only the required keys validates and fills in the documented defaults."""
+    spec = load_spec_text(GOOD)
+    assert spec.layout.corridor.length == IntParam(4, 4)
+    assert spec.layout.corridor.arm_length == IntParam(1, 1)
+    assert spec.cue.visible_steps == 1
+    assert spec.episode.max_steps == "auto"
+    assert spec.observation.vector.position == "one_hot"
+
+
+# Exact messages: the template "file:line:col: field: expected ..., got ..." (common practice,
+# the compiler-style location prefix that editors and terminals turn into links).
+@pytest.mark.parametrize("text, message", [
+    (GOOD.replace("length: 4", "length: -3"),
+     "x.yaml:5:13: layout.corridor.length: expected an integer ≥ 0, got -3"),
+    (GOOD.replace("length: 4", "lenght: 4"),
+     "x.yaml:5:5: layout.corridor.lenght: expected a known key (length, arm_length), "
+     "got 'lenght'; did you mean 'length'?"),
+    (GOOD.replace("values: 2", "values: two"),
+     "x.yaml:7:11: cue.values: expected an integer, got 'two'"),
+    (GOOD.replace("values: 2", "values: 2.5"),
+     "x.yaml:7:11: cue.values: expected an integer, got 2.5"),
+    (GOOD.replace("values: 2", "values: 9"),
+     "x.yaml:7:11: cue.values: expected an integer ≤ 8, got 9"),
+    (GOOD.replace("values: 2", "values: true"),
+     "x.yaml:7:11: cue.values: expected an integer, got true"),
+    (GOOD.replace("length: 4", "length: {range: [9, 3]}"),
+     "x.yaml:5:13: layout.corridor.length: expected range: low ≤ high, got '[9, 3]'"),
+    (GOOD.replace("length: 4", "length: {between: [1, 3]}"),
+     "x.yaml:5:13: layout.corridor.length: expected an integer ≥ 0, {range: [low, high]} "
+     "or {choice: [...]}, got a mapping"),
+    (GOOD + "episode: {max_steps: 0}\n",
+     "x.yaml:8:22: episode.max_steps: expected an integer ≥ 1 or 'auto', got 0"),
+    (GOOD + "colour: red\n",
+     "x.yaml:8:1: colour: expected a known key (format_version, name, description, layout, cue, "
+     "rewards, episode, observation), got 'colour'"),
+    (GOOD.replace("format_version: 1", "format_version: 2"),
+     "x.yaml:1:17: format_version: expected 1, got 2"),
+    (GOOD.replace("name: tiny", "name: Tiny Task"),
+     "x.yaml:2:7: name: expected lower-case letters, digits and dashes (at most 63), got 'Tiny Task'"),
+    (GOOD.replace("    length: 4\n", ""),
+     "x.yaml:4:12: layout.corridor: expected a mapping, got null"),
+    (GOOD.replace("cue:\n  values: 2\n", ""),
+     "x.yaml:1:1: cue: expected this required key, got none"),
+    ("format_version: 1\nname: [unclosed\n",
+     "x.yaml:3:1: expected valid YAML, got expected ',' or ']', but got '<stream end>'"),
+    (GOOD + "cue: {values: 3}\n",
+     "x.yaml:8:1: cue: expected each key once (first given at line 6), got a duplicate key"),
+    ("- 1\n- 2\n", "x.yaml:1:1: expected a YAML mapping at the top level, got a list"),
+    ("", "x.yaml:1:1: expected a YAML mapping, got an empty document"),
+])
+def test_bad_spec_gives_exact_located_message(text, message):
+    """Each kind of bad input is reported with file, line, column, field, expected and found."""
+    with pytest.raises(SpecError) as info:
+        load_spec_text(text, "x.yaml")
+    assert str(info.value).splitlines()[0] == message
+
+
+def test_broken_yaml_points_at_the_problem():
+    """A YAML syntax error carries the parser's own position (PyYAML marks, 0-based → 1-based)."""
+    with pytest.raises(SpecError, match=r"^x\.yaml:2:6: expected valid YAML, got mapping values are not"):
+        load_spec_text("name: a\nkey: : b\n", "x.yaml")
+
+
+def test_unsafe_tag_is_refused_with_a_location():
+    """Python object tags are refused at the tag's position, on collections and on scalars."""
+    with pytest.raises(SpecError, match=r"^x\.yaml:2:7: name: expected plain YAML without tags, "
+                       r"got the tag !!python/object/apply:os.system$"):
+        load_spec_text("format_version: 1\nname: !!python/object/apply:os.system ['true']\n", "x.yaml")
+    with pytest.raises(SpecError, match=r"^x\.yaml:2:7: expected valid YAML, got could not determine"):
+        load_spec_text("format_version: 1\nname: !!python/name:os.system\n", "x.yaml")
+
+
+def test_several_errors_are_reported_together_in_file_order():
+    """All problems of a spec are listed, sorted by position, so one run shows them all."""
+    text = GOOD.replace("length: 4", "length: -1").replace("values: 2", "values: 1")
+    with pytest.raises(SpecError) as info:
+        load_spec_text(text, "x.yaml")
+    lines = str(info.value).splitlines()
+    assert [line.split(": ")[0] for line in lines] == ["x.yaml:5:13", "x.yaml:7:11"]
+
+
+def test_missing_file_is_a_spec_error(tmp_path):
+    """A path that does not exist is a SpecError naming it, not an OSError."""
+    with pytest.raises(SpecError, match="no such file"):
+        load_spec(tmp_path / "absent.yaml")
+
+
+def test_overrides_replace_fields_and_are_validated():
+    """Keyword overrides with __ between keys replace fields; bad ones name the override."""
+    spec = load_spec_text(GOOD, layout__corridor__length={"range": [2, 5]}, cue__values=3)
+    assert spec.layout.corridor.length == IntParam(2, 5)
+    assert spec.cue.values == 3
+    with pytest.raises(SpecError, match=r"^override cue__values: cue.values: expected an integer ≥ 2, got 1"):
+        load_spec_text(GOOD, cue__values=1)
+
+
+def test_example_specs_load(example_spec):
+    """Every bundled example spec validates."""
+    assert load_spec(example_spec).format_version == 1
