@@ -1,0 +1,71 @@
+"""The command line: exit codes, JSON shape, located errors without tracebacks."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+import taskgen
+
+from conftest import corridor_spec_text
+
+
+def _run(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "taskgen.cli", *args], capture_output=True, text=True)
+
+
+def test_check_passes_on_every_example(example_spec):
+    """`taskgen check` exits 0 on each example and ends with 'ok'."""
+    out = _run("check", example_spec, "--variants", "3")
+    assert out.returncode == 0, out.stdout + out.stderr
+    assert out.stdout.rstrip().endswith("ok")
+
+
+def test_check_json_has_the_documented_shape():
+    """--json prints one object: ok, baselines (optimal/chance/random with success_rate,
+    mean_return, method) and a row per variant."""
+    path = str(taskgen.bundled_specs()["lantern-hall"])
+    out = _run("check", path, "--variants", "2", "--seed", "4", "--json")
+    data = json.loads(out.stdout)
+    assert data["ok"] is True and len(data["variants"]) == 2
+    assert [v["variant_id"] for v in data["variants"]] == ["lantern-hall-s4", "lantern-hall-s5"]
+    for name in ("optimal", "chance", "random"):
+        assert {"success_rate", "mean_return", "method"} <= set(data["baselines"][name])
+        assert data["baselines"][name]["method"] == "exact"
+    assert data["baselines"]["chance"]["success_rate"] == pytest.approx(0.5)
+
+
+def test_failed_check_exits_1_and_names_the_variant_and_cue(tmp_path):
+    """A step limit below the shortest solution fails solvability, naming variant and cue."""
+    spec = tmp_path / "short.yaml"
+    spec.write_text(corridor_spec_text(length=6, episode={"max_steps": 4}))
+    out = _run("check", str(spec), "--json")
+    assert out.returncode == 1
+    checks = {c["name"]: c for c in json.loads(out.stdout)["variants"][0]["checks"]}
+    assert not checks["solvable"]["ok"]
+    assert checks["solvable"]["detail"].startswith("test-corridor-s0: cue 0: shortest solution 9 steps "
+                                                  "exceeds the step limit 4")
+
+
+@pytest.mark.parametrize("text, message", [
+    ("format_version: 1\nname: x\nlayout: {corridor: {length: -3}}\ncue: {values: 2}\n",
+     "error: {path}:3:29: layout.corridor.length: expected an integer ≥ 0, got -3"),
+    ("name: [\n", "error: {path}:2:1: expected valid YAML"),
+])
+def test_bad_spec_exits_2_with_a_located_message(tmp_path, text, message):
+    """A bad spec prints the located message on stderr, exits 2 and shows no traceback."""
+    spec = tmp_path / "bad.yaml"
+    spec.write_text(text)
+    out = _run("check", str(spec))
+    assert out.returncode == 2
+    assert out.stderr.startswith(message.format(path=spec))
+    assert "Traceback" not in out.stderr and out.stdout == ""
+
+
+def test_usage_errors_exit_2():
+    """A wrong option value is a usage error (exit 2), not a crash."""
+    out = _run("check", "x.yaml", "--variants", "0")
+    assert out.returncode == 2 and "Traceback" not in out.stderr
