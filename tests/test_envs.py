@@ -158,3 +158,12 @@ def test_same_spec_and_seed_give_the_same_episodes_in_two_processes(spec_name):
     exec(compile(script.replace("print(h.hexdigest())", "result = h.hexdigest()"), "<episode>", "exec"),
          local)
     assert local["result"] in digests
+
+
+def test_bundled_specs_are_the_repository_examples():
+    """The specs shipped with the package are the files in specs/ (so no example is skipped)."""
+    from pathlib import Path
+
+    repo_specs = Path(__file__).resolve().parents[1] / "specs"
+    assert sorted(taskgen.bundled_specs()) == sorted(p.stem for p in repo_specs.glob("*.yaml"))
+    assert len(taskgen.bundled_specs()) >= 2

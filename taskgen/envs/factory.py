@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import os
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -21,10 +20,10 @@ NAMESPACE = "taskgen"
 
 def bundled_specs() -> dict[str, Path]:
     """The example specs shipped with taskgen, by spec file stem."""
-    try:
-        folder = Path(str(resources.files("taskgen._specs")))
-    except ModuleNotFoundError:
-        folder = Path(__file__).resolve().parents[2] / "specs"   # a source checkout
+    package = Path(__file__).resolve().parents[1]
+    folder = package / "_specs"            # an installed copy
+    if not folder.is_dir():
+        folder = package.parent / "specs"  # a source checkout
     return {p.stem: p for p in sorted(folder.glob("*.yaml"))}
 
 
