@@ -11,7 +11,9 @@ import click
 
 from .errors import TaskgenError
 from .envs import resolve_spec
+from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, run_check
+from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
 
@@ -40,6 +42,28 @@ def check(spec: str, variants: int, seed: int, as_json: bool) -> None:
     else:
         click.echo(format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
+
+
+def _emit(text: str, out: str | None) -> None:
+    if out is None:
+        click.echo(text, nl=False)
+    else:
+        write_text_atomic(out, text)
+        click.echo(f"wrote {out}", err=True)
+
+
+@cli.command()
+@click.option("--out", "-o", type=click.Path(dir_okay=False), help="Write to this file instead of stdout.")
+def schema(out: str | None) -> None:
+    """Print the JSON Schema (draft 2020-12) of the spec language, for editors."""
+    _emit(json_schema_text(), out)
+
+
+@cli.command()
+@click.option("--out", "-o", type=click.Path(dir_okay=False), help="Write to this file instead of stdout.")
+def reference(out: str | None) -> None:
+    """Print the spec reference (Markdown), generated from the same models as the schema."""
+    _emit(reference_markdown(), out)
 
 
 def main() -> None:

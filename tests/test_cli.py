@@ -69,3 +69,15 @@ def test_usage_errors_exit_2():
     """A wrong option value is a usage error (exit 2), not a crash."""
     out = _run("check", "x.yaml", "--variants", "0")
     assert out.returncode == 2 and "Traceback" not in out.stderr
+
+
+def test_schema_and_reference_commands_print_and_write(tmp_path):
+    """`taskgen schema` prints the JSON Schema; `--out` writes the same text to a file."""
+    from taskgen.spec.reference import json_schema_text, reference_markdown
+
+    out = _run("schema")
+    assert out.returncode == 0 and out.stdout == json_schema_text()
+    target = tmp_path / "ref" / "spec-reference.md"
+    out = _run("reference", "--out", str(target))
+    assert out.returncode == 0 and target.read_text() == reference_markdown()
+    assert [p.name for p in target.parent.iterdir()] == ["spec-reference.md"]  # no temporary left

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema
 
 from .params import IntParam, expected_error, int_param
 
@@ -31,7 +31,7 @@ class Corridor(Strict):
         examples=[8, {"range": [6, 12]}, {"choice": [4, 8, 16]}],
     )
     arm_length: int_param(1) = Field(  # type: ignore[valid-type]
-        default=IntParam(1, 1),
+        default=IntParam(1, 1), json_schema_extra={"default": 1},
         description="Cells in each arm beyond the junction's spine; the last cell is the arm's end.",
         examples=[1, {"range": [1, 3]}],
     )
@@ -40,7 +40,8 @@ class Corridor(Strict):
 class Layout(Strict):
     """Where the agent walks. Version 1 knows one layout family: the corridor."""
 
-    corridor: Corridor = Field(description="A cue-recall corridor with one arm per cue value.")
+    corridor: Corridor = Field(description="A cue-recall corridor with one arm per cue value.",
+                               examples=[{"length": 8, "arm_length": 2}])
 
 
 class Cue(Strict):
@@ -79,7 +80,10 @@ def _max_steps(value: Any) -> Any:
 class Episode(Strict):
     """How long an episode may last and how the analyses weigh time."""
 
-    max_steps: Annotated[Union[int, Literal["auto"]], BeforeValidator(_max_steps)] = Field(
+    max_steps: Annotated[
+        Union[int, Literal["auto"]], BeforeValidator(_max_steps),
+        WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1}, {"const": "auto"}]}),
+    ] = Field(
         default="auto",
         description="Step limit (truncation). 'auto' sets it to ceil(max_steps_factor × the longest "
         "shortest solution over cue values) for each variant.",
@@ -108,20 +112,26 @@ class Noise(Strict):
 class VectorObservation(Strict):
     """A flat float32 vector made of named blocks, in this order: cue, position, walls, noise."""
 
-    cue: bool = Field(default=True, description="One bit per cue value, set while the cue is visible.")
+    cue: bool = Field(default=True, description="One bit per cue value, set while the cue is visible.",
+                      examples=[True])
     position: Literal["one_hot", "coordinates", "none"] = Field(
         default="one_hot",
         description="one_hot: a bit per cell; coordinates: row and column scaled to [0, 1]; none: no position.",
         examples=["one_hot"],
     )
-    walls: bool = Field(default=True, description="Four bits: a wall to the north, east, south, west.")
-    noise: Noise | None = Field(default=None, description="Distractor noise bits, or null for none.")
+    walls: bool = Field(default=True, description="Four bits: a wall to the north, east, south, west.",
+                        examples=[True])
+    noise: Noise | None = Field(default=None, description="Distractor noise bits, or null for none.",
+                                examples=[{"bits": 8, "flip_probability": 0.1}])
 
 
 class Observation(Strict):
     """What the agent receives. Version 1 offers the vector observation."""
 
-    vector: VectorObservation = Field(default_factory=VectorObservation, description="The vector observation.")
+    vector: VectorObservation = Field(
+        default_factory=VectorObservation, description="The vector observation.",
+        examples=[{"cue": True, "position": "one_hot", "walls": True}],
+    )
 
 
 class Spec(Strict):
@@ -135,9 +145,14 @@ class Spec(Strict):
         description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v0.",
         examples=["orchard-gate"],
     )
-    description: str = Field(default="", description="What the task tests, in a sentence or two.")
-    layout: Layout = Field(description="The layout family and its parameters.")
-    cue: Cue = Field(description="The cue to remember.")
-    rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.")
-    episode: Episode = Field(default_factory=Episode, description="Step limit and discount.")
-    observation: Observation = Field(default_factory=Observation, description="What the agent sees.")
+    description: str = Field(default="", description="What the task tests, in a sentence or two.",
+                             examples=["Two-arm recall after a hall of 6 to 12 steps."])
+    layout: Layout = Field(description="The layout family and its parameters.",
+                           examples=[{"corridor": {"length": 8}}])
+    cue: Cue = Field(description="The cue to remember.", examples=[{"values": 2, "visible_steps": 1}])
+    rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.",
+                             examples=[{"correct": 1.0, "wrong": -1.0, "step": -0.01}])
+    episode: Episode = Field(default_factory=Episode, description="Step limit and discount.",
+                             examples=[{"max_steps": "auto", "discount": 0.99}])
+    observation: Observation = Field(default_factory=Observation, description="What the agent sees.",
+                                     examples=[{"vector": {"position": "coordinates"}}])
