@@ -11,6 +11,7 @@ from .envs import TaskEnv, build_model, bundled_specs, make, register_bundled
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
 from .model import TaskModel, compile_variant
 from .spec import Spec, load_spec, load_spec_text
+from .tools import check_variant
 from .variant import Variant, make_variant
 
 try:
@@ -22,6 +23,6 @@ register_bundled()
 
 __all__ = [
     "AnalysisError", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskgenError", "Variant",
-    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "compile_variant",
+    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_variant",
     "load_spec", "load_spec_text", "make", "make_variant", "register_bundled",
 ]

@@ -30,13 +30,17 @@ def cli() -> None:
               help="How many variants to compile and analyse.")
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first variant; the others follow it.")
+@click.option("--min-gap", default=0.0, show_default=True, type=float,
+              help="Fail a variant whose memory gap (optimal − chance mean return) is below this.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
-def check(spec: str, variants: int, seed: int, as_json: bool) -> None:
-    """Validate SPEC, compile variants and report solvability, recall distance and baselines.
+def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool) -> None:
+    """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
-    Exits 0 when every check passes, 1 when one fails, 2 on a bad spec.
+    Reports solvability, recall distance, cue leaks, carried cues, the memory gap and the
+    optimal, chance (best memoryless), cue-blind and random baselines. Exits 0 when every check
+    passes, 1 when one fails, 2 on a bad spec.
     """
-    run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed)
+    run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed, min_gap=min_gap)
     if as_json:
         click.echo(json.dumps(run.to_dict(), indent=2))
     else:

@@ -45,8 +45,9 @@ def make_variant(spec: Spec, seed: int = 0) -> Variant:
     params = {
         "length": corridor.length.sample(rng),
         "arm_length": corridor.arm_length.sample(rng),
+        "width": corridor.width,
         "cue_values": spec.cue.values,
         "visible_steps": spec.cue.visible_steps,
     }
-    layout = corridor_layout(params["length"], params["arm_length"], params["cue_values"])
+    layout = corridor_layout(params["length"], params["arm_length"], params["cue_values"], params["width"])
     return Variant(spec=spec, seed=seed, params=params, layout=layout)

@@ -6,19 +6,20 @@ import numpy as np
 import pytest
 
 import taskgen
-from taskgen.analysis import (analyse, chance_baseline, cue_blind_policy, optimal_baseline, optimal_policy,
-                              random_baseline)
+from taskgen.analysis import (analyse, best_memoryless, cue_blind_baseline, cue_blind_policy, optimal_baseline,
+                              optimal_policy)
+from taskgen.tools.check import observation_tables
 
 from conftest import corridor_model, corridor_spec_text
 
 
 @pytest.mark.parametrize("k", [2, 3, 4, 5, 8])
 @pytest.mark.parametrize("length", [1, 6])
-def test_chance_success_is_one_over_k(k, length):
-    """A memoryless guess between k arms succeeds with probability 1/k (common practice for
+def test_cue_blind_success_is_one_over_k(k, length):
+    """A guess between k arms without the cue succeeds with probability 1/k (common practice for
     delayed-choice tasks); the agent that remembers always succeeds."""
     model = corridor_model(length=length, values=k, rewards={"correct": 1.0, "wrong": 0.0, "step": -0.01})
-    assert chance_baseline(model).success_rate == pytest.approx(1 / k, abs=1e-12)
+    assert cue_blind_baseline(model).success_rate == pytest.approx(1 / k, abs=1e-12)
     assert optimal_baseline(model).success_rate == pytest.approx(1.0, abs=1e-12)
 
 
@@ -31,11 +32,11 @@ def test_cue_blind_policy_ignores_the_cue():
         assert (policy[:, members] == policy[:, members[:1]]).all()
 
 
-def test_chance_avoids_arms_when_guessing_does_not_pay():
+def test_cue_blind_avoids_arms_when_guessing_does_not_pay():
     """If a guess is worth less than timing out, the best cue-blind agent never enters an arm
     end (expected guess 1/3·1 + 2/3·(−1) < 0: arithmetic)."""
     model = corridor_model(length=2, values=3, rewards={"correct": 1.0, "wrong": -1.0})
-    chance = chance_baseline(model)
+    chance = cue_blind_baseline(model)
     assert chance.success_rate == 0.0 and chance.mean_return == 0.0
 
 
@@ -68,13 +69,16 @@ def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     env = taskgen.make(spec_name, seed=1)
     model = env.model
     rng = np.random.default_rng(7)
+    spec = taskgen.load_spec(taskgen.bundled_specs()[spec_name])
+    report = analyse(model, observation_tables(model, spec))
+    memoryless = best_memoryless(model, observation_tables(model, spec)).state_policy(model.horizon)
     policies = {
         "optimal": lambda t, info, p=optimal_policy(model): p[t, info["analysis_only"]["state"]],
-        "chance": lambda t, info, p=cue_blind_policy(model): p[t, info["analysis_only"]["state"]],
+        "cue_blind": lambda t, info, p=cue_blind_policy(model): p[t, info["analysis_only"]["state"]],
+        "chance": lambda t, info, p=memoryless: p[t, info["analysis_only"]["state"]],
         "random": lambda t, info: int(rng.integers(model.num_actions)),
     }
-    exact = {"optimal": optimal_baseline(model), "chance": chance_baseline(model),
-             "random": random_baseline(model)}
+    exact = report.baselines
     for name, choose in policies.items():
         returns, successes = _rollouts(env, choose, episodes=1500 if name == "random" else 600, seed=100)
         assert _within_4_se(returns, exact[name].mean_return), name
@@ -91,10 +95,12 @@ def test_undiscounted_figures_are_what_rollouts_sum():
 
 
 def test_report_flags_a_cue_visible_at_the_decision():
-    """A cue shown until the junction needs no memory: the 'cue needed' check fails."""
+    """A cue kept visible to the junction needs no memory: 'cue needed' fails and names the step
+    (three hall steps, so the decision is the action after observation 3)."""
     report = analyse(corridor_model(length=3, visible_steps=10))
     check = {c.name: c for c in report.checks}["cue needed"]
-    assert not check.ok and "still visible" in check.detail
+    assert check.passed is False
+    assert check.reason.startswith("cue 0: the optimal agent decides at step 3 while the cue is still shown")
     assert not report.ok
 
 
@@ -102,4 +108,4 @@ def test_report_flags_rewards_that_ignore_the_cue():
     """When both arms pay the same, remembering the cue is worth nothing: the gap check fails."""
     report = analyse(corridor_model(length=3, rewards={"correct": 1.0, "wrong": 1.0}))
     checks = {c.name: c for c in report.checks}
-    assert not checks["memory gap"].ok
+    assert checks["memory gap"].passed is False

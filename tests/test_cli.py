@@ -32,9 +32,10 @@ def test_check_json_has_the_documented_shape():
     data = json.loads(out.stdout)
     assert data["ok"] is True and len(data["variants"]) == 2
     assert [v["variant_id"] for v in data["variants"]] == ["lantern-hall-s4", "lantern-hall-s5"]
-    for name in ("optimal", "chance", "random"):
+    for name in ("optimal", "chance", "cue_blind", "random"):
         assert {"success_rate", "mean_return", "method"} <= set(data["baselines"][name])
-        assert data["baselines"][name]["method"] == "exact"
+        expected = {"exact", "search lower bound"} if name == "chance" else {"exact"}
+        assert data["baselines"][name]["method"] in expected
     assert data["baselines"]["chance"]["success_rate"] == pytest.approx(0.5)
 
 
@@ -45,8 +46,8 @@ def test_failed_check_exits_1_and_names_the_variant_and_cue(tmp_path):
     out = _run("check", str(spec), "--json")
     assert out.returncode == 1
     checks = {c["name"]: c for c in json.loads(out.stdout)["variants"][0]["checks"]}
-    assert not checks["solvable"]["ok"]
-    assert checks["solvable"]["detail"].startswith("test-corridor-s0: cue 0: shortest solution 9 steps "
+    assert checks["solvable"]["passed"] is False
+    assert checks["solvable"]["reason"].startswith("test-corridor-s0: cue 0: shortest solution 9 steps "
                                                   "exceeds the step limit 4")
 
 

@@ -34,7 +34,7 @@ def test_minimal_spec_gets_defaults():
     (GOOD.replace("length: 4", "length: -3"),
      "x.yaml:5:13: layout.corridor.length: expected an integer ≥ 0, got -3"),
     (GOOD.replace("length: 4", "lenght: 4"),
-     "x.yaml:5:5: layout.corridor.lenght: expected a known key (length, arm_length), "
+     "x.yaml:5:5: layout.corridor.lenght: expected a known key (length, arm_length, width), "
      "got 'lenght'; did you mean 'length'?"),
     (GOOD.replace("values: 2", "values: two"),
      "x.yaml:7:11: cue.values: expected an integer, got 'two'"),

@@ -1,9 +1,11 @@
-"""The three reference agents of a task, each computed exactly on the compiled model.
+"""Reference agents of a task whose figures are computed exactly on the compiled model.
 
 - optimal: remembers the cue (sees the full state), best return by backward induction;
-- chance: never uses the cue (it knows position and time, never the cue value), best return
-  by backward induction over cue-blind states;
+- cue-blind: never knows the cue (it knows position and time, never the cue value), best
+  return by backward induction over cue-blind states;
 - random: picks actions uniformly.
+
+The chance level (the best memoryless agent) lives in memoryless.py.
 """
 
 from __future__ import annotations
@@ -17,9 +19,8 @@ from ..model import TaskModel
 from .dp import Objective, at_reset, evaluate, optimise, optimise_tables, uniform_policy
 
 OPTIMAL_CLASS = "remembers the cue: sees the full state (position, time, cue value)"
-CHANCE_CLASS = ("never uses the cue: sees position and time but not the cue value "
-                "(deterministic, time-dependent; an upper bound for memoryless agents "
-                "that cannot carry the cue in position or timing)")
+CUE_BLIND_CLASS = ("never knows the cue: sees position and time but never the cue value "
+                   "(deterministic, time-dependent)")
 RANDOM_CLASS = "uniform-random actions"
 
 
@@ -32,18 +33,21 @@ class Baseline:
     mean_length: float
     method: str
     policy_class: str
+    method_detail: str = ""
 
     def to_dict(self) -> dict[str, float | str]:
         """Plain-data form for JSON output."""
         return asdict(self)
 
 
-def _figures(model: TaskModel, policy: np.ndarray, policy_class: str) -> Baseline:
+def policy_figures(model: TaskModel, policy: np.ndarray, policy_class: str, method: str = "exact",
+                   method_detail: str = "") -> Baseline:
+    """Exact success rate, return and length of one policy (the method names how it was chosen)."""
     return Baseline(
         success_rate=at_reset(model, evaluate(model, policy, Objective.success(model))),
         mean_return=at_reset(model, evaluate(model, policy)),
         mean_length=at_reset(model, evaluate(model, policy, Objective.length(model))),
-        method="exact", policy_class=policy_class,
+        method=method, policy_class=policy_class, method_detail=method_detail,
     )
 
 
@@ -54,12 +58,12 @@ def optimal_policy(model: TaskModel) -> np.ndarray:
 
 def optimal_baseline(model: TaskModel) -> Baseline:
     """Exact figures of the agent that remembers the cue."""
-    return _figures(model, optimal_policy(model), OPTIMAL_CLASS)
+    return policy_figures(model, optimal_policy(model), OPTIMAL_CLASS)
 
 
 def random_baseline(model: TaskModel) -> Baseline:
     """Exact figures of the uniform-random agent."""
-    return _figures(model, uniform_policy(model), RANDOM_CLASS)
+    return policy_figures(model, uniform_policy(model), RANDOM_CLASS)
 
 
 def cue_blind_policy(model: TaskModel) -> np.ndarray:
@@ -90,6 +94,6 @@ def cue_blind_policy(model: TaskModel) -> np.ndarray:
     return blind_policy[:, blind]
 
 
-def chance_baseline(model: TaskModel) -> Baseline:
-    """Exact figures of the best agent that never uses the cue (the chance level)."""
-    return _figures(model, cue_blind_policy(model), CHANCE_CLASS)
+def cue_blind_baseline(model: TaskModel) -> Baseline:
+    """Exact figures of the best agent that never knows the cue."""
+    return policy_figures(model, cue_blind_policy(model), CUE_BLIND_CLASS)

@@ -1,4 +1,4 @@
-"""Solvability and recall distance, and the report that gathers every figure for one variant."""
+"""Solvability, recall distance and the memory checks, gathered in one report per variant."""
 
 from __future__ import annotations
 
@@ -8,18 +8,27 @@ from typing import Any
 import numpy as np
 
 from ..model import TaskModel, shortest_success_steps
-from .baselines import Baseline, chance_baseline, optimal_baseline, optimal_policy, random_baseline
+from .baselines import (Baseline, cue_blind_baseline, optimal_baseline, optimal_policy, policy_figures,
+                        random_baseline)
+from .leaks import TOLERANCE, carried_cue_witness, static_leak
+from .memoryless import ObservationTables, best_memoryless
 
-GAP_TOLERANCE = 1e-9
+MEMORYLESS_CLASS = ("memoryless, deterministic: acts on the current observation only (noise excluded); "
+                    "stochastic memoryless policies can score higher (Singh, Jaakkola & Jordan, ICML 1994)")
 
 
 @dataclass(frozen=True)
 class Check:
-    """A named pass/fail finding with a one-line explanation."""
+    """A named finding: passed (True/False, or None when it cannot run here) and the reason."""
 
     name: str
-    ok: bool
-    detail: str
+    passed: bool | None
+    reason: str
+
+    @property
+    def failed(self) -> bool:
+        """True only for a check that ran and failed."""
+        return self.passed is False
 
 
 def shortest_solutions(model: TaskModel) -> dict[int, int]:
@@ -42,31 +51,49 @@ def solvability(model: TaskModel) -> Check:
     return Check("solvable", True, f"every cue solvable; shortest {longest} steps, limit {model.horizon}")
 
 
-def decision_step(model: TaskModel, policy: np.ndarray | None = None) -> int | None:
-    """First step whose action sends the optimal agent to cue-dependent places (None: never).
+def decision_steps(model: TaskModel, policy: np.ndarray | None = None) -> dict[int, int | None]:
+    """Per cue value, the first step whose action sends the optimal agent somewhere another cue
+    value's agent does not go (None: its path never parts from the others').
 
-    The dynamics are deterministic, so each cue value gives one trajectory; until the decision
-    they all pass through the same cue-blind states.
+    The dynamics are deterministic, so each cue value gives one trajectory; until its decision a
+    trajectory shares its cue-blind states with at least one other.
     """
     policy = optimal_policy(model) if policy is None else policy
-    states = model.initial_states()
+    starts = model.initial_states()
+    cues = model.hidden[starts]
+    states = starts.copy()
+    decided: dict[int, int | None] = {int(c): None for c in cues}
     for t in range(model.horizon):
         states = model.next_state[states, policy[t, states]]
-        if np.unique(model.blind_state[states]).size > 1:
-            return t
-        if model.terminal[states].all():
-            return None
-    return None
+        blind = model.blind_state[states]
+        for i, c in enumerate(cues):
+            if decided[int(c)] is None and (blind[i] != np.delete(blind, i)).all():
+                decided[int(c)] = t
+        if all(v is not None for v in decided.values()) or model.terminal[states].all():
+            break
+    return decided
+
+
+def decision_step(model: TaskModel, policy: np.ndarray | None = None) -> int | None:
+    """First step at which any cue value's optimal path parts from the others (None: never)."""
+    steps = [t for t in decision_steps(model, policy).values() if t is not None]
+    return min(steps) if steps else None
+
+
+def recall_distances(model: TaskModel, policy: np.ndarray | None = None) -> dict[int, int | None]:
+    """Per cue value: steps between the cue's last visible observation and its decision.
+
+    The cue shows in observations 0 … n−1; an action at step t is taken after observation t, so
+    the distance is t − (n − 1). Zero or less means the cue is still in view at the decision.
+    """
+    return {c: None if t is None else t - (model.cue_visible_steps - 1)
+            for c, t in decision_steps(model, policy).items()}
 
 
 def recall_distance(model: TaskModel, policy: np.ndarray | None = None) -> int | None:
-    """Steps between the cue's last visible observation and the decision, under optimal play.
-
-    The cue shows in observations 0 … n−1; an action at step t is taken after observation t,
-    so the distance is t − (n − 1). Zero or less means the cue is still in view at the decision.
-    """
-    t = decision_step(model, policy)
-    return None if t is None else t - (model.cue_visible_steps - 1)
+    """The shortest recall distance over cue values (None: the cue never matters)."""
+    values = [d for d in recall_distances(model, policy).values() if d is not None]
+    return min(values) if values else None
 
 
 @dataclass
@@ -78,14 +105,25 @@ class VariantReport:
     num_states: int
     horizon: int
     shortest: dict[int, int]
-    recall_distance: int | None
+    recall: dict[int, int | None]
     baselines: dict[str, Baseline]
     checks: list[Check] = field(default_factory=list)
+    witness: str = ""
 
     @property
     def ok(self) -> bool:
-        """True when every check passed."""
-        return all(c.ok for c in self.checks)
+        """True when no check failed."""
+        return not any(c.failed for c in self.checks)
+
+    @property
+    def memory_gap(self) -> float:
+        """Optimal minus chance (best memoryless) mean return."""
+        return self.baselines["optimal"].mean_return - self.baselines["chance"].mean_return
+
+    @property
+    def slack(self) -> int:
+        """Steps the limit allows beyond the longest shortest solution."""
+        return self.horizon - max(self.shortest.values())
 
     def to_dict(self) -> dict[str, Any]:
         """Plain-data form for JSON output."""
@@ -93,32 +131,72 @@ class VariantReport:
             "variant_id": self.variant_id, "ok": self.ok, "params": self.params,
             "states": self.num_states, "max_steps": self.horizon,
             "shortest_solution": {str(k): v for k, v in self.shortest.items()},
-            "recall_distance": self.recall_distance,
+            "step_limit_slack": self.slack,
+            "recall_distance": {str(k): v for k, v in self.recall.items()},
+            "memory_gap": self.memory_gap,
             "baselines": {k: b.to_dict() for k, b in self.baselines.items()},
-            "checks": [{"name": c.name, "ok": c.ok, "detail": c.detail} for c in self.checks],
+            "checks": [{"name": c.name, "passed": c.passed, "reason": c.reason} for c in self.checks],
+            "witness": self.witness,
         }
 
 
-def analyse(model: TaskModel) -> VariantReport:
-    """Run every analysis and check on one compiled variant."""
+def _cue_needed(recall: dict[int, int | None], model: TaskModel) -> Check:
+    if all(d is None for d in recall.values()):
+        return Check("cue needed", False, "the optimal agent's path never depends on the cue")
+    for cue, d in sorted(recall.items()):
+        if d is not None and d <= 0:
+            step = d + model.cue_visible_steps - 1
+            return Check("cue needed", False, f"cue {cue}: the optimal agent decides at step {step} while "
+                         f"the cue is still shown (recall distance {d}): no memory is needed")
+    known = [d for d in recall.values() if d is not None]
+    return Check("cue needed", True, f"recall distance {min(known)}–{max(known)} steps")
+
+
+def analyse(model: TaskModel, observations: ObservationTables | None = None,
+            min_gap: float = 0.0) -> VariantReport:
+    """Run every analysis and check on one compiled variant.
+
+    ``observations`` maps each modality the agent receives to ``(table[K, …], blocks)``, the
+    noise-free rendering of every observation key; without it the observation keys themselves
+    stand for what the agent sees.
+    """
     policy = optimal_policy(model)
-    baselines = {"optimal": optimal_baseline(model), "chance": chance_baseline(model),
-                 "random": random_baseline(model)}
-    distance = recall_distance(model, policy)
-    checks = [solvability(model)]
-    if distance is None:
-        checks.append(Check("cue needed", False, "the optimal agent's path never depends on the cue"))
-    elif distance <= 0:
-        checks.append(Check("cue needed", False, f"the cue is still visible when the optimal agent decides "
-                            f"(recall distance {distance}): no memory is needed"))
+    memoryless = best_memoryless(model, observations)
+    baselines = {
+        "optimal": optimal_baseline(model),
+        "chance": policy_figures(model, memoryless.state_policy(model.horizon), MEMORYLESS_CLASS,
+                                 memoryless.method, memoryless.detail),
+        "cue_blind": cue_blind_baseline(model),
+        "random": random_baseline(model),
+    }
+    recall = recall_distances(model, policy)
+    checks = [solvability(model), _cue_needed(recall, model)]
+
+    leak = static_leak(model, observations)
+    checks.append(Check("no cue leak", leak is None,
+                        "after the display window, cue twins look alike" if leak is None
+                        else f"the cue leaks: {leak.describe()}"))
+
+    witness = ""
+    beat = baselines["chance"].mean_return - baselines["cue_blind"].mean_return
+    if beat > TOLERANCE:
+        found = carried_cue_witness(model, memoryless)
+        witness = found.describe() if found else ""
+        checks.append(Check("no carried cue", False,
+                            f"a memoryless policy beats the cue-blind agent by {beat:.6g}: the cue is "
+                            "carried in position or timing" + (f"; paths part at step {found.diverge_step}"
+                                                               if found else "")))
     else:
-        checks.append(Check("cue needed", True, f"recall distance {distance} steps"))
+        how = "none exists" if memoryless.method == "exact" else "none found by the search"
+        checks.append(Check("no carried cue", True, f"no memoryless policy beats the cue-blind agent ({how})"))
+
     gap = baselines["optimal"].mean_return - baselines["chance"].mean_return
-    checks.append(Check("memory gap", gap > GAP_TOLERANCE,
-                        f"optimal − chance mean return = {gap:.6g}"
-                        + ("" if gap > GAP_TOLERANCE else ": remembering the cue does not pay")))
+    enough = gap > TOLERANCE and gap >= min_gap - TOLERANCE
+    checks.append(Check("memory gap", enough, f"optimal − chance = {gap:.6g}"
+                        + (f" (minimum {min_gap:g})" if min_gap else "")
+                        + ("" if enough else ": remembering the cue does not pay enough")))
     return VariantReport(
         variant_id=model.variant_id, params=dict(model.params), num_states=model.num_states,
-        horizon=model.horizon, shortest=shortest_solutions(model), recall_distance=distance,
-        baselines=baselines, checks=checks,
+        horizon=model.horizon, shortest=shortest_solutions(model), recall=recall,
+        baselines=baselines, checks=checks, witness=witness,
     )

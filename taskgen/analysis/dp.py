@@ -51,21 +51,27 @@ def _backup(next_state: np.ndarray, terminal: np.ndarray, objective: Objective,
     return objective.reward + objective.discount * v_next[next_state]
 
 
-def greedy(q: np.ndarray) -> np.ndarray:
-    """The lowest-numbered action among the best ones (a canonical tie-break)."""
-    return np.argmax(q >= q.max(axis=1, keepdims=True) - TIE_TOLERANCE, axis=1)
-
-
 def optimise_tables(next_state: np.ndarray, terminal: np.ndarray, horizon: int,
                     objective: Objective) -> tuple[np.ndarray, np.ndarray]:
-    """Backward induction on bare tables: values ``V[H+1, S]`` and greedy policy ``int[H, S]``."""
+    """Backward induction on bare tables: values ``V[H+1, S]`` and policy ``int[H, S]``.
+
+    Among actions whose value ties the best (within TIE_TOLERANCE) the policy takes the one that
+    ends the episode soonest, then the lowest-numbered: an optimal agent that does not dawdle,
+    so the step at which it decides is well defined.
+    """
     S = next_state.shape[0]
     values = np.zeros((horizon + 1, S))
+    lengths = np.zeros((horizon + 1, S))
     policy = np.zeros((horizon, S), dtype=np.int64)
+    live = ~terminal[:, None]
+    rows = np.arange(S)
     for t in range(horizon - 1, -1, -1):
         q = _backup(next_state, terminal, objective, values[t + 1], last=t == horizon - 1)
-        policy[t] = greedy(q)
-        values[t] = q[np.arange(S), policy[t]]
+        steps = live * (1.0 + lengths[t + 1][next_state])
+        near = q >= q.max(axis=1, keepdims=True) - TIE_TOLERANCE
+        policy[t] = np.argmin(np.where(near, steps, np.inf), axis=1)
+        values[t] = q[rows, policy[t]]
+        lengths[t] = steps[rows, policy[t]]
     return values, policy
 
 

@@ -35,6 +35,12 @@ class Corridor(Strict):
         description="Cells in each arm beyond the junction's spine; the last cell is the arm's end.",
         examples=[1, {"range": [1, 3]}],
     )
+    width: int = Field(
+        default=1, ge=1, le=16,
+        description="Lanes of the hall. Wider than 1 lets an agent without memory carry the cue in "
+        "the lane it walks; `taskgen check` reports that as a carried cue.",
+        examples=[1, 2],
+    )
 
 
 class Layout(Strict):

@@ -1,0 +1,190 @@
+"""The best memoryless agent: a deterministic map from the current observation to an action.
+
+Observations are the noise-free rows the renderers give each observation key; two states
+with equal rows look the same to the agent. Finding the best memoryless policy of a partially
+observable problem is hard in general, so the figure is exact only when every candidate can be
+enumerated; otherwise it is a lower bound from coordinate ascent in which each candidate is
+evaluated exactly. Stochastic memoryless policies can do better than deterministic ones (Singh,
+Jaakkola & Jordan, ICML 1994); this figure covers the deterministic class only.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+from ..model import TaskModel
+from .baselines import cue_blind_policy, optimal_policy
+
+ObservationTables = Mapping[str, tuple[np.ndarray, Mapping[str, slice]]]
+ENUMERATION_BUDGET = 1 << 16
+PAIR_LIMIT = 48   # observations up to which the search also tries changing two at once
+IMPROVEMENT = 1e-12
+
+
+def observation_classes(model: TaskModel, observations: ObservationTables | None) -> np.ndarray:
+    """int[S]: equal numbers for states the agent cannot tell apart (all modalities together)."""
+    if not observations:
+        return model.obs_key.copy()
+    rows = np.concatenate([np.asarray(table)[model.obs_key].reshape(model.num_states, -1)
+                           for table, _ in observations.values()], axis=1)
+    _, classes = np.unique(rows, axis=0, return_inverse=True)
+    return classes.ravel()
+
+
+def evaluate_memoryless(model: TaskModel, classes: np.ndarray, policies: np.ndarray) -> np.ndarray:
+    """Exact expected return at reset of each deterministic memoryless policy (rows of ``policies``)."""
+    policies = np.atleast_2d(policies)
+    S = model.num_states
+    act = policies[:, classes]                                   # [P, S]
+    ns = model.next_state[np.arange(S)[None, :], act]
+    r = model.reward[np.arange(S)[None, :], act]
+    ends = model.terminal[ns] | model.terminal[None, :]
+    v = r + np.where(ends, 0.0, model.timeout_reward)             # the last step
+    for _ in range(model.horizon - 1):
+        v = r + model.discount * np.take_along_axis(v, ns, axis=1)
+    return v @ model.initial
+
+
+@dataclass(frozen=True)
+class MemorylessResult:
+    """The best deterministic memoryless policy found, its exact value and how it was found."""
+
+    policy: np.ndarray        # int[O], action per observation class
+    classes: np.ndarray       # int[S]
+    mean_return: float
+    method: str               # "exact" or "search lower bound"
+    detail: str
+
+    def state_policy(self, horizon: int) -> np.ndarray:
+        """The policy as ``int[H, S]``, the same action at every step."""
+        return np.broadcast_to(self.policy[self.classes], (horizon, self.classes.size)).copy()
+
+
+def _projection(model: TaskModel, classes: np.ndarray, policy: np.ndarray) -> np.ndarray:
+    """A memoryless policy that copies a state policy ``int[H, S]``: each observation takes the
+    action the state policy takes where its paths first meet that observation (the step-0 action
+    elsewhere). A good start for the search: it follows the state policy's own paths."""
+    num_classes = int(classes.max()) + 1
+    votes = np.zeros((num_classes, model.num_actions))
+    np.add.at(votes, (classes, policy[0]), 1.0)
+    out = votes.argmax(axis=1)
+    seen = np.zeros(num_classes, dtype=bool)
+    states = model.initial_states()
+    for t in range(model.horizon):
+        fresh = ~seen[classes[states]]
+        out[classes[states[fresh]]] = policy[t, states[fresh]]
+        seen[classes[states]] = True
+        states = model.next_state[states, policy[t, states]]
+    return out
+
+
+def _best_single(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
+                 active: np.ndarray, rng: np.random.Generator) -> tuple[np.ndarray, float, int, bool]:
+    """One sweep of single-observation changes, taking each strict improvement at once."""
+    A, evaluated, improved = model.num_actions, 0, False
+    for o in rng.permutation(active):
+        candidates = np.repeat(policy[None, :], A, axis=0)
+        candidates[:, o] = np.arange(A)
+        values = evaluate_memoryless(model, classes, candidates)
+        evaluated += A
+        a = int(np.argmax(values))
+        if values[a] > best + IMPROVEMENT:
+            policy, best, improved = candidates[a], float(values[a]), True
+    return policy, best, evaluated, improved
+
+
+def _best_pair(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
+               active: np.ndarray) -> tuple[np.ndarray, float, int, bool]:
+    """The best change of two observations' actions at once: it crosses plateaus where one
+    change alone is worthless (say, 'wait here' only pays together with 'wait there')."""
+    A, evaluated = model.num_actions, 0
+    a1, a2 = np.meshgrid(np.arange(A), np.arange(A), indexing="ij")
+    a1, a2 = a1.ravel(), a2.ravel()
+    for i, o1 in enumerate(active[:-1]):
+        others = active[i + 1:]
+        candidates = np.repeat(policy[None, :], others.size * a1.size, axis=0)
+        rows = np.arange(candidates.shape[0])
+        candidates[rows, o1] = np.tile(a1, others.size)
+        candidates[rows, np.repeat(others, a1.size)] = np.tile(a2, others.size)
+        values = evaluate_memoryless(model, classes, candidates)
+        evaluated += values.size
+        j = int(np.argmax(values))
+        if values[j] > best + IMPROVEMENT:
+            return candidates[j], float(values[j]), evaluated, True
+    return policy, best, evaluated, False
+
+
+def _ascend(model: TaskModel, classes: np.ndarray, policy: np.ndarray, active: np.ndarray,
+            rng: np.random.Generator, pair_limit: int) -> tuple[np.ndarray, float, int]:
+    """Local search to a policy that no change of one observation's action improves (nor of
+    two, when there are at most ``pair_limit`` observations)."""
+    best = float(evaluate_memoryless(model, classes, policy)[0])
+    evaluated = 1
+    while True:
+        improved = True
+        while improved:
+            policy, best, n, improved = _best_single(model, classes, policy, best, active, rng)
+            evaluated += n
+        if active.size > pair_limit:
+            return policy, best, evaluated
+        policy, best, n, improved = _best_pair(model, classes, policy, best, active)
+        evaluated += n
+        if not improved:
+            return policy, best, evaluated
+
+
+def best_memoryless(model: TaskModel, observations: ObservationTables | None = None,
+                    restarts: int = 6, seed: int = 0,
+                    enumeration_budget: int = ENUMERATION_BUDGET,
+                    pair_limit: int = PAIR_LIMIT) -> MemorylessResult:
+    """Best deterministic memoryless policy: enumerated when at most ``enumeration_budget``
+    candidates exist, else searched (coordinate ascent from the projections of the cue-blind
+    and optimal policies and from ``restarts`` random policies)."""
+    classes = observation_classes(model, observations)
+    O, A = int(classes.max()) + 1, model.num_actions
+    live = np.zeros(O, dtype=bool)
+    live[classes[~model.terminal]] = True                       # actions matter only here
+    active = np.flatnonzero(live)
+    if A ** active.size <= enumeration_budget:
+        return _enumerate(model, classes, active)
+    rng = np.random.default_rng(seed)
+    starts = [
+        _projection(model, classes, cue_blind_policy(model)),
+        _projection(model, classes, optimal_policy(model)),
+    ] + [rng.integers(A, size=O) for _ in range(restarts)]
+    best_policy, best_value, evaluated = starts[0], -np.inf, 0
+    for start in starts:
+        policy, value, n = _ascend(model, classes, start.astype(np.int64), active, rng, pair_limit)
+        evaluated += n
+        if value > best_value + IMPROVEMENT:
+            best_policy, best_value = policy, value
+    return MemorylessResult(
+        policy=best_policy, classes=classes, mean_return=best_value, method="search lower bound",
+        detail=f"local search (one{' and two' if active.size <= pair_limit else ''} observations at a "
+        f"time) from {len(starts)} starts over {active.size} observations, {evaluated} policies "
+        "evaluated exactly",
+    )
+
+
+def _enumerate(model: TaskModel, classes: np.ndarray, active: np.ndarray) -> MemorylessResult:
+    """Evaluate every assignment of actions to the observations where actions matter."""
+    O, A = int(classes.max()) + 1, model.num_actions
+    total = A ** active.size
+    best_value, best_policy = -np.inf, np.zeros(O, dtype=np.int64)
+    chunk = 4096
+    for first in range(0, total, chunk):
+        index = np.arange(first, min(first + chunk, total))
+        digits = (index[:, None] // A ** np.arange(active.size)[None, :]) % A
+        policies = np.zeros((index.size, O), dtype=np.int64)
+        policies[:, active] = digits
+        values = evaluate_memoryless(model, classes, policies)
+        i = int(np.argmax(values))
+        if values[i] > best_value + IMPROVEMENT:
+            best_value, best_policy = float(values[i]), policies[i]
+    return MemorylessResult(
+        policy=best_policy, classes=classes, mean_return=best_value, method="exact",
+        detail=f"enumeration of all {total} deterministic memoryless policies",
+    )
