@@ -70,3 +70,18 @@ def test_two_wide_corridor_carries_the_cue_in_the_lane():
     hall = [r for r in rows if r[0] in {"2", "3", "4"}]       # mid-hall steps
     assert {r[1][1] for r in hall} != {r[3][1] for r in hall}   # different lane rows
     assert "paths part" in report.witness
+
+
+def test_carried_cue_check_says_when_it_cannot_run():
+    """When the cue changes transitions, the cue-blind figure is not exact: the carried-cue check
+    reports n/a with the reason instead of passing."""
+    spec, model = _spec_and_model(corridor_spec_text(length=3, rewards=SOUND))
+    # make cue 1's agent unable to move east from the start: the cue now changes transitions
+    ns = model.next_state.copy()
+    start1 = model.initial_states()[model.hidden[model.initial_states()] == 1][0]
+    ns[start1, 1] = start1
+    broken = dataclasses.replace(model, next_state=ns)
+    report = analyse(broken, observation_tables(broken, spec))
+    check = {c.name: c for c in report.checks}["no carried cue"]
+    assert check.passed is None and check.reason.startswith("cannot run: no exact cue-blind figure")
+    assert report.baselines["cue_blind"].method == "unavailable"

@@ -7,8 +7,9 @@ from typing import Any
 
 import numpy as np
 
+from ..errors import AnalysisError
 from ..model import TaskModel, shortest_success_steps
-from .baselines import (Baseline, cue_blind_baseline, optimal_baseline, optimal_policy, policy_figures,
+from .baselines import (CUE_BLIND_CLASS, Baseline, cue_blind_baseline, optimal_baseline, optimal_policy, policy_figures,
                         random_baseline)
 from .leaks import TOLERANCE, carried_cue_witness, static_leak
 from .memoryless import ObservationTables, best_memoryless
@@ -166,9 +167,15 @@ def analyse(model: TaskModel, observations: ObservationTables | None = None,
         "optimal": optimal_baseline(model),
         "chance": policy_figures(model, memoryless.state_policy(model.horizon), MEMORYLESS_CLASS,
                                  memoryless.method, memoryless.detail),
-        "cue_blind": cue_blind_baseline(model),
         "random": random_baseline(model),
     }
+    try:
+        baselines["cue_blind"] = cue_blind_baseline(model)
+        blind_error = ""
+    except AnalysisError as exc:  # the cue changes more than rewards: say so, never pass silently
+        blind_error = str(exc)
+        baselines["cue_blind"] = Baseline(float("nan"), float("nan"), float("nan"), "unavailable",
+                                          CUE_BLIND_CLASS, blind_error)
     recall = recall_distances(model, policy)
     checks = [solvability(model), _cue_needed(recall, model)]
 
@@ -179,7 +186,9 @@ def analyse(model: TaskModel, observations: ObservationTables | None = None,
 
     witness = ""
     beat = baselines["chance"].mean_return - baselines["cue_blind"].mean_return
-    if beat > TOLERANCE:
+    if blind_error:
+        checks.append(Check("no carried cue", None, f"cannot run: no exact cue-blind figure ({blind_error})"))
+    elif beat > TOLERANCE:
         found = carried_cue_witness(model, memoryless)
         witness = found.describe() if found else ""
         checks.append(Check("no carried cue", False,

@@ -15,6 +15,7 @@ from typing import Mapping
 
 import numpy as np
 
+from ..errors import AnalysisError
 from ..model import TaskModel
 from .baselines import cue_blind_policy, optimal_policy
 
@@ -151,10 +152,12 @@ def best_memoryless(model: TaskModel, observations: ObservationTables | None = N
     if A ** active.size <= enumeration_budget:
         return _enumerate(model, classes, active)
     rng = np.random.default_rng(seed)
-    starts = [
-        _projection(model, classes, cue_blind_policy(model)),
-        _projection(model, classes, optimal_policy(model)),
-    ] + [rng.integers(A, size=O) for _ in range(restarts)]
+    starts = [_projection(model, classes, optimal_policy(model))]
+    try:
+        starts.append(_projection(model, classes, cue_blind_policy(model)))
+    except AnalysisError:
+        pass  # no cue-blind policy for this model: the other starts remain
+    starts += [rng.integers(A, size=O) for _ in range(restarts)]
     best_policy, best_value, evaluated = starts[0], -np.inf, 0
     for start in starts:
         policy, value, n = _ascend(model, classes, start.astype(np.int64), active, rng, pair_limit)
