@@ -7,7 +7,7 @@ environments and renderers → the ``taskgen`` command line.
 from importlib.metadata import PackageNotFoundError, version
 
 from .analysis import VariantReport, analyse
-from .envs import TaskEnv, build_model, bundled_specs, make, register_bundled
+from .envs import TaskEnv, TaskVectorEnv, build_model, bundled_specs, make, make_vec, register_bundled
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
 from .model import TaskModel, compile_variant
 from .spec import Spec, load_spec, load_spec_text
@@ -22,7 +22,8 @@ except PackageNotFoundError:  # a source checkout that was never installed
 register_bundled()
 
 __all__ = [
-    "AnalysisError", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskgenError", "Variant",
+    "AnalysisError", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
+    "Variant",
     "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_variant",
-    "load_spec", "load_spec_text", "make", "make_variant", "register_bundled",
+    "load_spec", "load_spec_text", "make", "make_variant", "make_vec", "register_bundled",
 ]

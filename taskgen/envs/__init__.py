@@ -1,6 +1,8 @@
 """Stage 5b of the pipeline: Gymnasium runtimes over the compiled model."""
 
-from .factory import build_model, bundled_specs, make, register_bundled, resolve_spec
+from .factory import build_model, bundled_specs, make, make_vec, register_bundled, resolve_spec
 from .single import TaskEnv
+from .vector import TaskVectorEnv
 
-__all__ = ["TaskEnv", "build_model", "bundled_specs", "make", "register_bundled", "resolve_spec"]
+__all__ = ["TaskEnv", "TaskVectorEnv", "build_model", "bundled_specs", "make", "make_vec", "register_bundled",
+           "resolve_spec"]

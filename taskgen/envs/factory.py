@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
-from typing import Any
+from typing import Any, Sequence
 
 import gymnasium as gym
 import yaml
@@ -14,6 +14,7 @@ from ..render import vector_layout
 from ..spec import Spec, load_spec, load_spec_text
 from ..variant import make_variant
 from .single import TaskEnv
+from .vector import TaskVectorEnv
 
 NAMESPACE = "taskgen"
 
@@ -60,6 +61,33 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
     return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
 
 
+def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: int | None = None,
+             variants: Sequence[int] | None = None, render_mode: str | None = None,
+             **overrides: Any) -> TaskVectorEnv:
+    """A ``gymnasium.vector.VectorEnv`` of ``num_envs`` environments stepped together in numpy.
+
+    All environments hold the variant ``seed`` (None: variant 0), or environment i holds variant
+    ``variants[i]`` (one batch across many layouts). Episodes are seeded through
+    ``reset(seed=...)`` as in gymnasium's vector envs: an int gives env i the seed ``seed + i``.
+    """
+    if not isinstance(num_envs, int) or num_envs < 1:
+        raise ValueError(f"num_envs must be an integer ≥ 1, got {num_envs!r}")
+    spec = resolve_spec(spec_or_path, **overrides)
+    if variants is None:
+        variants = [0 if seed is None else seed] * num_envs
+    elif seed is not None:
+        raise ValueError("give either seed (one variant for all) or variants (one per env), not both")
+    variants = list(variants)
+    if len(variants) != num_envs:
+        raise ValueError(f"variants must name one variant seed per env: {num_envs} needed, got {len(variants)}")
+    built: dict[int, tuple[TaskModel, Any]] = {}
+    for v in variants:
+        if v not in built:
+            model = compile_variant(make_variant(spec, v))
+            built[v] = (model, vector_layout(model, spec.observation.vector))
+    return TaskVectorEnv([built[v] for v in variants], render_mode=render_mode)
+
+
 def register_bundled() -> list[str]:
     """Register every bundled spec as ``taskgen/<name>-v0`` (idempotent); returns the IDs."""
     ids = []
@@ -67,6 +95,7 @@ def register_bundled() -> list[str]:
         env_id = f"{NAMESPACE}/{stem}-v0"
         if env_id not in gym.registry:
             gym.register(id=env_id, entry_point="taskgen.envs.factory:make",
+                         vector_entry_point="taskgen.envs.factory:make_vec",
                          kwargs={"spec_or_path": str(path)}, disable_env_checker=False)
         ids.append(env_id)
     return ids

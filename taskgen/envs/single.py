@@ -10,6 +10,7 @@ from gymnasium import spaces
 
 from ..model import TaskModel
 from ..render import TopDownRenderer, VectorLayout
+from .streams import categorical, episode_keys, stream_from, uniform
 
 
 class TaskEnv(gym.Env):
@@ -34,11 +35,14 @@ class TaskEnv(gym.Env):
         self.observation_space = spaces.Box(0.0, 1.0, shape=(vector.size,), dtype=np.float32)
         self.action_space = spaces.Discrete(model.num_actions)
         self._starts = model.initial_states()
-        self._start_probs = model.initial[self._starts]
+        self._start_cumulative = np.cumsum(model.initial[self._starts])[None, :]
         self._renderer: TopDownRenderer | None = None
         self._state = int(self._starts[0])
         self._step = 0
         self._noise = np.zeros(vector.noise_bits, dtype=bool)
+        self._stream: int | None = None
+        self._episode = 0
+        self._key = np.zeros(1, dtype=np.uint64)
 
     def _observation(self) -> np.ndarray:
         clean = self.vector.table[self.model.obs_key[self._state]]
@@ -54,12 +58,22 @@ class TaskEnv(gym.Env):
         }
 
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
-        """Draw the cue (and noise bits) from ``np_random`` and return the first observation."""
+        """Start an episode: draw the cue and the noise bits, return the first observation.
+
+        A seeded reset (or the first one) draws the env's stream number from ``np_random``;
+        each later reset starts the stream's next episode (see streams.py).
+        """
         super().reset(seed=seed)
-        self._state = int(self.np_random.choice(self._starts, p=self._start_probs))
+        if seed is not None or self._stream is None:
+            self._stream, self._episode = stream_from(self.np_random), 0
+        else:
+            self._episode += 1
+        self._key = episode_keys(np.array([self._stream]), np.array([self._episode]))
+        start = categorical(uniform(self._key, "cue"), self._start_cumulative)[0]
+        self._state = int(self._starts[start])
         self._step = 0
         if self.vector.noise_bits:
-            self._noise = self.np_random.random(self.vector.noise_bits) < 0.5
+            self._noise = uniform(self._key, "noise_init", 0, self.vector.noise_bits)[0] < 0.5
         return self._observation(), self._info()
 
     def step(self, action: int):
@@ -75,7 +89,8 @@ class TaskEnv(gym.Env):
         if truncated:
             reward += self.model.timeout_reward
         if self.vector.noise_bits:
-            self._noise ^= self.np_random.random(self.vector.noise_bits) < self.vector.flip_probability
+            flips = uniform(self._key, "noise_flip", self._step, self.vector.noise_bits)[0]
+            self._noise ^= flips < self.vector.flip_probability
         return self._observation(), reward, terminated, truncated, self._info()
 
     def render(self) -> np.ndarray | None:

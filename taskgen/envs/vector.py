@@ -1,0 +1,243 @@
+"""The native batched runtime: N environments stepped with a handful of numpy gathers.
+
+The unique variants' tables are stacked into one global state space (each variant's states
+shifted by an offset), so a step for all N environments is ``next_state[state, action]``,
+``reward[state, action]``, ``terminal[next]`` and one gather of observation rows. Noise and
+resets use the counter-based streams of streams.py, which is what makes the batch equal to N
+single envs given the same seeds and actions.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+import gymnasium as gym
+import numpy as np
+from gymnasium import spaces
+from gymnasium.utils import seeding
+from gymnasium.vector import AutoresetMode, VectorEnv
+from gymnasium.vector.utils import batch_space
+
+from ..model import TaskModel
+from ..render import TopDownRenderer, VectorLayout
+from .streams import categorical, episode_keys, stream_from, uniform
+
+
+def _common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:
+    """One block layout wide enough for every variant (each block as wide as its widest)."""
+    names = list(layouts[0].blocks)
+    if any(list(v.blocks) != names for v in layouts):
+        raise ValueError("every variant of a batch must have the same observation blocks")
+    blocks, start = {}, 0
+    for name in names:
+        width = max(v.blocks[name].stop - v.blocks[name].start for v in layouts)
+        blocks[name] = slice(start, start + width)
+        start += width
+    return blocks
+
+
+def _padded_table(layout: VectorLayout, blocks: dict[str, slice]) -> np.ndarray:
+    """A variant's noise-free table laid out in the common blocks (zeros where it is narrower)."""
+    width = max((b.stop for n, b in blocks.items() if n != "noise"), default=0)
+    table = np.zeros((layout.table.shape[0], width), dtype=np.float32)
+    for name, target in blocks.items():
+        if name == "noise":
+            continue
+        source = layout.blocks[name]
+        table[:, target.start:target.start + source.stop - source.start] = layout.table[:, source]
+    return table
+
+
+class TaskVectorEnv(VectorEnv):
+    """A batch of compiled tasks as a ``gymnasium.vector.VectorEnv`` (autoreset: next step).
+
+    ``variants[i]`` is the (model, vector layout) of environment i; environments may share a
+    variant or each hold their own. Observations, rewards, terminations, truncations, resets and
+    infos equal those of ``gymnasium.vector.SyncVectorEnv`` over the matching single envs given
+    the same seeds and actions (when variants' blocks differ in width, each block is zero-padded
+    at its end to the widest).
+    """
+
+    metadata = {"autoreset_mode": AutoresetMode.NEXT_STEP, "render_modes": ["rgb_array"], "render_fps": 6}
+
+    def __init__(self, variants: Sequence[tuple[TaskModel, VectorLayout]], render_mode: str | None = None) -> None:
+        if not variants:
+            raise ValueError("a batch needs at least one environment")
+        if render_mode is not None and render_mode not in self.metadata["render_modes"]:
+            raise ValueError(f"render_mode must be one of {self.metadata['render_modes']} or None, "
+                             f"got {render_mode!r}")
+        self.num_envs = len(variants)
+        self.render_mode = render_mode
+        unique: dict[int, int] = {}
+        models: list[TaskModel] = []
+        layouts: list[VectorLayout] = []
+        env_model = np.zeros(self.num_envs, dtype=np.int64)
+        for i, (model, layout) in enumerate(variants):
+            if id(model) not in unique:
+                unique[id(model)] = len(models)
+                models.append(model)
+                layouts.append(layout)
+            env_model[i] = unique[id(model)]
+        if len({m.num_actions for m in models}) != 1 or len({v.noise_bits for v in layouts}) != 1:
+            raise ValueError("every variant of a batch must have the same actions and noise bits")
+        self.models = models
+        self.env_model = env_model
+        self.observation_blocks = _common_blocks(layouts)
+        self._build_tables(models, layouts)
+
+        size = max((b.stop for b in self.observation_blocks.values()), default=0)
+        self.single_observation_space = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        self.single_action_space = spaces.Discrete(models[0].num_actions)
+        self.observation_space = batch_space(self.single_observation_space, self.num_envs)
+        self.action_space = batch_space(self.single_action_space, self.num_envs)
+
+        N, bits = self.num_envs, self._bits
+        self._state = self._starts[np.arange(N), 0].copy()
+        self._step = np.zeros(N, dtype=np.int64)
+        self._noise = np.zeros((N, bits), dtype=bool)
+        self._streams = np.zeros(N, dtype=np.uint64)
+        self._episodes = np.zeros(N, dtype=np.int64)
+        self._keys = np.zeros(N, dtype=np.uint64)
+        self._seeded = np.zeros(N, dtype=bool)
+        self._autoreset = np.zeros(N, dtype=bool)
+        self._generators: list[np.random.Generator | None] = [None] * N
+        self._obs = np.zeros((N, size), dtype=np.float32)
+        self._renderers: dict[int, TopDownRenderer] = {}
+
+    def _build_tables(self, models: list[TaskModel], layouts: list[VectorLayout]) -> None:
+        """Stack the unique variants' tables into one global state space."""
+        state_off = np.cumsum([0] + [m.num_states for m in models])
+        key_off = np.cumsum([0] + [m.num_keys for m in models])
+        self._next = np.concatenate([m.next_state + o for m, o in zip(models, state_off)])
+        self._reward = np.concatenate([m.reward for m in models])
+        self._terminal = np.concatenate([m.terminal for m in models])
+        self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
+        self._hidden = np.concatenate([m.hidden for m in models])
+        self._table = np.concatenate([_padded_table(v, self.observation_blocks) for v in layouts])
+        self._state_offset = state_off[self.env_model]
+        self._bits = layouts[0].noise_bits
+        self._flip = np.array([v.flip_probability for v in layouts])[self.env_model]
+        self._horizon = np.array([m.horizon for m in models])[self.env_model]
+        self._timeout = np.array([m.timeout_reward for m in models])[self.env_model]
+        width = max(m.initial_states().size for m in models)
+        starts = np.zeros((len(models), width), dtype=np.int64)
+        cumulative = np.ones((len(models), width))
+        for j, (m, o) in enumerate(zip(models, state_off)):
+            s = m.initial_states()
+            starts[j, :] = s[-1] + o
+            starts[j, :s.size] = s + o
+            cumulative[j, :s.size] = np.cumsum(m.initial[s])
+        self._starts = starts[self.env_model]
+        self._cumulative = cumulative[self.env_model]
+        self._variant_ids = np.array([m.variant_id for m in models], dtype=object)[self.env_model]
+
+    # -- episode starts -------------------------------------------------------------------
+    def _begin(self, mask: np.ndarray) -> None:
+        """Start new episodes in the masked environments (their keys must be set)."""
+        rows = np.flatnonzero(mask)
+        if not rows.size:
+            return
+        keys = self._keys[rows]
+        pick = categorical(uniform(keys, "cue"), self._cumulative[rows])
+        self._state[rows] = self._starts[rows, pick]
+        self._step[rows] = 0
+        if self._bits:
+            self._noise[rows] = uniform(keys, "noise_init", 0, self._bits) < 0.5
+
+    def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
+        """Reset every environment; ``seed`` is None, an int (env i gets seed + i) or a list."""
+        if seed is None:
+            seeds: list[int | None] = [None] * self.num_envs
+        elif isinstance(seed, (int, np.integer)):
+            seeds = [int(seed) + i for i in range(self.num_envs)]
+        else:
+            seeds = list(seed)
+            if len(seeds) != self.num_envs:
+                raise ValueError(f"reset needs {self.num_envs} seeds, got {len(seeds)}")
+        # Seeding happens once per reset call, not per step: draw each seeded env's stream.
+        fresh = np.zeros(self.num_envs, dtype=bool)
+        for i, s in enumerate(seeds):
+            if s is not None or not self._seeded[i]:
+                if s is not None or self._generators[i] is None:
+                    self._generators[i], _ = seeding.np_random(s)
+                self._streams[i] = stream_from(self._generators[i])
+                self._seeded[i] = fresh[i] = True
+        self._episodes = np.where(fresh, 0, self._episodes + 1)
+        self._keys = episode_keys(self._streams, self._episodes)
+        self._begin(np.ones(self.num_envs, dtype=bool))
+        self._autoreset[:] = False
+        return self._observe(), self._infos()
+
+    # -- stepping -------------------------------------------------------------------------
+    def step(self, actions: np.ndarray):
+        """Step every environment; those that ended last step are reset instead (next-step)."""
+        a = np.asarray(actions)
+        if a.shape != (self.num_envs,) or a.dtype.kind not in "iu" or a.min() < 0 \
+                or a.max() >= self.single_action_space.n:
+            raise ValueError(f"actions must be {self.num_envs} integers in [0, {self.single_action_space.n}), "
+                             f"got {actions!r}")
+        resetting = self._autoreset
+        moving = ~resetting
+        s = self._state
+        next_state = self._next[s, a]
+        reward = self._reward[s, a]
+        step = self._step + 1
+        terminated = self._terminal[next_state]
+        truncated = ~terminated & (step >= self._horizon)
+        reward = reward + truncated * self._timeout
+        if self._bits:
+            flips = uniform(self._keys, "noise_flip", step, self._bits) < self._flip[:, None]
+            self._noise ^= flips & moving[:, None]
+        self._state = np.where(moving, next_state, s)
+        self._step = np.where(moving, step, self._step)
+
+        if resetting.any():
+            self._episodes = np.where(resetting, self._episodes + 1, self._episodes)
+            self._keys = np.where(resetting, episode_keys(self._streams, self._episodes), self._keys)
+            self._begin(resetting)
+            reward = np.where(resetting, 0.0, reward)
+            terminated = terminated & moving
+            truncated = truncated & moving
+        self._autoreset = terminated | truncated
+        return self._observe(), reward.astype(np.float64), terminated, truncated, self._infos()
+
+    def _observe(self) -> np.ndarray:
+        width = self._table.shape[1]
+        self._obs[:, :width] = self._table[self._obs_key[self._state]]
+        if self._bits:
+            self._obs[:, width:] = self._noise
+        return self._obs.copy()
+
+    def _infos(self) -> dict[str, Any]:
+        """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
+        every = np.ones(self.num_envs, dtype=bool)
+        local = self._state - self._state_offset
+        return {
+            "variant_id": self._variant_ids.copy(), "_variant_id": every,
+            "step": self._step.copy(), "_step": every.copy(),
+            "analysis_only": {"cue": self._hidden[self._state].copy(), "_cue": every.copy(),
+                              "state": local, "_state": every.copy()},
+            "_analysis_only": every.copy(),
+        }
+
+    def render(self) -> tuple[np.ndarray, ...] | None:
+        """A top-down picture of every environment (``render_mode="rgb_array"``)."""
+        if self.render_mode is None:
+            return None
+        frames = []
+        for i in range(self.num_envs):  # pictures are for people, not for the training loop
+            j = int(self.env_model[i])
+            if j not in self._renderers:
+                self._renderers[j] = TopDownRenderer(self.models[j])
+            local = int(self._state[i] - self._state_offset[i])
+            frames.append(self._renderers[j].frame(int(self.models[j].obs_key[local])))
+        return tuple(frames)
+
+    def memory_bytes(self) -> dict[str, int]:
+        """Bytes held per environment (state arrays) and shared (tables), for the benchmark."""
+        per_env = [self._state, self._step, self._noise, self._streams, self._episodes, self._keys,
+                   self._seeded, self._autoreset, self._obs, self._starts, self._cumulative, self._flip,
+                   self._horizon, self._timeout, self._state_offset, self.env_model]
+        shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
+        return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs,
+                "shared": sum(a.nbytes for a in shared)}
