@@ -13,6 +13,7 @@ from .errors import TaskgenError
 from .envs import resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, run_check
+from .tools.bench import format_bench, run_bench
 from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
@@ -46,6 +47,25 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool) ->
     else:
         click.echo(format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
+
+
+@cli.command()
+@click.argument("spec", type=click.Path(dir_okay=False))
+@click.option("--num-envs", "-n", default=1024, show_default=True, type=click.IntRange(min=1),
+              help="Environments in the batched runs.")
+@click.option("--seconds", default=1.0, show_default=True, type=click.FloatRange(min=0.05),
+              help="About how long to time each runtime.")
+@click.option("--sync-envs", type=click.IntRange(min=1), help="Environments in the SyncVectorEnv runs "
+              "(default: --num-envs).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@click.option("--out", "-o", type=click.Path(dir_okay=False), help="Also write the JSON result to this file.")
+def bench(spec: str, num_envs: int, seconds: float, sync_envs: int | None, as_json: bool, out: str | None) -> None:
+    """Measure env-steps/s of SPEC's single and batched envs against references in the same run."""
+    result = run_bench(resolve_spec(spec), num_envs=num_envs, budget=seconds, sync_envs=sync_envs)
+    text = json.dumps(result, indent=2)
+    click.echo(text if as_json else format_bench(result))
+    if out:
+        write_text_atomic(out, text + "\n")
 
 
 def _emit(text: str, out: str | None) -> None:

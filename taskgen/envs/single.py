@@ -10,7 +10,7 @@ from gymnasium import spaces
 
 from ..model import TaskModel
 from ..render import TopDownRenderer, VectorLayout
-from .streams import categorical, episode_keys, stream_from, uniform
+from .streams import categorical, episode_keys, noise_track, stream_from, subkeys, uniform
 
 
 class TaskEnv(gym.Env):
@@ -39,22 +39,30 @@ class TaskEnv(gym.Env):
         self._renderer: TopDownRenderer | None = None
         self._state = int(self._starts[0])
         self._step = 0
-        self._noise = np.zeros(vector.noise_bits, dtype=bool)
+        self._noise = np.zeros((model.horizon + 1, vector.noise_bits), dtype=np.float32)
+        # The step path reads plain Python lists: indexing them is far cheaper than numpy scalars.
+        self._next = model.next_state.tolist()
+        self._reward = model.reward.tolist()
+        self._terminal = model.terminal.tolist()
+        self._hidden = model.hidden.tolist()
+        self._rows = vector.table[model.obs_key]          # noise-free observation of every state
+        self._horizon = model.horizon
+        self._timeout = model.timeout_reward
+        self._num_actions = model.num_actions
         self._stream: int | None = None
         self._episode = 0
         self._key = np.zeros(1, dtype=np.uint64)
 
     def _observation(self) -> np.ndarray:
-        clean = self.vector.table[self.model.obs_key[self._state]]
         if not self.vector.noise_bits:
-            return clean.copy()
-        return np.concatenate([clean, self._noise.astype(np.float32)])
+            return self._rows[self._state].copy()
+        return np.concatenate((self._rows[self._state], self._noise[min(self._step, self._horizon)]))
 
     def _info(self) -> dict[str, Any]:
         return {
             "variant_id": self.model.variant_id,
             "step": self._step,
-            "analysis_only": {"cue": int(self.model.hidden[self._state]), "state": self._state},
+            "analysis_only": {"cue": self._hidden[self._state], "state": self._state},
         }
 
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
@@ -69,28 +77,26 @@ class TaskEnv(gym.Env):
         else:
             self._episode += 1
         self._key = episode_keys(np.array([self._stream]), np.array([self._episode]))
-        start = categorical(uniform(self._key, "cue"), self._start_cumulative)[0]
+        start = categorical(uniform(subkeys(self._key, "cue")), self._start_cumulative)[0]
         self._state = int(self._starts[start])
         self._step = 0
-        if self.vector.noise_bits:
-            self._noise = uniform(self._key, "noise_init", 0, self.vector.noise_bits)[0] < 0.5
+        if self.vector.noise_bits:  # the whole episode's noise at once: one numpy call per reset
+            self._noise = noise_track(self._key, self.vector.noise_bits, self.vector.flip_probability,
+                                      self.model.horizon)[0].astype(np.float32)
         return self._observation(), self._info()
 
     def step(self, action: int):
         """Move by the model's tables; flip noise bits; truncate at the step limit."""
-        if not self.action_space.contains(action):
-            raise ValueError(f"action must be an integer in [0, {self.model.num_actions}), got {action!r}")
+        if not (isinstance(action, (int, np.integer)) and 0 <= action < self._num_actions):
+            raise ValueError(f"action must be an integer in [0, {self._num_actions}), got {action!r}")
         s = self._state
-        self._state = int(self.model.next_state[s, action])
-        reward = float(self.model.reward[s, action])
+        self._state = self._next[s][action]
+        reward = self._reward[s][action]
         self._step += 1
-        terminated = bool(self.model.terminal[self._state])
-        truncated = not terminated and self._step >= self.model.horizon
+        terminated = self._terminal[self._state]
+        truncated = not terminated and self._step >= self._horizon
         if truncated:
-            reward += self.model.timeout_reward
-        if self.vector.noise_bits:
-            flips = uniform(self._key, "noise_flip", self._step, self.vector.noise_bits)[0]
-            self._noise ^= flips < self.vector.flip_probability
+            reward += self._timeout
         return self._observation(), reward, terminated, truncated, self._info()
 
     def render(self) -> np.ndarray | None:

@@ -1,10 +1,10 @@
 """Counter-based randomness shared by the single and the batched runtime.
 
 An env's ``np_random`` is used once per seeded reset, to draw a 63-bit stream number. Every
-random draw of an episode is then a hash of (stream, episode number, step, purpose, index), so
+random draw of an episode is then a hash of (stream, episode number, purpose, step, index), so
 N environments draw in one numpy call, and the batched runtime reproduces N single envs exactly
 without a Python loop over environments. The hash is the splitmix64 finaliser (Steele, Lea &
-Flood, "Fast splittable pseudorandom number generators", OOPSLA 2014).
+Flood, "Fast splittable pseudorandom number generators", OOPSLA 2014) applied to a counter.
 """
 
 from __future__ import annotations
@@ -12,27 +12,19 @@ from __future__ import annotations
 import numpy as np
 
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
+_STEP = np.uint64(0xD1B54A32D192ED03)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
-_PURPOSE = {"episode": 1, "cue": 2, "noise_init": 3, "noise_flip": 4}
+_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3}
+_TO_UNIT = 1.0 / (1 << 53)
 
 
 def _mix(x: np.ndarray) -> np.ndarray:
     """splitmix64's finaliser on a uint64 array (wrapping arithmetic)."""
-    x = x ^ (x >> np.uint64(30))
-    x = x * _M1
-    x = x ^ (x >> np.uint64(27))
-    x = x * _M2
-    return x ^ (x >> np.uint64(31))
-
-
-def _combine(*parts: np.ndarray) -> np.ndarray:
-    """Hash several broadcastable integer arrays into one uint64 array."""
     with np.errstate(over="ignore"):
-        h = np.zeros(np.broadcast_shapes(*(np.shape(p) for p in parts)), dtype=np.uint64)
-        for p in parts:
-            h = _mix(h + _GOLDEN + np.asarray(p).astype(np.uint64))
-        return h
+        x = (x ^ (x >> np.uint64(30))) * _M1
+        x = (x ^ (x >> np.uint64(27))) * _M2
+    return x ^ (x >> np.uint64(31))
 
 
 def stream_from(np_random: np.random.Generator) -> int:
@@ -42,23 +34,64 @@ def stream_from(np_random: np.random.Generator) -> int:
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:
     """uint64 key of each (stream, episode number)."""
-    return _combine(streams, episodes, _PURPOSE["episode"])
-
-
-def uniform(keys: np.ndarray, purpose: str, step: np.ndarray | int = 0, width: int | None = None) -> np.ndarray:
-    """Uniform [0, 1) draws: shape ``keys.shape`` or, with ``width``, ``keys.shape + (width,)``."""
-    keys = np.asarray(keys, dtype=np.uint64)
-    step = np.asarray(step)
-    if width is not None:
-        keys, step = keys[..., None], (step[..., None] if step.ndim else step)
-        index = np.arange(width)
-    else:
-        index = 0
     with np.errstate(over="ignore"):
-        h = _combine(keys, _PURPOSE[purpose], step, index)
-    return (h >> np.uint64(11)).astype(np.float64) * (1.0 / (1 << 53))
+        return _mix(_mix(np.asarray(streams, dtype=np.uint64) + _GOLDEN)
+                    + np.asarray(episodes).astype(np.uint64) * _GOLDEN)
+
+
+def subkeys(keys: np.ndarray, purpose: str) -> np.ndarray:
+    """Per-episode key of one purpose (computed once per episode)."""
+    with np.errstate(over="ignore"):
+        return _mix(np.asarray(keys, dtype=np.uint64) + np.uint64(_PURPOSE[purpose]) * _STEP)
+
+
+def uniform(sub: np.ndarray, step: np.ndarray | int = 0, width: int | None = None) -> np.ndarray:
+    """Uniform [0, 1) draws of per-purpose keys ``sub`` [N] at ``step`` (scalar or [N]):
+    shape [N], or [N, width] with one draw per index."""
+    sub = np.asarray(sub, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        base = sub + np.asarray(step).astype(np.uint64) * _STEP
+        if width is not None:
+            base = base[:, None] + np.arange(1, width + 1, dtype=np.uint64) * _GOLDEN
+        return (_mix(base) >> np.uint64(11)).astype(np.float64) * _TO_UNIT
 
 
 def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:
     """Index drawn by uniform ``u`` [N] from rows of cumulative probabilities [N, K]."""
     return np.minimum((u[:, None] >= cumulative).sum(axis=1), cumulative.shape[1] - 1)
+
+
+def flip_threshold(flip_probability: float) -> int:
+    """The 16-bit threshold a draw must fall below to flip a bit: the flip probability is
+    applied with a resolution of 1/65536 (an error of at most 7.7e-6)."""
+    return int(round(flip_probability * 65536))
+
+
+def flips(flip_keys: np.ndarray, step: np.ndarray | int, bits: int, threshold: np.ndarray | int) -> np.ndarray:
+    """bool[N, bits]: which noise bits flip at ``step``. One 64-bit hash yields four 16-bit
+    draws, so flipping B bits costs ceil(B / 4) hashes per environment and step."""
+    words = -(-bits // 4)
+    with np.errstate(over="ignore"):
+        base = np.asarray(flip_keys, dtype=np.uint64) + np.asarray(step).astype(np.uint64) * _STEP
+        h = _mix(base[..., None] + np.arange(1, words + 1, dtype=np.uint64) * _GOLDEN)
+    # the four 16-bit parts of each hash, low to high, read through a little-endian view
+    draws = h.astype("<u8", copy=False).view("<u2")[..., :bits]
+    return draws < np.asarray(threshold, dtype=np.uint32)[..., None]
+
+
+def noise_init(keys: np.ndarray, bits: int) -> np.ndarray:
+    """bool[N, bits]: the uniform noise bits an episode starts with."""
+    return uniform(subkeys(keys, "noise_init"), 0, bits) < 0.5
+
+
+def noise_track(keys: np.ndarray, bits: int, flip_probability: float, horizon: int) -> np.ndarray:
+    """bool[N, horizon+1, bits]: each episode's noise bits at every step, as the batched runtime
+    produces them step by step (uniform at step 0, then ``flips`` at steps 1 … horizon)."""
+    keys = np.asarray(keys, dtype=np.uint64)
+    flip_keys = subkeys(keys, "noise_flip")
+    steps = np.arange(1, horizon + 1)
+    flipped = flips(flip_keys[:, None], steps[None, :], bits, flip_threshold(flip_probability))
+    track = np.empty((keys.shape[0], horizon + 1, bits), dtype=bool)
+    track[:, 0] = noise_init(keys, bits)
+    track[:, 1:] = track[:, :1] ^ np.logical_xor.accumulate(flipped, axis=1)
+    return track

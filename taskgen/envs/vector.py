@@ -20,7 +20,7 @@ from gymnasium.vector.utils import batch_space
 
 from ..model import TaskModel
 from ..render import TopDownRenderer, VectorLayout
-from .streams import categorical, episode_keys, stream_from, uniform
+from .streams import categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
 
 
 def _common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:
@@ -98,10 +98,10 @@ class TaskVectorEnv(VectorEnv):
         self._streams = np.zeros(N, dtype=np.uint64)
         self._episodes = np.zeros(N, dtype=np.int64)
         self._keys = np.zeros(N, dtype=np.uint64)
+        self._flip_keys = np.zeros(N, dtype=np.uint64)
         self._seeded = np.zeros(N, dtype=bool)
         self._autoreset = np.zeros(N, dtype=bool)
         self._generators: list[np.random.Generator | None] = [None] * N
-        self._obs = np.zeros((N, size), dtype=np.float32)
         self._renderers: dict[int, TopDownRenderer] = {}
 
     def _build_tables(self, models: list[TaskModel], layouts: list[VectorLayout]) -> None:
@@ -110,6 +110,8 @@ class TaskVectorEnv(VectorEnv):
         key_off = np.cumsum([0] + [m.num_keys for m in models])
         self._next = np.concatenate([m.next_state + o for m, o in zip(models, state_off)])
         self._reward = np.concatenate([m.reward for m in models])
+        self._next_flat, self._reward_flat = self._next.ravel(), self._reward.ravel()
+        self._num_actions = int(models[0].num_actions)
         self._terminal = np.concatenate([m.terminal for m in models])
         self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
         self._hidden = np.concatenate([m.hidden for m in models])
@@ -117,8 +119,11 @@ class TaskVectorEnv(VectorEnv):
         self._state_offset = state_off[self.env_model]
         self._bits = layouts[0].noise_bits
         self._flip = np.array([v.flip_probability for v in layouts])[self.env_model]
+        self._threshold = np.array([flip_threshold(v.flip_probability) for v in layouts],
+                                   dtype=np.uint64)[self.env_model]
         self._horizon = np.array([m.horizon for m in models])[self.env_model]
         self._timeout = np.array([m.timeout_reward for m in models])[self.env_model]
+        self._timeout_any = bool(self._timeout.any())
         width = max(m.initial_states().size for m in models)
         starts = np.zeros((len(models), width), dtype=np.int64)
         cumulative = np.ones((len(models), width))
@@ -130,6 +135,9 @@ class TaskVectorEnv(VectorEnv):
         self._starts = starts[self.env_model]
         self._cumulative = cumulative[self.env_model]
         self._variant_ids = np.array([m.variant_id for m in models], dtype=object)[self.env_model]
+        self._variant_ids.flags.writeable = False
+        self._every = np.ones(self.num_envs, dtype=bool)
+        self._every.flags.writeable = False
 
     # -- episode starts -------------------------------------------------------------------
     def _begin(self, mask: np.ndarray) -> None:
@@ -138,11 +146,12 @@ class TaskVectorEnv(VectorEnv):
         if not rows.size:
             return
         keys = self._keys[rows]
-        pick = categorical(uniform(keys, "cue"), self._cumulative[rows])
+        pick = categorical(uniform(subkeys(keys, "cue")), self._cumulative[rows])
         self._state[rows] = self._starts[rows, pick]
         self._step[rows] = 0
         if self._bits:
-            self._noise[rows] = uniform(keys, "noise_init", 0, self._bits) < 0.5
+            self._noise[rows] = noise_init(keys, self._bits)
+            self._flip_keys[rows] = subkeys(keys, "noise_flip")
 
     def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
         """Reset every environment; ``seed`` is None, an int (env i gets seed + i) or a list."""
@@ -172,52 +181,60 @@ class TaskVectorEnv(VectorEnv):
     def step(self, actions: np.ndarray):
         """Step every environment; those that ended last step are reset instead (next-step)."""
         a = np.asarray(actions)
-        if a.shape != (self.num_envs,) or a.dtype.kind not in "iu" or a.min() < 0 \
-                or a.max() >= self.single_action_space.n:
-            raise ValueError(f"actions must be {self.num_envs} integers in [0, {self.single_action_space.n}), "
+        if a.dtype != np.int64 and a.dtype.kind in "iu":
+            a = a.astype(np.int64)
+        # viewed as unsigned, a negative action is huge: one comparison checks both bounds
+        if a.shape != (self.num_envs,) or a.dtype != np.int64 or \
+                (a.view(np.uint64) >= np.uint64(self._num_actions)).any():
+            raise ValueError(f"actions must be {self.num_envs} integers in [0, {self._num_actions}), "
                              f"got {actions!r}")
         resetting = self._autoreset
-        moving = ~resetting
+        pending = resetting.any()
         s = self._state
-        next_state = self._next[s, a]
-        reward = self._reward[s, a]
+        flat = s * self._num_actions + a
+        next_state = self._next_flat[flat]
+        reward = self._reward_flat[flat]
         step = self._step + 1
         terminated = self._terminal[next_state]
-        truncated = ~terminated & (step >= self._horizon)
-        reward = reward + truncated * self._timeout
+        truncated = (step >= self._horizon) & ~terminated
+        if self._timeout_any:
+            reward += truncated * self._timeout
         if self._bits:
-            flips = uniform(self._keys, "noise_flip", step, self._bits) < self._flip[:, None]
-            self._noise ^= flips & moving[:, None]
-        self._state = np.where(moving, next_state, s)
-        self._step = np.where(moving, step, self._step)
-
-        if resetting.any():
-            self._episodes = np.where(resetting, self._episodes + 1, self._episodes)
-            self._keys = np.where(resetting, episode_keys(self._streams, self._episodes), self._keys)
+            flipped = flips(self._flip_keys, step, self._bits, self._threshold)
+            if pending:
+                flipped &= ~resetting[:, None]
+            self._noise ^= flipped
+        if pending:
+            moving = ~resetting
+            self._state = np.where(moving, next_state, s)
+            self._step = np.where(moving, step, self._step)
+            rows = np.flatnonzero(resetting)
+            self._episodes[rows] += 1
+            self._keys[rows] = episode_keys(self._streams[rows], self._episodes[rows])
             self._begin(resetting)
-            reward = np.where(resetting, 0.0, reward)
-            terminated = terminated & moving
-            truncated = truncated & moving
+            reward[rows] = 0.0
+            terminated &= moving
+            truncated &= moving
+        else:
+            self._state, self._step = next_state, step
         self._autoreset = terminated | truncated
-        return self._observe(), reward.astype(np.float64), terminated, truncated, self._infos()
+        return self._observe(), reward, terminated, truncated, self._infos()
 
     def _observe(self) -> np.ndarray:
-        width = self._table.shape[1]
-        self._obs[:, :width] = self._table[self._obs_key[self._state]]
-        if self._bits:
-            self._obs[:, width:] = self._noise
-        return self._obs.copy()
+        rows = self._table[self._obs_key[self._state]]
+        if not self._bits:
+            return rows
+        return np.concatenate((rows, self._noise.view(np.uint8).astype(np.float32)), axis=1)
 
     def _infos(self) -> dict[str, Any]:
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
-        every = np.ones(self.num_envs, dtype=bool)
-        local = self._state - self._state_offset
+        every = self._every   # every environment has every key: one shared, read-only mask
         return {
-            "variant_id": self._variant_ids.copy(), "_variant_id": every,
-            "step": self._step.copy(), "_step": every.copy(),
-            "analysis_only": {"cue": self._hidden[self._state].copy(), "_cue": every.copy(),
-                              "state": local, "_state": every.copy()},
-            "_analysis_only": every.copy(),
+            "variant_id": self._variant_ids, "_variant_id": every,
+            "step": self._step.copy(), "_step": every,
+            "analysis_only": {"cue": self._hidden[self._state], "_cue": every,
+                              "state": self._state - self._state_offset, "_state": every},
+            "_analysis_only": every,
         }
 
     def render(self) -> tuple[np.ndarray, ...] | None:
@@ -235,8 +252,8 @@ class TaskVectorEnv(VectorEnv):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes held per environment (state arrays) and shared (tables), for the benchmark."""
-        per_env = [self._state, self._step, self._noise, self._streams, self._episodes, self._keys,
-                   self._seeded, self._autoreset, self._obs, self._starts, self._cumulative, self._flip,
+        per_env = [self._state, self._step, self._noise, self._streams, self._episodes, self._keys, self._flip_keys,
+                   self._seeded, self._autoreset, self._starts, self._cumulative, self._threshold,
                    self._horizon, self._timeout, self._state_offset, self.env_model]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs,

@@ -1,0 +1,135 @@
+"""`taskgen bench`: environment steps per second, with references measured in the same run.
+
+Every figure is env-steps per second (a batch of N environments stepping once counts N), with
+uniform-random actions drawn before timing. All environments are the raw classes, without
+gymnasium's checker wrappers, so the comparison is like for like.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import gymnasium as gym
+import numpy as np
+
+from ..envs import make, make_vec
+from ..spec import Spec
+
+FROZEN_LAKE = dict(id="FrozenLake-v1", map_name="8x8", is_slippery=False)
+
+
+@dataclass(frozen=True)
+class Timing:
+    """One measured runtime."""
+
+    name: str
+    env_steps_per_s: float
+    seconds: float
+    env_steps: int
+
+
+def _timed(name: str, envs: int, run: Callable[[int], None], budget: float) -> Timing:
+    """Time ``run(steps)`` with enough steps to last about ``budget`` seconds."""
+    run(10)  # warm up
+    steps = 16
+    while True:
+        start = time.perf_counter()
+        run(steps)
+        elapsed = time.perf_counter() - start
+        if elapsed >= budget or steps >= 1 << 26:
+            return Timing(name, steps * envs / elapsed, elapsed, steps * envs)
+        steps = int(steps * max(2.0, 1.2 * budget / max(elapsed, 1e-6)))
+
+
+def _single_loop(env: gym.Env, rng: np.random.Generator) -> Callable[[int], None]:
+    env.reset(seed=0)
+
+    def run(steps: int) -> None:
+        actions = rng.integers(env.action_space.n, size=steps).tolist()
+        for a in actions:
+            _, _, terminated, truncated, _ = env.step(a)
+            if terminated or truncated:
+                env.reset()
+    return run
+
+
+def _vector_loop(env: gym.vector.VectorEnv, rng: np.random.Generator) -> Callable[[int], None]:
+    env.reset(seed=0)
+    n_actions = int(env.single_action_space.n)
+
+    def run(steps: int) -> None:
+        actions = rng.integers(n_actions, size=(steps, env.num_envs))
+        for a in actions:
+            env.step(a)
+    return run
+
+
+def _raw_numpy_loop(vec: Any, num_envs: int, rng: np.random.Generator) -> Callable[[int], None]:
+    """The floor of a table step: gathers of next state, reward and observation, and noise bits."""
+    next_state, reward, keys, table = vec._next, vec._reward, vec._obs_key, vec._table
+    bits, width = vec._bits, table.shape[1]
+    p = float(vec._flip[0]) if bits else 0.0
+    state = np.zeros(num_envs, dtype=np.int64)
+    obs = np.zeros((num_envs, width + bits), dtype=np.float32)
+
+    def run(steps: int) -> None:
+        nonlocal state
+        actions = rng.integers(next_state.shape[1], size=(steps, num_envs))
+        for a in actions:
+            r = reward[state, a]
+            state = next_state[state, a]
+            obs[:, :width] = table[keys[state]]
+            if bits:
+                obs[:, width:] = rng.random((num_envs, bits)) < p
+        del r
+    return run
+
+
+def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
+              seed: int = 0) -> dict[str, Any]:
+    """Measure every runtime and the references; returns timings, ratios and memory."""
+    rng = np.random.default_rng(seed)
+    sync_envs = sync_envs or num_envs
+    batched = make_vec(spec, num_envs)
+    timings = [
+        _timed("taskgen single env", 1, _single_loop(make(spec), rng), budget),
+        _timed(f"taskgen batched env ({num_envs})", num_envs, _vector_loop(batched, rng), budget),
+        _timed(f"SyncVectorEnv over taskgen env ({sync_envs})", sync_envs,
+               _vector_loop(gym.vector.SyncVectorEnv([lambda: make(spec)] * sync_envs), rng), budget),
+        _timed("FrozenLake-v1 8x8 single env", 1,
+               _single_loop(gym.make(**FROZEN_LAKE).unwrapped, rng), budget),
+        _timed(f"SyncVectorEnv over FrozenLake-v1 ({sync_envs})", sync_envs,
+               _vector_loop(gym.vector.SyncVectorEnv([lambda: gym.make(**FROZEN_LAKE).unwrapped] * sync_envs),
+                            rng), budget),
+        _timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng), budget),
+    ]
+    by = {t.name: t.env_steps_per_s for t in timings}
+    single, vec, sync_ours, fl_single, fl_sync, raw = (t.env_steps_per_s for t in timings)
+    ratios = {
+        "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
+        "batched / raw numpy table step": vec / raw,
+        "single / FrozenLake single": single / fl_single,
+        "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
+        "batched / single": vec / single,
+    }
+    memory = batched.memory_bytes()
+    return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(batched._bits),
+            "timings": [t.__dict__ for t in timings], "env_steps_per_s": by, "ratios": ratios,
+            "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
+
+
+def format_bench(result: dict[str, Any]) -> str:
+    """A table of the timings, then the ratios and memory."""
+    lines = [f"{result['spec']}: {result['num_envs']} envs, {result['noise_bits']} noise bits, "
+             "uniform-random actions", "", f"  {'runtime':<46} {'env-steps/s':>14}"]
+    for t in result["timings"]:
+        lines.append(f"  {t['name']:<46} {t['env_steps_per_s']:>14,.0f}")
+    lines += ["", "  ratios (same run)"]
+    for name, value in result["ratios"].items():
+        lines.append(f"  {name:<46} {value:>10.2f}×")
+    mem = result["memory_bytes"]
+    lines += ["", f"  memory: {mem['per_env']:,} bytes per environment, "
+              f"{mem['shared_tables']:,} bytes of shared tables"]
+    return "\n".join(lines)
