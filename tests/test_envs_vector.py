@@ -1,0 +1,132 @@
+"""The batched runtime against gymnasium's own SyncVectorEnv and AsyncVectorEnv."""
+
+from __future__ import annotations
+
+import pickle
+
+import gymnasium as gym
+import numpy as np
+import pytest
+from gymnasium.vector import AutoresetMode
+
+import taskgen
+
+STEPS = 3000
+
+
+def _assert_same(ours, theirs, where):
+    """Observations, rewards, terminations, truncations and infos equal, dtypes included."""
+    for name, x, y in zip(("obs", "reward", "terminated", "truncated"), ours[:4], theirs[:4]):
+        assert x.dtype == y.dtype and np.array_equal(x, y), (where, name)
+    oi, ti = ours[4], theirs[4]
+    assert list(oi["variant_id"]) == list(ti["variant_id"]), where
+    assert np.array_equal(oi["step"], ti["step"]), where
+    for key in ("cue", "state"):
+        assert np.array_equal(oi["analysis_only"][key], ti["analysis_only"][key]), (where, key)
+
+
+def _compare(spec_name, variants, reset_seed, steps=STEPS):
+    """Step our batch and gymnasium's SyncVectorEnv of single envs with the same actions."""
+    n = len(variants)
+    ours = taskgen.make_vec(spec_name, n, variants=variants)
+    theirs = gym.vector.SyncVectorEnv([lambda v=v: taskgen.make(spec_name, seed=v) for v in variants])
+    assert theirs.metadata["autoreset_mode"] == ours.metadata["autoreset_mode"] == AutoresetMode.NEXT_STEP
+    o1, i1 = ours.reset(seed=reset_seed)
+    o2, i2 = theirs.reset(seed=reset_seed)
+    assert np.array_equal(o1, o2)
+    rng = np.random.default_rng(5)
+    for t in range(steps):
+        a = rng.integers(4, size=n)
+        _assert_same(ours.step(a), theirs.step(a), (spec_name, t))
+    # a later unseeded reset continues every env's stream the same way
+    o1, _ = ours.reset()
+    o2, _ = theirs.reset()
+    assert np.array_equal(o1, o2)
+
+
+@pytest.mark.parametrize("spec_name", sorted(taskgen.bundled_specs()))
+def test_batch_equals_sync_vector_env_of_single_envs(spec_name):
+    """Over thousands of steps, with resets at different times in different envs, the batch
+    gives exactly what gymnasium's SyncVectorEnv of our single envs gives (gymnasium's own
+    vector semantics, next-step autoreset, are the reference)."""
+    _compare(spec_name, variants=[3] * 5, reset_seed=11)
+
+
+@pytest.mark.parametrize("spec_name", ["seed-cache", "signal-tower"])
+def test_batch_across_variants_equals_single_envs(spec_name):
+    """Each env may hold its own variant (specs whose vector size does not depend on layout)."""
+    _compare(spec_name, variants=[0, 1, 2, 3, 4, 5], reset_seed=[7, 1, 9, 4, 4, 0], steps=1500)
+
+
+def test_one_hot_blocks_are_padded_across_variants():
+    """With one-hot position, variants of different sizes share one block layout: each env's
+    observation is its single env's, each block zero-padded at its end."""
+    variants = [0, 1, 2]
+    vec = taskgen.make_vec("lantern-hall", 3, variants=variants)
+    singles = [taskgen.make("lantern-hall", seed=v) for v in variants]
+    obs, _ = vec.reset(seed=2)
+    for i, env in enumerate(singles):
+        single, _ = env.reset(seed=2 + i)
+        for name, block in env.observation_blocks.items():
+            wide = vec.observation_blocks[name]
+            width = block.stop - block.start
+            assert np.array_equal(obs[i, wide.start:wide.start + width], single[block])
+            assert not obs[i, wide.start + width:wide.stop].any()
+
+
+def test_spaces_metadata_and_registration():
+    """Spaces batch the single spaces; gymnasium.make_vec uses the native batch for our IDs."""
+    env = gym.make_vec("taskgen/seed-cache-v0", num_envs=4)
+    assert isinstance(env.unwrapped, taskgen.TaskVectorEnv)
+    assert env.observation_space.shape == (4, env.single_observation_space.shape[0])
+    assert env.action_space == gym.spaces.MultiDiscrete([4] * 4)
+    obs, info = env.reset(seed=0)
+    assert env.observation_space.contains(obs)
+    assert info["_variant_id"].all() and info["analysis_only"]["_cue"].all()
+
+
+def test_bad_actions_are_refused():
+    """Wrong shape, type or range of actions is a ValueError, not a silent wrap-around."""
+    env = taskgen.make_vec("lantern-hall", 3)
+    env.reset(seed=0)
+    for bad in (np.array([0, 1]), np.array([0, 1, 4]), np.array([0, -1, 2]), np.array([0.0, 1.0, 2.0])):
+        with pytest.raises(ValueError, match=r"actions must be 3 integers in \[0, 4\)"):
+            env.step(bad)
+
+
+def test_cue_draws_are_uniform():
+    """Over many resets each of three cue values appears with frequency 1/3 within 4 standard
+    errors (binomial proportion; common practice) — a check of the counter-based streams."""
+    n = 4096
+    env = taskgen.make_vec("seed-cache", n)
+    _, info = env.reset(seed=123)
+    cues = info["analysis_only"]["cue"]
+    for v in range(3):
+        assert abs((cues == v).mean() - 1 / 3) <= 4 * np.sqrt((1 / 3) * (2 / 3) / n)
+
+
+def _make_lantern():
+    return taskgen.make("lantern-hall", seed=1)
+
+
+def test_single_envs_pickle_and_run_under_async_vector_env():
+    """Single envs pickle, and gymnasium's AsyncVectorEnv with the spawn context runs them in
+    fresh processes with the same results as in this one (gymnasium's AsyncVectorEnv)."""
+    env = _make_lantern()
+    clone = pickle.loads(pickle.dumps(env))
+    assert np.array_equal(clone.reset(seed=4)[0], env.reset(seed=4)[0])
+    async_env = gym.vector.AsyncVectorEnv([_make_lantern] * 2, context="spawn")
+    sync_env = gym.vector.SyncVectorEnv([_make_lantern] * 2)
+    try:
+        o1, _ = async_env.reset(seed=3)
+        o2, _ = sync_env.reset(seed=3)
+        assert np.array_equal(o1, o2)
+        rng = np.random.default_rng(0)
+        for _ in range(60):
+            a = rng.integers(4, size=2)
+            r1, r2 = async_env.step(a), sync_env.step(a)
+            for x, y in zip(r1[:4], r2[:4]):
+                assert np.array_equal(x, y)
+    finally:
+        async_env.close()
+        sync_env.close()
