@@ -9,6 +9,7 @@ import traceback
 
 import click
 
+from . import limits
 from .errors import TaskgenError
 from .envs import resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
@@ -34,14 +35,20 @@ def cli() -> None:
 @click.option("--min-gap", default=0.0, show_default=True, type=float,
               help="Fail a variant whose memory gap (optimal − chance mean return) is below this.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
-def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool) -> None:
+@click.option("--max-work", type=float, help="Cap on states × actions × step limit of one variant "
+              "(default 2e8, or TASKGEN_MAX_WORK).")
+@click.option("--max-bytes", type=float, help="Cap on one table or picture in bytes (default 512 MiB, "
+              "or TASKGEN_MAX_BYTES).")
+def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
+          max_bytes: float | None) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, recall distance, cue leaks, carried cues, the memory gap and the
     optimal, chance (best memoryless), cue-blind and random baselines. Exits 0 when every check
     passes, 1 when one fails, 2 on a bad spec.
     """
-    run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed, min_gap=min_gap)
+    with limits.raised(max_work, max_bytes):
+        run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed, min_gap=min_gap)
     if as_json:
         click.echo(json.dumps(run.to_dict(), indent=2))
     else:

@@ -22,6 +22,7 @@ from .baselines import cue_blind_policy, optimal_policy
 ObservationTables = Mapping[str, tuple[np.ndarray, Mapping[str, slice]]]
 ENUMERATION_BUDGET = 1 << 16
 PAIR_LIMIT = 48   # observations up to which the search also tries changing two at once
+SEARCH_WORK = 2_000_000_000   # policies evaluated × states × steps before the search stops
 IMPROVEMENT = 1e-12
 
 
@@ -119,17 +120,18 @@ def _best_pair(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: 
 
 
 def _ascend(model: TaskModel, classes: np.ndarray, policy: np.ndarray, active: np.ndarray,
-            rng: np.random.Generator, pair_limit: int) -> tuple[np.ndarray, float, int]:
+            rng: np.random.Generator, pair_limit: int, allowance: int) -> tuple[np.ndarray, float, int]:
     """Local search to a policy that no change of one observation's action improves (nor of
-    two, when there are at most ``pair_limit`` observations)."""
+    two, when there are at most ``pair_limit`` observations), or until about ``allowance``
+    policies have been evaluated."""
     best = float(evaluate_memoryless(model, classes, policy)[0])
     evaluated = 1
     while True:
         improved = True
-        while improved:
+        while improved and evaluated < allowance:
             policy, best, n, improved = _best_single(model, classes, policy, best, active, rng)
             evaluated += n
-        if active.size > pair_limit:
+        if active.size > pair_limit or evaluated >= allowance:
             return policy, best, evaluated
         policy, best, n, improved = _best_pair(model, classes, policy, best, active)
         evaluated += n
@@ -158,17 +160,22 @@ def best_memoryless(model: TaskModel, observations: ObservationTables | None = N
     except AnalysisError:
         pass  # no cue-blind policy for this model: the other starts remain
     starts += [rng.integers(A, size=O) for _ in range(restarts)]
-    best_policy, best_value, evaluated = starts[0], -np.inf, 0
+    allowance = max(200, SEARCH_WORK // (model.num_states * model.horizon))
+    best_policy, best_value, evaluated, used = starts[0], -np.inf, 0, 0
     for start in starts:
-        policy, value, n = _ascend(model, classes, start.astype(np.int64), active, rng, pair_limit)
+        if evaluated >= allowance:
+            break
+        policy, value, n = _ascend(model, classes, start.astype(np.int64), active, rng, pair_limit,
+                                   allowance - evaluated)
         evaluated += n
+        used += 1
         if value > best_value + IMPROVEMENT:
             best_policy, best_value = policy, value
     return MemorylessResult(
         policy=best_policy, classes=classes, mean_return=best_value, method="search lower bound",
         detail=f"local search (one{' and two' if active.size <= pair_limit else ''} observations at a "
-        f"time) from {len(starts)} starts over {active.size} observations, {evaluated} policies "
-        "evaluated exactly",
+        f"time) from {used} starts over {active.size} observations, {evaluated} policies "
+        "evaluated exactly" + (", stopped at the work budget" if evaluated >= allowance else ""),
     )
 
 

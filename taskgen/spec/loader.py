@@ -25,6 +25,8 @@ class _Positions:
         self.values: dict[PathKey, tuple[int, int]] = {}
         self.keys: dict[PathKey, tuple[int, int]] = {}
         self.overridden: dict[PathKey, str] = {}
+        self.bool_words: dict[PathKey, str] = {}   # unquoted words YAML 1.1 read as booleans
+        self.count = 0
 
     def locate(self, path: PathKey, field: str, at_key: bool = False) -> Location:
         """The position of ``path``, or of its nearest ancestor that the file has."""
@@ -44,9 +46,24 @@ def _mark(node: yaml.Node) -> tuple[int, int]:
     return node.start_mark.line + 1, node.start_mark.column + 1
 
 
-def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positions) -> Any:
-    """Build plain Python data from a node tree, recording positions and refusing duplicate keys."""
+MAX_NODES = 100_000   # a hand-written spec has hundreds; aliases must not multiply them
+
+
+def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positions,
+          open_nodes: frozenset[int] = frozenset()) -> Any:
+    """Build plain Python data from a node tree, recording positions and refusing duplicate
+    keys, tags, aliases that contain themselves and documents that aliases blow up."""
     pos.values[path] = _mark(node)
+    pos.count += 1
+    if pos.count > MAX_NODES:
+        line, col = _mark(node)
+        raise SpecError(Location(pos.source, line, col, _dotted(path)),
+                        f"expected a spec of at most {MAX_NODES} YAML values", "more (aliases repeat them)")
+    if id(node) in open_nodes:
+        line, col = _mark(node)
+        raise SpecError(Location(pos.source, line, col, _dotted(path)),
+                        "expected no alias inside the value it names", "a recursive alias")
+    open_nodes = open_nodes | {id(node)}
     plain = {yaml.MappingNode: "tag:yaml.org,2002:map", yaml.SequenceNode: "tag:yaml.org,2002:seq"}
     if type(node) in plain and node.tag != plain[type(node)]:
         line, col = _mark(node)
@@ -56,6 +73,10 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
     if isinstance(node, yaml.MappingNode):
         out: dict[Any, Any] = {}
         for key_node, value_node in node.value:
+            if key_node.tag == "tag:yaml.org,2002:merge":
+                line, col = _mark(key_node)
+                raise SpecError(Location(pos.source, line, col, _dotted(path)),
+                                "expected plain keys (merge keys are not supported)", "<<")
             key = loader.construct_object(key_node, deep=True)
             if not isinstance(key, str):
                 line, col = _mark(key_node)
@@ -69,29 +90,43 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
                                 f"expected each key once (first given at line {first[0]})",
                                 "a duplicate key")
             pos.keys[child] = _mark(key_node)
-            out[key] = _walk(loader, value_node, child, pos)
+            out[key] = _walk(loader, value_node, child, pos, open_nodes)
         return out
     if isinstance(node, yaml.SequenceNode):
-        return [_walk(loader, item, path + (i,), pos) for i, item in enumerate(node.value)]
+        return [_walk(loader, item, path + (i,), pos, open_nodes) for i, item in enumerate(node.value)]
+    if node.tag == "tag:yaml.org,2002:bool" and node.value.lower() not in ("true", "false"):
+        pos.bool_words[path] = node.value
     return loader.construct_object(node, deep=True)
 
 
 def _dotted(path: PathKey) -> str:
+    """``a.b[0].c``; a key that is not plain printable text is shown quoted, as ``a['x.y']``."""
     text = ""
     for part in path:
-        text += f"[{part}]" if isinstance(part, int) else (f".{part}" if text else str(part))
+        if isinstance(part, int):
+            text += f"[{part}]"
+        elif not part or not part.isprintable() or any(c in part for c in ".[]: "):
+            text += f"[{part!r}]"
+        else:
+            text += f".{part}" if text else part
     return text
 
 
 def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
     """Parse one YAML document with the safe loader, keeping node positions."""
     pos = _Positions(source)
-    loader = yaml.SafeLoader(text)
+    loader = None
     try:
+        loader = yaml.SafeLoader(text)
         node = loader.get_single_node()
         if node is None:
             raise SpecError(Location(source, 1, 1), "expected a YAML mapping", "an empty document")
         data = _walk(loader, node, (), pos)
+    except yaml.reader.ReaderError as exc:  # a character YAML does not allow, before parsing
+        before = text[: exc.position]
+        line, column = before.count("\n") + 1, len(before) - (before.rfind("\n") + 1) + 1
+        raise SpecError(Location(source, line, column), "expected printable YAML text",
+                        f"the character {exc.character!r}") from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         line = mark.line + 1 if mark else None
@@ -99,9 +134,10 @@ def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
         problem = exc.problem or exc.context or "unreadable YAML"
         raise SpecError(Location(source, line, column), "expected valid YAML", problem) from None
     except yaml.YAMLError as exc:
-        raise SpecError(Location(source), "expected valid YAML", str(exc)) from None
+        raise SpecError(Location(source, 1, 1), "expected valid YAML", str(exc)) from None
     finally:
-        loader.dispose()
+        if loader is not None:
+            loader.dispose()
     return data, pos
 
 
@@ -161,6 +197,16 @@ def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
         "model_attributes_type": "a mapping", "dict_type": "a mapping", "list_type": "a list",
         "finite_number": "a finite number",
     }
+    if isinstance(value, bool) and path in pos.bool_words and kind != "bool_type":
+        word = pos.bool_words[path]
+        expected = words.get(kind) or str(ctx.get("expected", "a different value"))
+        return SpecError(pos.locate(path, field), f"expected {expected}",
+                         f"the unquoted word {word}, which YAML 1.1 reads as {describe(value)}; "
+                         f"write '{word}' in quotes to mean the text")
+    if kind in ("float_type", "float_parsing") and isinstance(value, str) and _float_text(value):
+        return SpecError(pos.locate(path, field), "expected a number",
+                         f"the text {value!r}: YAML 1.1 reads an exponent without a dot as text; "
+                         f"write it with a dot, as {_float_text(value)}")
     if kind in words:
         return SpecError(pos.locate(path, field), f"expected {words[kind]}", describe(value))
     if kind == "literal_error":
@@ -169,6 +215,18 @@ def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
         return SpecError(pos.locate(path, field),
                          "expected lower-case letters, digits and dashes (at most 63)", describe(value))
     return SpecError(pos.locate(path, field), f"expected {err['msg'].lower()}", describe(value))
+
+
+def _float_text(text: str) -> str | None:
+    """For text like '1e-3' (a float to people, a string to YAML 1.1), the spelling YAML reads."""
+    try:
+        float(text)
+    except ValueError:
+        return None
+    mantissa, _, exponent = text.lower().partition("e")
+    if not exponent or "." in mantissa:
+        return None
+    return f"{mantissa}.0e{exponent}"
 
 
 def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any], pos: _Positions) -> None:

@@ -14,12 +14,13 @@ from .params import IntParam, expected_error, int_param
 
 FORMAT_VERSION = 1
 MAX_CUE_VALUES = 8
+MAX_REWARD = 1e6   # larger magnitudes only lose precision in the analyses' sums
 
 
 class Strict(BaseModel):
     """Base of every spec block: unknown keys are refused, types are not coerced."""
 
-    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False)
 
 
 class Corridor(Strict):
@@ -68,11 +69,11 @@ class Cue(Strict):
 class Rewards(Strict):
     """What each outcome pays. Rewards are added, so a step into the right arm end pays step + correct."""
 
-    correct: float = Field(default=1.0, description="Entering the arm end the cue named.", examples=[1.0])
-    wrong: float = Field(default=0.0, description="Entering any other arm end (the episode ends).", examples=[-1.0])
-    step: float = Field(default=0.0, description="Paid on every step, the last one included.", examples=[-0.01])
+    correct: float = Field(default=1.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering the arm end the cue named.", examples=[1.0])
+    wrong: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering any other arm end (the episode ends).", examples=[-1.0])
+    step: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Paid on every step, the last one included.", examples=[-0.01])
     timeout: float = Field(
-        default=0.0, description="Added on the step that reaches the step limit without an arm end.",
+        default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Added on the step that reaches the step limit without an arm end.",
         examples=[-0.5],
     )
 
@@ -96,7 +97,7 @@ class Episode(Strict):
         examples=["auto", 40],
     )
     max_steps_factor: float = Field(
-        default=2.0, ge=1.0, description="Multiplier used when max_steps is 'auto'.", examples=[2.0]
+        default=2.0, ge=1.0, le=100.0, description="Multiplier used when max_steps is 'auto'.", examples=[2.0]
     )
     discount: float = Field(
         default=1.0, gt=0.0, le=1.0,

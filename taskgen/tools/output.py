@@ -20,3 +20,16 @@ def write_text_atomic(path: str | os.PathLike[str], text: str) -> Path:
         Path(tmp).unlink(missing_ok=True)
         raise
     return target
+
+
+def child_path(out_dir: str | os.PathLike[str], name: str) -> Path:
+    """``out_dir / name`` for a name derived from user input, refused if it could leave ``out_dir``
+    (an absolute path, ``..``, a path separator or a hidden name)."""
+    if not name or name in (".", "..") or name.startswith(".") or "/" in name or "\\" in name \
+            or Path(name).is_absolute() or "\0" in name:
+        raise ValueError(f"output name {name!r} must be a plain file name inside the output folder")
+    base = Path(out_dir).resolve()
+    target = (base / name).resolve()
+    if target.parent != base:
+        raise ValueError(f"output name {name!r} would leave {base}")
+    return target

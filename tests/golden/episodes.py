@@ -1,0 +1,49 @@
+"""Golden episode hashes: the first 1,000 steps of every example spec under a fixed seed and
+action sequence. `python tests/golden/episodes.py` prints them as JSON; `--write` updates
+episodes.json. Update only when a change to the dynamics or the randomness is intended, and say
+so in CHANGELOG.md: old seeds then give new episodes."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+
+import taskgen
+
+STEPS = 1000
+HERE = Path(__file__).resolve().parent
+
+
+def episode_hash(spec_name: str) -> str:
+    """sha256 of observations, rewards and flags of 1,000 steps (variant 0, reset seed 0)."""
+    env = taskgen.make(spec_name, seed=0)
+    actions = np.random.default_rng(2024).integers(env.action_space.n, size=STEPS)
+    h = hashlib.sha256()
+    obs, _ = env.reset(seed=0)
+    h.update(obs.tobytes())
+    for a in actions:
+        obs, reward, terminated, truncated, _ = env.step(int(a))
+        h.update(obs.tobytes())
+        h.update(np.float64(reward).tobytes())
+        h.update(bytes([terminated, truncated]))
+        if terminated or truncated:
+            obs, _ = env.reset()
+            h.update(obs.tobytes())
+    return h.hexdigest()
+
+
+def all_hashes() -> dict[str, str]:
+    """The hash of every bundled spec."""
+    return {name: episode_hash(name) for name in sorted(taskgen.bundled_specs())}
+
+
+if __name__ == "__main__":
+    hashes = all_hashes()
+    text = json.dumps(hashes, indent=2) + "\n"
+    if "--write" in sys.argv:
+        (HERE / "episodes.json").write_text(text)
+    sys.stdout.write(text)
