@@ -7,13 +7,18 @@ from typing import Any
 
 import numpy as np
 
+from .errors import LayoutError
 from .generate import GridLayout, corridor_layout
+from .generate.maze import backtracker_maze, braid, dead_ends, maze_layout, rooms_maze, wilson_maze
+from .generate.placement import PlacementError, PlacementRules, place
 from .limits import check_bytes, check_work
 from .spec import Spec
 
-# Streams spawned from a variant seed, so a new kind of draw (a maze layout, say) gets its own
-# stream and never shifts the parameters drawn here.
+# Streams spawned from a variant seed, so each kind of draw has its own and adding a draw to
+# one never shifts another.
 _PARAMS_STREAM = 0
+_LAYOUT_STREAM = 1
+_PLACEMENT_STREAM = 2
 
 
 @dataclass(frozen=True, eq=False)
@@ -31,9 +36,13 @@ class Variant:
         return f"{self.spec.name}-s{self.seed}"
 
 
-def variant_rng(seed: int, stream: int) -> np.random.Generator:
-    """The generator of one named stream of a variant seed."""
-    return np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=(stream,)))
+MAX_LAYOUT_ATTEMPTS = 50   # layouts drawn for one variant before its placement rules are declared unmeetable
+
+
+def variant_rng(seed: int, stream: int, attempt: int = 0) -> np.random.Generator:
+    """The generator of one named stream of a variant seed (and of one layout attempt)."""
+    key = (stream,) if attempt == 0 else (stream, attempt)
+    return np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=key))
 
 
 def make_variant(spec: Spec, seed: int = 0) -> Variant:
@@ -41,6 +50,8 @@ def make_variant(spec: Spec, seed: int = 0) -> Variant:
     if not isinstance(seed, (int, np.integer)) or isinstance(seed, bool) or seed < 0:
         raise ValueError(f"variant seed must be an integer ≥ 0, got {seed!r}")
     seed = int(seed)
+    if spec.layout.maze is not None:
+        return _maze_variant(spec, seed)
     rng = variant_rng(seed, _PARAMS_STREAM)
     corridor = spec.layout.corridor
     params = {
@@ -53,6 +64,58 @@ def make_variant(spec: Spec, seed: int = 0) -> Variant:
     _check_size(spec, params, f"{spec.name}-s{seed}")
     layout = corridor_layout(params["length"], params["arm_length"], params["cue_values"], params["width"])
     return Variant(spec=spec, seed=seed, params=params, layout=layout)
+
+
+def _maze_variant(spec: Spec, seed: int) -> Variant:
+    """Draw a maze's size, carve it, braid it and place its start, goals and cue site."""
+    maze = spec.layout.maze
+    what = f"{spec.name}-s{seed}"
+    rng = variant_rng(seed, _PARAMS_STREAM)
+    params: dict[str, Any] = {"width": maze.width.sample(rng), "height": maze.height.sample(rng),
+                              "generator": maze.generator, "braid": maze.braid,
+                              "cue_values": spec.cue.values, "visible_steps": spec.cue.visible_steps}
+    cells = params["width"] * params["height"]
+    horizon = spec.episode.max_steps
+    if horizon == "auto":   # a path in a maze visits each cell at most once
+        horizon = int(np.ceil(spec.episode.max_steps_factor * cells))
+    n = 0 if spec.cue.display == "site" else spec.cue.visible_steps
+    check_work(what, cells * (n + 1) * spec.cue.values, 4, max(horizon, 1))
+    check_bytes(f"{what}: the observation table",
+                cells * (spec.cue.values + 1) * (spec.cue.values + 4 + cells) * 4)
+    h, w = params["height"], params["width"]
+    rules = PlacementRules(start=maze.start, goals=spec.cue.values,
+                           goals_in_dead_ends=maze.goals_in_dead_ends,
+                           goals_hidden_from_start=maze.goals_hidden_from_start,
+                           min_start_distance=maze.min_goal_distance,
+                           min_goal_spacing=maze.min_goal_spacing,
+                           min_branch_distance=maze.min_branch_distance,
+                           cue_site=maze.cue_site if spec.cue.display == "site" else "")
+    for attempt in range(MAX_LAYOUT_ATTEMPTS):   # redraw the maze until the rules can be met
+        layout_rng = variant_rng(seed, _LAYOUT_STREAM, attempt)
+        try:
+            if maze.generator == "uniform":
+                passages = wilson_maze(layout_rng, h, w)
+            elif maze.generator == "backtracker":
+                passages = backtracker_maze(layout_rng, h, w)
+            else:
+                passages = rooms_maze(layout_rng, h, w, maze.room_size)
+            if maze.braid > 0:
+                passages = braid(layout_rng, passages, maze.braid)
+            neighbour = maze_layout(passages, 0, []).neighbour
+            start, goals, cue_site = place(variant_rng(seed, _PLACEMENT_STREAM, attempt), neighbour,
+                                           (h, w), rules)
+            break
+        except PlacementError as exc:
+            problem = str(exc)
+        except ValueError as exc:
+            raise LayoutError(f"{what} ({w}×{h} {maze.generator} maze, variant seed {seed}): {exc}") from None
+    else:
+        raise LayoutError(f"{what} ({w}×{h} {maze.generator} maze, variant seed {seed}): in "
+                          f"{MAX_LAYOUT_ATTEMPTS} layouts drawn, the placement rules were never met; "
+                          f"in the last, {problem}")
+    params["layout_attempt"] = attempt
+    params["dead_ends"] = int(dead_ends(passages).size)
+    return Variant(spec=spec, seed=seed, params=params, layout=maze_layout(passages, start, goals, cue_site))
 
 
 def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:

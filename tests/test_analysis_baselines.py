@@ -7,7 +7,7 @@ import pytest
 
 import taskgen
 from taskgen.analysis import (analyse, best_memoryless, cue_blind_baseline, cue_blind_policy, optimal_baseline,
-                              optimal_policy)
+                              optimal_policy, return_variance, uniform_policy)
 from taskgen.tools.check import observation_tables
 
 from conftest import corridor_model, corridor_spec_text
@@ -56,10 +56,11 @@ def _rollouts(env, choose, episodes, seed):
     return returns, successes
 
 
-def _within_4_se(samples, exact):
-    """Mean of the samples within 4 standard errors of the exact figure (common practice)."""
-    se = samples.std(ddof=1) / np.sqrt(len(samples))
-    return abs(samples.mean() - exact) <= 4 * max(se, 1e-12)
+def _within_4_se(samples, exact, variance):
+    """Mean of the samples within 4 standard errors of the exact figure, the standard error from
+    the exact variance (central limit theorem; common practice)."""
+    se = np.sqrt(variance / len(samples))
+    return abs(samples.mean() - exact) <= 4 * se + 1e-12
 
 
 @pytest.mark.parametrize("spec_name", sorted(taskgen.bundled_specs()))
@@ -72,17 +73,20 @@ def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     spec = taskgen.load_spec(taskgen.bundled_specs()[spec_name])
     report = analyse(model, observation_tables(model, spec))
     memoryless = best_memoryless(model, observation_tables(model, spec)).state_policy(model.horizon)
+    tables = {"optimal": optimal_policy(model), "cue_blind": cue_blind_policy(model), "chance": memoryless,
+              "random": uniform_policy(model)}
     policies = {
-        "optimal": lambda t, info, p=optimal_policy(model): p[t, info["analysis_only"]["state"]],
-        "cue_blind": lambda t, info, p=cue_blind_policy(model): p[t, info["analysis_only"]["state"]],
+        "optimal": lambda t, info, p=tables["optimal"]: p[t, info["analysis_only"]["state"]],
+        "cue_blind": lambda t, info, p=tables["cue_blind"]: p[t, info["analysis_only"]["state"]],
         "chance": lambda t, info, p=memoryless: p[t, info["analysis_only"]["state"]],
         "random": lambda t, info: int(rng.integers(model.num_actions)),
     }
     exact = report.baselines
     for name, choose in policies.items():
         returns, successes = _rollouts(env, choose, episodes=1500 if name == "random" else 600, seed=100)
-        assert _within_4_se(returns, exact[name].mean_return), name
-        assert _within_4_se(successes, exact[name].success_rate), name
+        p = exact[name].success_rate
+        assert _within_4_se(returns, exact[name].mean_return, return_variance(model, tables[name])), name
+        assert _within_4_se(successes, p, p * (1 - p)), name  # Bernoulli variance
 
 
 def test_undiscounted_figures_are_what_rollouts_sum():

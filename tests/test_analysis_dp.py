@@ -41,7 +41,7 @@ def test_two_arm_hitting_time_matches_gamblers_ruin(arm_length):
     N = 2 * (arm_length + 1)
     policy = uniform_policy(model)
     h = hitting_times(model, policy, model.terminal, cost=_moves(model))
-    end0, end1 = model.layout.sites["arm_end"]
+    end0, end1 = model.layout.sites["goal"]
     # walk the path explicitly: arm 0 end → spine → arm 1 end
     order = [end0]
     while len(order) < N + 1:
@@ -101,3 +101,13 @@ def test_finite_horizon_length_converges_to_the_linear_solve():
     steps = hitting_times(model, policy, model.terminal)
     by_dp = at_reset(model, evaluate(model, policy, Objective.length(model)))
     assert by_dp == pytest.approx(at_reset(model, steps), abs=1e-9)
+
+
+def test_return_variance_of_a_coin_flip():
+    """The cue-blind guess between two arms paying +1 and −1 (no step cost) has return variance
+    exactly 1 (a ±1 Bernoulli(½) variable: textbook)."""
+    from taskgen.analysis import cue_blind_policy, return_variance
+
+    model = corridor_model(length=3, rewards={"correct": 1.0, "wrong": -1.0, "timeout": -1.0})
+    assert return_variance(model, cue_blind_policy(model)) == pytest.approx(1.0, abs=1e-12)
+    assert return_variance(model, uniform_policy(model)) > 0

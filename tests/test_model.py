@@ -55,7 +55,7 @@ def test_layout_is_a_tree_with_k_dead_end_arms():
     g.add_edges_from((c, int(n)) for c, row in enumerate(layout.neighbour) for n in row if n >= 0)
     assert nx.is_tree(g)
     leaves = {c for c in g if g.degree(c) == 1}
-    assert leaves == {layout.start, *map(int, layout.sites["arm_end"])}
+    assert leaves == {layout.start, *map(int, layout.sites["goal"])}
 
 
 def test_tables_are_consistent():
@@ -67,7 +67,7 @@ def test_tables_are_consistent():
     assert not (model.success & ~model.terminal).any()
     assert model.initial.sum() == pytest.approx(1.0)
     assert np.allclose(model.initial[model.initial_states()], 1 / 3)
-    assert (model.hidden[model.success] == np.searchsorted(model.layout.sites["arm_end"],
+    assert (model.hidden[model.success] == np.searchsorted(model.layout.sites["goal"],
                                                            model.cell[model.success])).all()
 
 

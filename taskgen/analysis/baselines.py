@@ -16,9 +16,10 @@ import numpy as np
 
 from ..errors import AnalysisError
 from ..model import TaskModel
-from .dp import Objective, at_reset, evaluate, optimise, optimise_tables, uniform_policy
+from .dp import Objective, SharedChoice, at_reset, evaluate, optimise, optimise_tables, uniform_policy
 
-OPTIMAL_CLASS = "remembers the cue: sees the full state (position, time, cue value)"
+OPTIMAL_CLASS = ("perfect memory: uses the cue from the moment it is shown (sees position and time; "
+                 "before the cue is shown it knows only its prior)")
 CUE_BLIND_CLASS = ("never knows the cue: sees position and time but never the cue value "
                    "(deterministic, time-dependent)")
 RANDOM_CLASS = "uniform-random actions"
@@ -52,8 +53,17 @@ def policy_figures(model: TaskModel, policy: np.ndarray, policy_class: str, meth
 
 
 def optimal_policy(model: TaskModel) -> np.ndarray:
-    """The optimal deterministic policy ``int[H, S]`` of an agent that knows the cue."""
-    return optimise(model)[1]
+    """The optimal deterministic policy ``int[H, S]`` of an agent with perfect memory: it uses
+    the cue from the moment it has seen it, and before that acts alike in cue twins (with the
+    prior-weighted values, since it has learned nothing of the cue yet)."""
+    if model.cue_known.all():
+        return optimise(model)[1]
+    blind = model.blind_state
+    weight = model.hidden_prior[model.hidden]
+    mass = np.bincount(blind, weights=weight)
+    shared = SharedChoice(blind, weight / mass[blind], ~model.cue_known)
+    return optimise_tables(model.next_state, model.terminal, model.horizon,
+                           Objective.task_return(model), shared)[1]
 
 
 def optimal_baseline(model: TaskModel) -> Baseline:

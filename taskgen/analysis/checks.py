@@ -8,7 +8,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import AnalysisError
-from ..model import TaskModel, shortest_success_steps
+from ..model import TaskModel, distances_from, shortest_success_steps
 from .baselines import (CUE_BLIND_CLASS, Baseline, cue_blind_baseline, optimal_baseline, optimal_policy, policy_figures,
                         random_baseline)
 from .leaks import TOLERANCE, carried_cue_witness, static_leak
@@ -52,6 +52,15 @@ def solvability(model: TaskModel) -> Check:
     return Check("solvable", True, f"every cue solvable; shortest {longest} steps, limit {model.horizon}")
 
 
+def _optimal_paths(model: TaskModel, policy: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """States of the optimal agent's path for each cue value: ``int[H+1, K]`` and the cues."""
+    starts = model.initial_states()
+    paths = [starts]
+    for t in range(model.horizon):
+        paths.append(model.next_state[paths[-1], policy[t, paths[-1]]])
+    return np.stack(paths), model.hidden[starts]
+
+
 def decision_steps(model: TaskModel, policy: np.ndarray | None = None) -> dict[int, int | None]:
     """Per cue value, the first step whose action sends the optimal agent somewhere another cue
     value's agent does not go (None: its path never parts from the others').
@@ -60,41 +69,52 @@ def decision_steps(model: TaskModel, policy: np.ndarray | None = None) -> dict[i
     trajectory shares its cue-blind states with at least one other.
     """
     policy = optimal_policy(model) if policy is None else policy
-    starts = model.initial_states()
-    cues = model.hidden[starts]
-    states = starts.copy()
-    decided: dict[int, int | None] = {int(c): None for c in cues}
-    for t in range(model.horizon):
-        states = model.next_state[states, policy[t, states]]
-        blind = model.blind_state[states]
-        for i, c in enumerate(cues):
-            if decided[int(c)] is None and (blind[i] != np.delete(blind, i)).all():
-                decided[int(c)] = t
-        if all(v is not None for v in decided.values()) or model.terminal[states].all():
-            break
+    paths, cues = _optimal_paths(model, policy)
+    blind = model.blind_state[paths]                      # [H+1, K]
+    decided: dict[int, int | None] = {}
+    for i, c in enumerate(cues):
+        others = np.delete(blind, i, axis=1)
+        apart = np.flatnonzero((blind[1:, i:i + 1] != others[1:]).all(axis=1)) if others.size else []
+        decided[int(c)] = int(apart[0]) if len(apart) else None
     return decided
 
 
-def decision_step(model: TaskModel, policy: np.ndarray | None = None) -> int | None:
-    """First step at which any cue value's optimal path parts from the others (None: never)."""
-    steps = [t for t in decision_steps(model, policy).values() if t is not None]
-    return min(steps) if steps else None
-
-
 def recall_distances(model: TaskModel, policy: np.ndarray | None = None) -> dict[int, int | None]:
-    """Per cue value: steps between the cue's last visible observation and its decision.
+    """Per cue value: steps between the last observation showing the cue and the decision.
 
-    The cue shows in observations 0 … n−1; an action at step t is taken after observation t, so
-    the distance is t − (n − 1). Zero or less means the cue is still in view at the decision.
+    An action at step t is taken after observation t, so the distance is t − (the last step ≤ t
+    whose observation showed the cue). Zero means the cue is in view at the decision; None means
+    the path never depends on the cue or never showed it before deciding.
     """
-    return {c: None if t is None else t - (model.cue_visible_steps - 1)
-            for c, t in decision_steps(model, policy).items()}
+    policy = optimal_policy(model) if policy is None else policy
+    paths, cues = _optimal_paths(model, policy)
+    shown = model.cue_shown()[paths]
+    out: dict[int, int | None] = {}
+    for i, (c, t) in enumerate(zip(cues, decision_steps(model, policy).values())):
+        seen = np.flatnonzero(shown[: t + 1, i]) if t is not None else []
+        out[int(c)] = int(t - seen[-1]) if len(seen) else None
+    return out
 
 
 def recall_distance(model: TaskModel, policy: np.ndarray | None = None) -> int | None:
     """The shortest recall distance over cue values (None: the cue never matters)."""
     values = [d for d in recall_distances(model, policy).values() if d is not None]
     return min(values) if values else None
+
+
+def layout_statistics(model: TaskModel) -> dict[str, Any]:
+    """Cells, dead ends, independent loops (passages − cells + 1 for a connected layout) and the
+    fewest steps from the start to each goal."""
+    layout = model.layout
+    open_moves = layout.neighbour >= 0
+    passages = int(open_moves.sum()) // 2
+    degree = open_moves.sum(axis=1)
+    dist = distances_from(np.where(open_moves, layout.neighbour, np.arange(layout.num_cells)[:, None]),
+                          layout.start)
+    goals = layout.sites.get("goal", np.array([], dtype=np.int64))
+    return {"cells": layout.num_cells, "dead_ends": int((degree == 1).sum()),
+            "loops": passages - layout.num_cells + 1,
+            "start_to_goal": [int(dist[g]) for g in goals]}
 
 
 @dataclass
@@ -110,6 +130,7 @@ class VariantReport:
     baselines: dict[str, Baseline]
     checks: list[Check] = field(default_factory=list)
     witness: str = ""
+    layout: dict[str, Any] = field(default_factory=dict)
 
     @property
     def ok(self) -> bool:
@@ -134,21 +155,20 @@ class VariantReport:
             "shortest_solution": {str(k): v for k, v in self.shortest.items()},
             "step_limit_slack": self.slack,
             "recall_distance": {str(k): v for k, v in self.recall.items()},
-            "memory_gap": self.memory_gap,
+            "memory_gap": self.memory_gap, "layout": self.layout,
             "baselines": {k: b.to_dict() for k, b in self.baselines.items()},
             "checks": [{"name": c.name, "passed": c.passed, "reason": c.reason} for c in self.checks],
             "witness": self.witness,
         }
 
 
-def _cue_needed(recall: dict[int, int | None], model: TaskModel) -> Check:
+def _cue_needed(recall: dict[int, int | None], decided: dict[int, int | None]) -> Check:
     if all(d is None for d in recall.values()):
-        return Check("cue needed", False, "the optimal agent's path never depends on the cue")
+        return Check("cue needed", False, "the optimal agent's path never depends on a cue it has seen")
     for cue, d in sorted(recall.items()):
         if d is not None and d <= 0:
-            step = d + model.cue_visible_steps - 1
-            return Check("cue needed", False, f"cue {cue}: the optimal agent decides at step {step} while "
-                         f"the cue is still shown (recall distance {d}): no memory is needed")
+            return Check("cue needed", False, f"cue {cue}: the optimal agent decides at step {decided[cue]} "
+                         f"while the cue is still shown (recall distance {d}): no memory is needed")
     known = [d for d in recall.values() if d is not None]
     return Check("cue needed", True, f"recall distance {min(known)}–{max(known)} steps")
 
@@ -177,7 +197,7 @@ def analyse(model: TaskModel, observations: ObservationTables | None = None,
         baselines["cue_blind"] = Baseline(float("nan"), float("nan"), float("nan"), "unavailable",
                                           CUE_BLIND_CLASS, blind_error)
     recall = recall_distances(model, policy)
-    checks = [solvability(model), _cue_needed(recall, model)]
+    checks = [solvability(model), _cue_needed(recall, decision_steps(model, policy))]
 
     leak = static_leak(model, observations)
     checks.append(Check("no cue leak", leak is None,
@@ -207,5 +227,5 @@ def analyse(model: TaskModel, observations: ObservationTables | None = None,
     return VariantReport(
         variant_id=model.variant_id, params=dict(model.params), num_states=model.num_states,
         horizon=model.horizon, shortest=shortest_solutions(model), recall=recall,
-        baselines=baselines, checks=checks, witness=witness,
+        baselines=baselines, checks=checks, witness=witness, layout=layout_statistics(model),
     )

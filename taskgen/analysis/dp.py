@@ -51,13 +51,30 @@ def _backup(next_state: np.ndarray, terminal: np.ndarray, objective: Objective,
     return objective.reward + objective.discount * v_next[next_state]
 
 
+@dataclass(frozen=True)
+class SharedChoice:
+    """States that must take one action together: rows with ``unknown`` True act on the
+    ``weight``-averaged values of their ``group`` (say, cue twins the agent cannot yet tell apart)."""
+
+    group: np.ndarray     # int[S]
+    weight: np.ndarray    # float[S], summing to 1 within each group
+    unknown: np.ndarray   # bool[S]
+
+    def pool(self, q: np.ndarray) -> np.ndarray:
+        """Replace the rows of unknown states by their group's weighted mean."""
+        sums = np.zeros((int(self.group.max()) + 1, q.shape[1]))
+        np.add.at(sums, self.group, q * self.weight[:, None])
+        return np.where(self.unknown[:, None], sums[self.group], q)
+
+
 def optimise_tables(next_state: np.ndarray, terminal: np.ndarray, horizon: int,
-                    objective: Objective) -> tuple[np.ndarray, np.ndarray]:
+                    objective: Objective, shared: SharedChoice | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Backward induction on bare tables: values ``V[H+1, S]`` and policy ``int[H, S]``.
 
     Among actions whose value ties the best (within TIE_TOLERANCE) the policy takes the one that
     ends the episode soonest, then the lowest-numbered: an optimal agent that does not dawdle,
-    so the step at which it decides is well defined.
+    so the step at which it decides is well defined. With ``shared``, the unknown states of a
+    group choose one action by the group's pooled values (each state keeps its own value).
     """
     S = next_state.shape[0]
     values = np.zeros((horizon + 1, S))
@@ -68,8 +85,9 @@ def optimise_tables(next_state: np.ndarray, terminal: np.ndarray, horizon: int,
     for t in range(horizon - 1, -1, -1):
         q = _backup(next_state, terminal, objective, values[t + 1], last=t == horizon - 1)
         steps = live * (1.0 + lengths[t + 1][next_state])
-        near = q >= q.max(axis=1, keepdims=True) - TIE_TOLERANCE
-        policy[t] = np.argmin(np.where(near, steps, np.inf), axis=1)
+        choose_q, choose_steps = (q, steps) if shared is None else (shared.pool(q), shared.pool(steps))
+        near = choose_q >= choose_q.max(axis=1, keepdims=True) - TIE_TOLERANCE
+        policy[t] = np.argmin(np.where(near, choose_steps, np.inf), axis=1)
         values[t] = q[rows, policy[t]]
         lengths[t] = steps[rows, policy[t]]
     return values, policy
@@ -95,6 +113,31 @@ def evaluate(model: TaskModel, policy: np.ndarray, objective: Objective | None =
         q = _backup(model.next_state, model.terminal, objective, values[t + 1], last=t == H - 1)
         values[t] = (q * policy).sum(axis=1) if stochastic else q[np.arange(S), policy[t]]
     return values
+
+
+def return_variance(model: TaskModel, policy: np.ndarray) -> float:
+    """Exact variance of the return at reset under a policy, from the second moment by backward
+    recursion: E[G²] = E[r² + 2γ·r·V' + γ²·W'] (Sobel, "The variance of discounted Markov decision
+    processes", J. Appl. Prob. 1982)."""
+    objective = Objective.task_return(model)
+    H, S = model.horizon, model.num_states
+    stochastic = policy.dtype.kind == "f"
+    v, w = np.zeros(S), np.zeros(S)
+    ns, g = model.next_state, model.discount
+    for t in range(H - 1, -1, -1):
+        if t == H - 1:   # the last step also pays the timeout
+            r, v_next, w_next = _backup(ns, model.terminal, objective, v, last=True), 0.0, 0.0
+        else:
+            r, v_next, w_next = model.reward, v[ns], w[ns]
+        first = r + g * v_next
+        second = r ** 2 + 2 * g * r * v_next + g ** 2 * w_next
+        if stochastic:
+            v, w = (first * policy).sum(axis=1), (second * policy).sum(axis=1)
+        else:
+            rows = np.arange(S)
+            v, w = first[rows, policy[t]], second[rows, policy[t]]
+    mean = float(model.initial @ v)
+    return float(model.initial @ w) - mean ** 2
 
 
 def at_reset(model: TaskModel, values: np.ndarray) -> float:

@@ -44,8 +44,9 @@ def first_reached(model: TaskModel) -> np.ndarray:
 
 
 def static_leak(model: TaskModel, observations: ObservationTables | None) -> Leak | None:
-    """The earliest post-window pair of cue twins that an observation tells apart, if any."""
-    after = model.timer >= model.cue_visible_steps
+    """The earliest pair of cue twins, both outside the cue's display, that an observation tells
+    apart, if any."""
+    after = ~model.cue_shown()         # states outside the cue's display
     step = first_reached(model)
     found: Leak | None = None
     tables = observations or {"key": (np.arange(model.num_keys)[:, None], {"key": slice(0, 1)})}
@@ -140,5 +141,5 @@ def _cell_text(model: TaskModel, path: list[tuple[int, int, bool]], t: int) -> s
     if ended:
         outcome = "success" if model.success[s] else ("wrong arm" if model.terminal[s] else "time out")
         return f"{where} {outcome}"
-    shown = ", cue shown" if model.timer[s] < model.cue_visible_steps else ""
+    shown = ", cue shown" if model.cue_shown()[s] else ""
     return f"{where} {model.action_names[a]}{shown}"

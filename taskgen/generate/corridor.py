@@ -26,5 +26,5 @@ def corridor_layout(length: int, arm_length: int, num_arms: int, width: int = 1)
     cells = hall + spine + [cell for arm in arms for cell in arm]
     return grid_from_cells(
         (rows, cols), cells, start=(middle, 0),
-        sites={"junction": [(middle, length)], "arm_end": [arm[-1] for arm in arms]},
+        sites={"junction": [(middle, length)], "goal": [arm[-1] for arm in arms], "cue_site": [(middle, 0)]},
     )

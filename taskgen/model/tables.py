@@ -21,7 +21,10 @@ class TaskModel:
     terminating is truncated and its last step also pays ``timeout_reward``.
 
     What the agent can see in a state, before noise, is ``obs_key[s]``; key ``k`` shows the
-    agent at cell ``key_cell[k]`` and the cue value ``key_cue[k]`` (−1 while hidden).
+    agent at cell ``key_cell[k]`` and the cue value ``key_cue[k]`` (−1 while hidden);
+    ``cue_window`` marks the states in which the spec means the cue to be shown and
+    ``cue_known`` those reached after the agent has seen it (an agent with memory may use the
+    cue there and only there).
     ``hidden[s]`` is the cue value of the state and ``blind_state[s]`` numbers the state with
     the cue forgotten, so two states that differ only in the cue share it.
     """
@@ -41,6 +44,8 @@ class TaskModel:
     hidden_values: int          # number of cue values
     hidden_prior: np.ndarray    # float64[hidden_values]
     cue_visible_steps: int
+    cue_window: np.ndarray      # bool[S], states in which the spec shows the cue
+    cue_known: np.ndarray       # bool[S], states in which the agent has already seen the cue
     horizon: int
     discount: float
     timeout_reward: float
@@ -63,6 +68,11 @@ class TaskModel:
     def num_keys(self) -> int:
         """K, the number of distinct observation keys."""
         return int(self.key_cell.shape[0])
+
+    def cue_shown(self) -> np.ndarray:
+        """bool[S]: the spec shows the cue in this state (its display window or cue site).
+        Observation keys carry the cue exactly there; the leak check tests that they do."""
+        return self.cue_window
 
     def initial_states(self) -> np.ndarray:
         """States with positive probability at reset."""

@@ -16,9 +16,10 @@ def _tint(colour: tuple[int, int, int], amount: float) -> tuple[int, int, int]:
 class TopDownRenderer:
     """Draws a model's layout once and the agent and cue per frame.
 
-    The grid gets a one-cell wall border; a lamp strip above it shows the cue colour while
-    the cue is visible and stays wall-coloured after. Arm ends are tinted with the colour of
-    the cue value that rewards them, so a viewer can match cue and arm.
+    The grid gets a one-cell wall border and thin walls where a move is blocked; a lamp strip
+    above it shows the cue colour while the cue is visible and stays wall-coloured otherwise.
+    Goals (arm ends) are tinted with the colour of their cue value, so a viewer can match cue
+    and goal; a cue site is marked with a diamond outline.
     """
 
     def __init__(self, model: TaskModel, cell_px: int = 12) -> None:
@@ -30,11 +31,27 @@ class TopDownRenderer:
         width = (cols + 2) * cell_px
         image = Image.new("RGB", (width, height), WALL)
         draw = ImageDraw.Draw(image)
-        for cell, (r, c) in enumerate(model.layout.cells):
-            draw.rectangle(self._box(r, c), fill=FLOOR)
-        for value, cell in enumerate(model.layout.sites.get("arm_end", [])):
-            r, c = model.layout.cells[cell]
-            draw.rectangle(self._box(r, c), fill=_tint(CUE_COLOURS[value], 0.45))
+        wall = max(1, cell_px // 6)
+        layout = model.layout
+        for cell, (r, c) in enumerate(layout.cells):
+            left, top, right, bottom = self._box(r, c)
+            draw.rectangle((left, top, right, bottom), fill=FLOOR)
+            sides = ((left, top, right, top + wall - 1), (right - wall + 1, top, right, bottom),
+                     (left, bottom - wall + 1, right, bottom), (left, top, left + wall - 1, bottom))
+            for direction, box in enumerate(sides):   # thin walls where a move is blocked
+                if layout.neighbour[cell, direction] < 0:
+                    draw.rectangle(box, fill=WALL)
+        for value, cell in enumerate(layout.sites.get("goal", [])):
+            r, c = layout.cells[cell]
+            left, top, right, bottom = self._box(r, c)
+            draw.rectangle((left + wall, top + wall, right - wall, bottom - wall),
+                           fill=_tint(CUE_COLOURS[value], 0.45))
+        for cell in layout.sites.get("cue_site", []) if model.cue_visible_steps == 0 else []:
+            r, c = layout.cells[cell]
+            left, top, right, bottom = self._box(r, c)
+            mid_x, mid_y, half = (left + right) // 2, (top + bottom) // 2, max(2, cell_px // 4)
+            draw.polygon([(mid_x, mid_y - half), (mid_x + half, mid_y), (mid_x, mid_y + half),
+                          (mid_x - half, mid_y)], outline=AGENT)
         self.background = np.asarray(image, dtype=np.uint8)
 
     def _box(self, row: int, col: int) -> tuple[int, int, int, int]:

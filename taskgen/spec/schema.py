@@ -8,7 +8,8 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, model_validator
+from pydantic_core import PydanticCustomError
 
 from .params import IntParam, expected_error, int_param
 
@@ -44,11 +45,80 @@ class Corridor(Strict):
     )
 
 
-class Layout(Strict):
-    """Where the agent walks. Version 1 knows one layout family: the corridor."""
+MAX_MAZE_SIDE = 101
 
-    corridor: Corridor = Field(description="A cue-recall corridor with one arm per cue value.",
-                               examples=[{"length": 8, "arm_length": 2}])
+
+class Maze(Strict):
+    """A procedural maze of width × height cells with thin walls; one goal cell per cue value."""
+
+    width: int_param(1, MAX_MAZE_SIDE) = Field(  # type: ignore[valid-type]
+        description="Cells across; an integer, {range: [low, high]} or {choice: [...]}, drawn per variant.",
+        examples=[7, {"range": [5, 9]}])
+    height: int_param(1, MAX_MAZE_SIDE) = Field(  # type: ignore[valid-type]
+        description="Cells down; like width.", examples=[7])
+    generator: Literal["uniform", "backtracker", "rooms"] = Field(
+        default="uniform",
+        description="uniform: every perfect maze equally likely (Wilson's algorithm); backtracker: "
+        "long winding corridors (randomised depth-first search); rooms: open square rooms joined by doors.",
+        examples=["uniform"])
+    room_size: int = Field(default=3, ge=1, le=MAX_MAZE_SIDE,
+                           description="Side of each room for the rooms generator (width and height "
+                           "must be multiples of it).", examples=[3])
+    braid: float = Field(default=0.0, ge=0.0, le=1.0,
+                         description="Fraction of dead ends removed by opening a wall, creating loops.",
+                         examples=[0.0, 0.5])
+    start: Literal["random", "corner", "dead_end"] = Field(
+        default="random", description="Where the start cell is drawn.", examples=["corner"])
+    goals_in_dead_ends: bool = Field(default=False, description="Goal cells must be dead ends.",
+                                     examples=[True])
+    goals_hidden_from_start: bool = Field(
+        default=False, description="No goal may be in a straight unwalled line of sight from the start.",
+        examples=[True])
+    min_goal_distance: int = Field(default=1, ge=1, description="Fewest steps from the start to any goal.",
+                                   examples=[4])
+    min_goal_spacing: int = Field(default=1, ge=1, description="Fewest steps between two goals.",
+                                  examples=[3])
+    cue_site: Literal["random", "start"] = Field(
+        default="random", description="With cue display 'site': a random free cell, or the start cell "
+        "itself (a lookout the agent starts on and may come back to).", examples=["start"])
+    min_branch_distance: int = Field(
+        default=0, ge=0, description="The shortest paths from the start to every goal share at least "
+        "this many first steps, so the choice comes that far from the start (and the cue must be "
+        "held at least that long).", examples=[0, 4])
+
+
+class Layout(Strict):
+    """Where the agent walks: exactly one layout family."""
+
+    corridor: Corridor | None = Field(default=None, description="A cue-recall corridor with one arm per "
+                                      "cue value.", examples=[{"length": 8, "arm_length": 2}])
+    maze: Maze | None = Field(default=None, description="A procedural maze with one goal per cue value.",
+                              examples=[{"width": 7, "height": 7, "goals_in_dead_ends": True}])
+
+    @model_validator(mode="after")
+    def _one_family(self) -> "Layout":
+        given = [name for name in ("corridor", "maze") if getattr(self, name) is not None]
+        if len(given) != 1:
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": "exactly one of corridor, maze",
+                                       "found": " and ".join(given) if given else "neither"})
+        return self
+
+    @property
+    def family(self) -> str:
+        """The layout family's name."""
+        return "corridor" if self.corridor is not None else "maze"
+
+
+class Decision(Strict):
+    """Which goal the cue names, and what a wrong goal does."""
+
+    rule: Literal["match", "non_match"] = Field(
+        default="match", description="match: the goal (arm) of the cue's value pays; non_match: every "
+        "other goal pays and the cue's own does not.", examples=["match"])
+    wrong: Literal["end", "continue"] = Field(
+        default="end", description="end: entering a wrong goal ends the episode; continue: it pays "
+        "rewards.wrong and the episode goes on.", examples=["end"])
 
 
 class Cue(Strict):
@@ -61,19 +131,24 @@ class Cue(Strict):
     )
     visible_steps: int = Field(
         default=1, ge=1,
-        description="The cue is part of the first N observations of an episode (the reset one is the first).",
+        description="With display 'start': the cue is part of the first N observations of an episode "
+        "(the reset one is the first).",
         examples=[1, 3],
     )
+    display: Literal["start", "site"] = Field(
+        default="start", description="start: shown for the first visible_steps observations; site: "
+        "shown whenever the agent stands on the cue site (a drawn cell in a maze, the start cell in a "
+        "corridor).", examples=["start", "site"])
 
 
 class Rewards(Strict):
     """What each outcome pays. Rewards are added, so a step into the right arm end pays step + correct."""
 
-    correct: float = Field(default=1.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering the arm end the cue named.", examples=[1.0])
-    wrong: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering any other arm end (the episode ends).", examples=[-1.0])
+    correct: float = Field(default=1.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering a goal (arm end) that pays.", examples=[1.0])
+    wrong: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering a goal (arm end) that does not pay.", examples=[-1.0])
     step: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Paid on every step, the last one included.", examples=[-0.01])
     timeout: float = Field(
-        default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Added on the step that reaches the step limit without an arm end.",
+        default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Added on the step that reaches the step limit without ending.",
         examples=[-0.5],
     )
 
@@ -157,6 +232,8 @@ class Spec(Strict):
     layout: Layout = Field(description="The layout family and its parameters.",
                            examples=[{"corridor": {"length": 8}}])
     cue: Cue = Field(description="The cue to remember.", examples=[{"values": 2, "visible_steps": 1}])
+    decision: Decision = Field(default_factory=Decision, description="How the cue decides which goal pays.",
+                               examples=[{"rule": "non_match", "wrong": "end"}])
     rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.",
                              examples=[{"correct": 1.0, "wrong": -1.0, "step": -0.01}])
     episode: Episode = Field(default_factory=Episode, description="Step limit and discount.",

@@ -105,6 +105,9 @@ def format_text(run: CheckRun) -> str:
     for r in run.reports:
         params = " ".join(f"{k}={v}" for k, v in r.params.items())
         lines += ["", f"  {r.variant_id}  {params}  states={r.num_states}  slack={r.slack}"]
+        lay = r.layout
+        lines.append(f"    layout: {lay['cells']} cells, {lay['dead_ends']} dead ends, {lay['loops']} loops, "
+                     f"start to goals {', '.join(map(str, lay['start_to_goal']))} steps")
         for c in r.checks:
             lines.append(f"    {_status(c.passed)}  {c.name:<14} {c.reason}")
         if r.witness:
