@@ -116,6 +116,16 @@ def proposal_gains(model: TaskModel, classes: np.ndarray, policy: np.ndarray) ->
     return np.stack([np.bincount(classes, weights=advantage[:, a], minlength=O) for a in range(A)], axis=1)
 
 
+def _try(model: TaskModel, classes: np.ndarray, candidates: np.ndarray,
+         best: float) -> tuple[np.ndarray | None, float]:
+    """Evaluate candidate policies exactly; the best one if it beats ``best`` (else None)."""
+    values = evaluate_memoryless(model, classes, candidates)
+    j = int(np.argmax(values))
+    if values[j] > best + IMPROVEMENT:
+        return candidates[j], float(values[j])
+    return None, best
+
+
 def _best_proposed(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
                    active: np.ndarray, tries: int = 32, batch: int = 8) -> tuple[np.ndarray, float, int, bool]:
     """Try the changes with the largest first-order gains, exactly, in small batches; keep the
@@ -132,11 +142,10 @@ def _best_proposed(model: TaskModel, classes: np.ndarray, policy: np.ndarray, be
         o, a = np.divmod(order[first:first + batch], gains.shape[1])
         candidates = np.repeat(policy[None, :], o.size, axis=0)
         candidates[np.arange(o.size), o] = a
-        values = evaluate_memoryless(model, classes, candidates)
         evaluated += o.size
-        j = int(np.argmax(values))
-        if values[j] > best + IMPROVEMENT:
-            return candidates[j], float(values[j]), evaluated, True
+        better, value = _try(model, classes, candidates, best)
+        if better is not None:
+            return better, value, evaluated, True
     return policy, best, evaluated, False
 
 
@@ -150,11 +159,10 @@ def _best_single(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best
             break
         candidates = np.repeat(policy[None, :], A, axis=0)
         candidates[:, o] = np.arange(A)
-        values = evaluate_memoryless(model, classes, candidates)
         evaluated += A
-        a = int(np.argmax(values))
-        if values[a] > best + IMPROVEMENT:
-            policy, best, improved = candidates[a], float(values[a]), True
+        better, best = _try(model, classes, candidates, best)
+        if better is not None:
+            policy, improved = better, True
     return policy, best, evaluated, improved
 
 
@@ -171,11 +179,10 @@ def _best_pair(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: 
         rows = np.arange(candidates.shape[0])
         candidates[rows, o1] = np.tile(a1, others.size)
         candidates[rows, np.repeat(others, a1.size)] = np.tile(a2, others.size)
-        values = evaluate_memoryless(model, classes, candidates)
-        evaluated += values.size
-        j = int(np.argmax(values))
-        if values[j] > best + IMPROVEMENT:
-            return candidates[j], float(values[j]), evaluated, True
+        evaluated += candidates.shape[0]
+        better, value = _try(model, classes, candidates, best)
+        if better is not None:
+            return better, value, evaluated, True
     return policy, best, evaluated, False
 
 
