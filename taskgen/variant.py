@@ -79,7 +79,8 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     if horizon == "auto":   # a path in a maze visits each cell at most once
         horizon = int(np.ceil(spec.episode.max_steps_factor * cells))
     n = 0 if spec.cue.display == "site" else spec.cue.visible_steps
-    check_work(what, cells * (n + 1) * spec.cue.values, 4, max(horizon, 1))
+    m = spec.cue.sequence_length
+    check_work(what, cells * max(m * n + 1, 2) * (m + 2) * spec.cue.values ** m, 4, max(horizon, 1))
     check_bytes(f"{what}: the observation table",
                 cells * (spec.cue.values + 1) * (spec.cue.values + 4 + cells) * 4)
     h, w = params["height"], params["width"]
@@ -126,7 +127,8 @@ def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:
     horizon = spec.episode.max_steps
     if horizon == "auto":
         horizon = int(np.ceil(spec.episode.max_steps_factor * longest))
-    check_work(what, cells * (n + 1) * k, 4, max(horizon, 1))
+    m = spec.cue.sequence_length
+    check_work(what, cells * (m * n + 1) * (m + 2) * k ** m, 4, max(horizon, 1))
     vector = spec.observation.vector
     width = k + 4 + (cells if vector.position == "one_hot" else 2)
     check_bytes(f"{what}: the observation table", cells * (k + 1) * width * 4)

@@ -73,15 +73,13 @@ def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     spec = taskgen.load_spec(taskgen.bundled_specs()[spec_name])
     report = analyse(model, observation_tables(model, spec))
     memoryless = best_memoryless(model, observation_tables(model, spec)).state_policy(model.horizon)
-    tables = {"optimal": optimal_policy(model), "cue_blind": cue_blind_policy(model), "chance": memoryless,
-              "random": uniform_policy(model)}
-    policies = {
-        "optimal": lambda t, info, p=tables["optimal"]: p[t, info["analysis_only"]["state"]],
-        "cue_blind": lambda t, info, p=tables["cue_blind"]: p[t, info["analysis_only"]["state"]],
-        "chance": lambda t, info, p=memoryless: p[t, info["analysis_only"]["state"]],
-        "random": lambda t, info: int(rng.integers(model.num_actions)),
-    }
     exact = report.baselines
+    tables = {"optimal": optimal_policy(model), "chance": memoryless, "random": uniform_policy(model)}
+    if exact["cue_blind"].method != "unavailable":
+        tables["cue_blind"] = cue_blind_policy(model)
+    policies = {name: (lambda t, info, p=table: p[t, info["analysis_only"]["state"]])
+                for name, table in tables.items() if name != "random"}
+    policies["random"] = lambda t, info: int(rng.integers(model.num_actions))
     for name, choose in policies.items():
         returns, successes = _rollouts(env, choose, episodes=1500 if name == "random" else 600, seed=100)
         p = exact[name].success_rate

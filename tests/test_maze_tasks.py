@@ -105,3 +105,48 @@ def test_maze_env_passes_gymnasiums_checker():
     with warnings.catch_warnings():
         warnings.filterwarnings("ignore", message=".*render modes.*")
         check_env(env)
+
+
+def _corridor_sequence(k, m, **extra):
+    doc = {"format_version": 1, "name": "test-sequence", "layout": {"corridor": {"length": 4, "arm_length": 1}},
+           "cue": {"values": k, "sequence_length": m}, "rewards": {**SOUND, "correct": 0.5}, **extra}
+    spec = load_spec_text(yaml.safe_dump(doc))
+    model = compile_variant(make_variant(spec, 0))
+    return model, analyse(model, observation_tables(model, spec))
+
+
+@pytest.mark.parametrize("k, m", [(2, 2), (3, 2), (2, 3)])
+def test_sequence_chance_is_one_over_k_to_the_m(k, m):
+    """A cue sequence of m values from k, arms to visit in that order: a memoryless agent takes
+    the same arm at the junction every time, so it succeeds only on the one constant sequence it
+    follows, 1/k^m of them (counting; common practice); perfect memory always succeeds."""
+    model, report = _corridor_sequence(k, m)
+    assert model.hidden_values == k ** m
+    assert report.baselines["optimal"].success_rate == pytest.approx(1.0)
+    assert report.baselines["chance"].success_rate == pytest.approx(1 / k ** m)
+
+
+def test_sequence_elements_are_shown_in_turn():
+    """Element j of the sequence is the cue block's value in observations j·n … (j+1)·n − 1."""
+    env = taskgen.make(load_spec_text(yaml.safe_dump({
+        "format_version": 1, "name": "test-sequence", "layout": {"corridor": {"length": 8}},
+        "cue": {"values": 3, "sequence_length": 3, "visible_steps": 2}})))
+    for seed in range(5):
+        obs, info = env.reset(seed=seed)
+        h = info["analysis_only"]["cue"]
+        sequence = [(h // 3 ** j) % 3 for j in range(3)]
+        seen = [obs[env.observation_blocks["cue"]]]
+        for _ in range(7):
+            obs, *_ = env.step(1)
+            seen.append(obs[env.observation_blocks["cue"]])
+        for t, bits in enumerate(seen):
+            expected = np.eye(3)[sequence[t // 2]] if t < 6 else np.zeros(3)
+            assert np.array_equal(bits, expected), (seed, t)
+
+
+def test_sequences_need_the_match_rule():
+    """A non-match rule has no meaning for an ordered sequence: the spec is refused."""
+    with pytest.raises(taskgen.SpecError, match="expected decision.rule 'match' with a cue sequence"):
+        load_spec_text(yaml.safe_dump({"format_version": 1, "name": "x", "layout": {"corridor": {"length": 2}},
+                                       "cue": {"values": 2, "sequence_length": 2},
+                                       "decision": {"rule": "non_match"}}))

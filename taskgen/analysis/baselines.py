@@ -36,9 +36,9 @@ class Baseline:
     policy_class: str
     method_detail: str = ""
 
-    def to_dict(self) -> dict[str, float | str]:
-        """Plain-data form for JSON output."""
-        return asdict(self)
+    def to_dict(self) -> dict[str, float | str | None]:
+        """Plain-data form for JSON output (a figure that could not be computed is None)."""
+        return {k: (None if isinstance(v, float) and v != v else v) for k, v in asdict(self).items()}
 
 
 def policy_figures(model: TaskModel, policy: np.ndarray, policy_class: str, method: str = "exact",
@@ -54,14 +54,15 @@ def policy_figures(model: TaskModel, policy: np.ndarray, policy_class: str, meth
 
 def optimal_policy(model: TaskModel) -> np.ndarray:
     """The optimal deterministic policy ``int[H, S]`` of an agent with perfect memory: it uses
-    the cue from the moment it has seen it, and before that acts alike in cue twins (with the
-    prior-weighted values, since it has learned nothing of the cue yet)."""
+    what it has seen of the cue from the moment it is shown; until it has seen all of it, it acts
+    alike in the cue twins it cannot tell apart, on their prior-weighted values."""
     if model.cue_known.all():
         return optimise(model)[1]
-    blind = model.blind_state
+    _, group = np.unique(np.stack([model.blind_state, model.knowledge], axis=1), axis=0, return_inverse=True)
+    group = group.ravel()
     weight = model.hidden_prior[model.hidden]
-    mass = np.bincount(blind, weights=weight)
-    shared = SharedChoice(blind, weight / mass[blind], ~model.cue_known)
+    mass = np.bincount(group, weights=weight)
+    shared = SharedChoice(group, weight / mass[group], ~model.cue_known)
     return optimise_tables(model.next_state, model.terminal, model.horizon,
                            Objective.task_return(model), shared)[1]
 

@@ -33,18 +33,20 @@ class Check:
 
 
 def shortest_solutions(model: TaskModel) -> dict[int, int]:
-    """Fewest steps to the rewarded arm end for each cue value (−1: unreachable)."""
+    """Fewest steps to success (the paying goal, or the whole goal sequence) for each cue value
+    (−1: unreachable)."""
     starts = model.initial_states()
     steps = shortest_success_steps(model.next_state, model.success, starts)
     return {int(model.hidden[s]): int(d) for s, d in zip(starts, steps)}
 
 
 def solvability(model: TaskModel) -> Check:
-    """Every cue value's rewarded arm must be reachable within the step limit."""
+    """Every cue value must be solvable within the step limit."""
     shortest = shortest_solutions(model)
     for cue, steps in sorted(shortest.items()):
         if steps < 0:
-            return Check("solvable", False, f"{model.variant_id}: cue {cue}: the rewarded arm cannot be reached")
+            return Check("solvable", False, f"{model.variant_id}: cue {cue}: no way to succeed (a paying goal, "
+                         "or the goal sequence, cannot be reached)")
         if steps > model.horizon:
             return Check("solvable", False, f"{model.variant_id}: cue {cue}: shortest solution {steps} steps "
                          f"exceeds the step limit {model.horizon}")

@@ -23,67 +23,90 @@ def shortest_success_steps(next_state: np.ndarray, success: np.ndarray, starts: 
 
 
 def compile_variant(variant: Variant) -> TaskModel:
-    """Compile a variant into tables over states (cell, timer, cue), keeping the reachable ones.
+    """Compile a variant into tables over states (cell, timer, progress, cue), keeping the
+    reachable ones.
 
-    With display ``start`` the timer counts steps and saturates at the display window ``n``:
-    the cue is part of the observation while timer < n. With display ``site`` the cue is shown
+    The hidden variable is the cue: one value, or a sequence of m values (numbered h = Σ v_j·k^j).
+    With display ``start`` the timer counts steps and saturates at m·n: element j of the cue is
+    part of the observation while j·n ≤ timer < (j+1)·n. With display ``site`` the cue is shown
     whenever the agent stands on the cue site, and the timer is a flag: 1 once the agent has
-    stood there (so it knows the cue), 0 before. Walking into a wall
-    leaves the agent where it is. Goal ``g`` pays ``correct`` under cue ``v`` when the rule
-    says so (match: g = v; non-match: g ≠ v), else ``wrong``; a paying goal ends the episode,
-    a wrong one ends it unless ``decision.wrong`` is 'continue'.
+    stood there (so it knows the cue), 0 before. Walking into a wall leaves the agent where it is.
+
+    Progress p counts the goals visited in order (p = m: done, a success; p = m+1: failed).
+    Entering goal g at progress p pays ``correct`` when the rule says so (match: g is element p;
+    non-match, one element: g is not the cue's) and advances p, else pays ``wrong`` and fails
+    (or, with ``decision.wrong: continue``, leaves p as it is).
     """
     spec, layout = variant.spec, variant.layout
     k = variant.params["cue_values"]
+    m = spec.cue.sequence_length
     by_site = spec.cue.display == "site"
     n = 0 if by_site else variant.params["visible_steps"]
-    C, T, A = layout.num_cells, (2 if by_site else n + 1), len(MOVE_NAMES)
+    C, A = layout.num_cells, len(MOVE_NAMES)
+    T = 2 if by_site else m * n + 1
+    P, K = m + 2, k ** m
+    done, failed = m, m + 1
     site = layout.sites["cue_site"][0] if by_site else -1
     goals = layout.sites["goal"]
     rewards, decision = spec.rewards, spec.decision
+    digits = (np.arange(K)[:, None] // k ** np.arange(m)[None, :]) % k      # [K, m] sequence of each h
 
-    c, t, v = (a.ravel() for a in np.meshgrid(np.arange(C), np.arange(T), np.arange(k), indexing="ij"))
-    full = (c * T + t) * k + v
+    c, t, p, h = (a.ravel() for a in np.meshgrid(np.arange(C), np.arange(T), np.arange(P), np.arange(K),
+                                                 indexing="ij"))
+    index = lambda c_, t_, p_, h_: ((c_ * T + t_) * P + p_) * K + h_  # noqa: E731
+    full = index(c, t, p, h)
+    ends_here = p >= done
     goal_of = -np.ones(C, dtype=np.int64)
     goal_of[goals] = np.arange(goals.size)
 
-    def pays(cell_goal: np.ndarray, cue: np.ndarray) -> np.ndarray:
-        if decision.rule == "match":
-            return cell_goal == cue
-        return (cell_goal >= 0) & (cell_goal != cue)
-
-    pays_here = pays(goal_of[c], v)
-    ends_here = pays_here | ((goal_of[c] >= 0) & (decision.wrong == "end"))
-
     moved = layout.neighbour[c]                                   # [N, A]
     c2 = np.where(moved >= 0, moved, c[:, None])
-    t2 = (np.maximum(t[:, None], c2 == site) if by_site else np.minimum(t + 1, n)[:, None])
-    nxt = (c2 * T + t2) * k + v[:, None]
+    t2 = (np.maximum(t[:, None], c2 == site) if by_site else np.minimum(t + 1, T - 1)[:, None])
     g2 = goal_of[c2]
     entered = (g2 >= 0) & (c2 != c[:, None])       # stepping onto a goal, not staying on it
+    target = digits[h, np.minimum(p, m - 1)][:, None]
+    right = (g2 == target) if decision.rule == "match" else (g2 != target)
+    good, bad = entered & right, entered & ~right
+    p2 = np.where(good, p[:, None] + 1, np.where(bad & (decision.wrong == "end"), failed, p[:, None]))
+    nxt = index(c2, t2, p2, h[:, None])
     reward = np.full(nxt.shape, rewards.step, dtype=np.float64)
-    reward += np.where(entered & pays(g2, v[:, None]), rewards.correct,
-                       np.where(entered, rewards.wrong, 0.0))
+    reward += np.where(good, rewards.correct, np.where(bad, rewards.wrong, 0.0))
     nxt = np.where(ends_here[:, None], full[:, None], nxt)        # ends absorb, for free
     reward = np.where(ends_here[:, None], 0.0, reward)
 
     start_timer = int(by_site and layout.start == site)
-    start_states = (layout.start * T + start_timer) * k + np.arange(k)
+    start_states = index(layout.start, start_timer, 0, np.arange(K))
     keep = reachable(nxt, start_states)
     new_index = -np.ones(full.size, dtype=np.int64)
     new_index[keep] = np.arange(int(keep.sum()))
     next_state = new_index[nxt[keep]]
-    c, t, v = c[keep], t[keep], v[keep]
-    terminal = ends_here[keep]
-    success = pays_here[keep] & terminal
+    c, t, p, h = c[keep], t[keep], p[keep], h[keep]
+    terminal = p >= done
+    success = p == done
 
-    shown = (c == site) if by_site else (t < n)
-    known = (t == 1) if by_site else np.ones(c.size, dtype=bool)   # the agent has seen the cue
-    visible_cue = np.where(shown, v, -1)
+    if by_site:
+        shown = c == site
+        element = np.zeros_like(t)
+    else:
+        shown = t < m * n
+        element = np.minimum(t // max(n, 1), m - 1)
+    visible_cue = np.where(shown, digits[h, element], -1)
+    # what an agent with perfect memory knows of the cue: all of it after the site, the elements
+    # shown so far with display 'start' (a code equal for states it cannot tell apart)
+    if by_site:
+        known = t == 1
+        knowledge = np.where(known, h, -1)
+    else:
+        revealed = np.minimum(t // max(n, 1) + 1, m)
+        known = revealed == m
+        knowledge = h % k ** revealed
     keys, obs_key = np.unique(np.stack([c, visible_cue], axis=1), axis=0, return_inverse=True)
-    _, blind_state = np.unique(np.stack([c, t], axis=1), axis=0, return_inverse=True)
+    # cue twins share a blind state; every end state of a cell counts as one, so that the cue-blind
+    # analysis sees whether the cue changes where the agent goes, not how an episode ended
+    _, blind_state = np.unique(np.stack([c, t, np.where(terminal, done, p)], axis=1), axis=0,
+                               return_inverse=True)
 
-    prior = np.full(k, 1.0 / k)
+    prior = np.full(K, 1.0 / K)
     initial = np.zeros(next_state.shape[0])
     initial[new_index[start_states]] = prior
 
@@ -96,11 +119,11 @@ def compile_variant(variant: Variant) -> TaskModel:
 
     return TaskModel(
         next_state=next_state, reward=reward[keep], terminal=terminal, success=success,
-        initial=initial, hidden=v, blind_state=blind_state.ravel(), cell=c, timer=t,
+        initial=initial, hidden=h, blind_state=blind_state.ravel(), cell=c, timer=t,
         obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(), key_cue=keys[:, 1].copy(),
-        hidden_values=k, hidden_prior=prior, cue_visible_steps=n, cue_window=shown, cue_known=known,
-        horizon=int(horizon),
-        discount=spec.episode.discount, timeout_reward=rewards.timeout, layout=layout,
-        action_names=MOVE_NAMES, variant_id=variant.variant_id,
+        hidden_values=K, cue_values=k, hidden_prior=prior, cue_visible_steps=n, cue_window=shown, cue_known=known,
+        knowledge=knowledge,
+        horizon=int(horizon), discount=spec.episode.discount, timeout_reward=rewards.timeout,
+        layout=layout, action_names=MOVE_NAMES, variant_id=variant.variant_id,
         params={**variant.params, "max_steps": int(horizon)},
     )

@@ -41,11 +41,13 @@ class TaskModel:
     obs_key: np.ndarray         # int64[S]
     key_cell: np.ndarray        # int64[K]
     key_cue: np.ndarray         # int64[K]
-    hidden_values: int          # number of cue values
+    hidden_values: int          # number of hidden values (cue values, or k^m for a sequence of m)
+    cue_values: int             # values one displayed cue element can take (k)
     hidden_prior: np.ndarray    # float64[hidden_values]
     cue_visible_steps: int
     cue_window: np.ndarray      # bool[S], states in which the spec shows the cue
     cue_known: np.ndarray       # bool[S], states in which the agent has already seen the cue
+    knowledge: np.ndarray       # int[S], equal for cue twins a perfect-memory agent cannot tell apart
     horizon: int
     discount: float
     timeout_reward: float

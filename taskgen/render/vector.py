@@ -30,7 +30,7 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
     parts: list[tuple[str, np.ndarray]] = []
     K = model.num_keys
     if spec.cue:
-        cue = np.zeros((K, model.hidden_values), dtype=np.float32)
+        cue = np.zeros((K, model.cue_values), dtype=np.float32)
         shown = model.key_cue >= 0
         cue[np.flatnonzero(shown), model.key_cue[shown]] = 1.0
         parts.append(("cue", cue))

@@ -135,6 +135,11 @@ class Cue(Strict):
         "(the reset one is the first).",
         examples=[1, 3],
     )
+    sequence_length: int = Field(
+        default=1, ge=1, le=4,
+        description="How many cue values are shown in turn (each for visible_steps observations); "
+        "the goals must then be visited in that order (decision rule 'match' only).",
+        examples=[1, 3])
     display: Literal["start", "site"] = Field(
         default="start", description="start: shown for the first visible_steps observations; site: "
         "shown whenever the agent stands on the cue site (a drawn cell in a maze, the start cell in a "
@@ -218,6 +223,18 @@ class Observation(Strict):
 
 class Spec(Strict):
     """A memory-task spec: one YAML document."""
+
+    @model_validator(mode="after")
+    def _sequences_match(self) -> "Spec":
+        if self.cue.sequence_length > 1 and self.decision.rule != "match":
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": "decision.rule 'match' with a cue sequence",
+                                       "found": repr(self.decision.rule)})
+        if self.cue.sequence_length > 1 and self.cue.display != "start":
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": "cue.display 'start' with a cue sequence",
+                                       "found": repr(self.cue.display)})
+        return self
 
     format_version: Literal[1] = Field(
         description="Version of the spec language this file is written in.", examples=[1]

@@ -49,9 +49,12 @@ class CheckRun:
         for name in BASELINE_ORDER:
             figures = [r.baselines[name] for r in self.reports]
             methods = sorted({b.method for b in figures})
+            known = [b for b in figures if b.method != "unavailable"]
+            mean = (lambda key: sum(getattr(b, key) for b in known) / len(known)) if known \
+                else (lambda key: None)
             out[name] = {
-                "success_rate": sum(b.success_rate for b in figures) / len(figures),
-                "mean_return": sum(b.mean_return for b in figures) / len(figures),
+                "success_rate": mean("success_rate"),
+                "mean_return": mean("mean_return"),
                 "method": methods[0] if len(methods) == 1 else " + ".join(methods),
                 "policy_class": figures[0].policy_class,
             }
@@ -91,7 +94,10 @@ def _baseline_rows(baselines: dict[str, dict[str, Any]]) -> list[str]:
     rows = [f"    {'baseline':<10} {'success':>8} {'return':>9}  method"]
     for name in BASELINE_ORDER:
         b = baselines[name]
-        rows.append(f"    {name:<10} {b['success_rate']:>8.3f} {b['mean_return']:>9.4f}  {b['method']}")
+        if b["success_rate"] is None:
+            rows.append(f"    {name:<10} {'n/a':>8} {'n/a':>9}  {b['method']}")
+        else:
+            rows.append(f"    {name:<10} {b['success_rate']:>8.3f} {b['mean_return']:>9.4f}  {b['method']}")
     return rows
 
 
