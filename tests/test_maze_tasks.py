@@ -150,3 +150,15 @@ def test_sequences_need_the_match_rule():
         load_spec_text(yaml.safe_dump({"format_version": 1, "name": "x", "layout": {"corridor": {"length": 2}},
                                        "cue": {"values": 2, "sequence_length": 2},
                                        "decision": {"rule": "non_match"}}))
+
+
+def test_per_goal_rewards_pay_each_goal_its_own():
+    """With rewards.per_goal the optimal return is the prior-weighted mean of the goals' rewards
+    minus step costs (arithmetic on the corridor's known distances)."""
+    doc = {"format_version": 1, "name": "test-goals", "layout": {"corridor": {"length": 3, "arm_length": 1}},
+           "cue": {"values": 2}, "rewards": {"per_goal": [1.0, 3.0], "step": 0.0}}
+    model = compile_variant(make_variant(load_spec_text(yaml.safe_dump(doc)), 0))
+    _, report = model, analyse(model)
+    assert report.baselines["optimal"].mean_return == pytest.approx(2.0)
+    with pytest.raises(taskgen.SpecError, match=r"rewards.per_goal with one reward per cue value \(2\), got 3"):
+        load_spec_text(yaml.safe_dump({**doc, "rewards": {"per_goal": [1.0, 2.0, 3.0]}}))

@@ -70,7 +70,8 @@ def compile_variant(variant: Variant) -> TaskModel:
     p2 = np.where(good, p[:, None] + 1, np.where(bad & (decision.wrong == "end"), failed, p[:, None]))
     nxt = index(c2, t2, p2, h[:, None])
     reward = np.full(nxt.shape, rewards.step, dtype=np.float64)
-    reward += np.where(good, rewards.correct, np.where(bad, rewards.wrong, 0.0))
+    paid = np.full(goals.size, rewards.correct) if rewards.per_goal is None else np.asarray(rewards.per_goal)
+    reward += np.where(good, paid[np.maximum(g2, 0)], np.where(bad, rewards.wrong, 0.0))
     nxt = np.where(ends_here[:, None], full[:, None], nxt)        # ends absorb, for free
     reward = np.where(ends_here[:, None], 0.0, reward)
 

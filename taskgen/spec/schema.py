@@ -150,6 +150,9 @@ class Rewards(Strict):
     """What each outcome pays. Rewards are added, so a step into the right arm end pays step + correct."""
 
     correct: float = Field(default=1.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering a goal (arm end) that pays.", examples=[1.0])
+    per_goal: list[Annotated[float, Field(ge=-MAX_REWARD, le=MAX_REWARD)]] | None = Field(
+        default=None, description="Optional reward of each goal (arm) in goal order, one per cue value, "
+        "replacing 'correct' when that goal pays.", examples=[[1.0, 0.5]])
     wrong: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Entering a goal (arm end) that does not pay.", examples=[-1.0])
     step: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Paid on every step, the last one included.", examples=[-0.01])
     timeout: float = Field(
@@ -226,6 +229,11 @@ class Spec(Strict):
 
     @model_validator(mode="after")
     def _sequences_match(self) -> "Spec":
+        goals = self.rewards.per_goal
+        if goals is not None and len(goals) != self.cue.values:
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": f"rewards.per_goal with one reward per cue value ({self.cue.values})",
+                                       "found": f"{len(goals)}"})
         if self.cue.sequence_length > 1 and self.decision.rule != "match":
             raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
                                       {"expected": "decision.rule 'match' with a cue sequence",
