@@ -75,6 +75,44 @@ def bench(spec: str, num_envs: int, seconds: float, sync_envs: int | None, as_js
         write_text_atomic(out, text + "\n")
 
 
+@cli.command()
+@click.argument("spec", type=click.Path(dir_okay=False))
+@click.option("--out", "-o", required=True, type=click.Path(file_okay=False),
+              help="Folder for manifest.yaml.")
+@click.option("--split", "splits", multiple=True, metavar="NAME=COUNT",
+              help="A split and its size per sweep point (repeatable; default train=1000 test=200).")
+@click.option("--sweep", "sweeps", multiple=True, metavar="KEY=VALUES",
+              help="Sweep a spec field, e.g. layout.corridor.length=4,8,16 or =4:16:4 (repeatable).")
+@click.option("--zip", "zipped", is_flag=True, help="Pair sweep values in order instead of crossing them.")
+@click.option("--disjoint", is_flag=True, help="No layout fingerprint in two variants (or two splits).")
+@click.option("--holdout", metavar="KEY=VALUES",
+              help="Values of one drawn parameter kept for the held-out split only, e.g. "
+              "layout.corridor.length=13:16.")
+@click.option("--holdout-split", default="test", show_default=True, help="The split that gets --holdout values.")
+@click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
+              help="First variant seed; candidates take consecutive seeds.")
+@click.option("--workers", "-j", default=1, show_default=True, type=click.IntRange(min=1),
+              help="Processes for drawing and analysing (the manifest is the same for any number).")
+def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
+             disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int) -> None:
+    """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml."""
+    from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
+
+    request = SuiteRequest(
+        splits=parse_splits(splits) if splits else (("train", 1000), ("test", 200)),
+        sweeps=tuple(parse_assignment(item) for item in sweeps), zipped=zipped, disjoint_layouts=disjoint,
+        holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed)
+    manifest = build_suite(resolve_spec(spec), request, workers=workers)
+    path = write_manifest(manifest, out)
+    counts: dict[str, int] = {}
+    for v in manifest["variants"]:
+        counts[v["split"]] = counts.get(v["split"], 0) + 1
+    layouts = len({v["fingerprint"] for v in manifest["variants"]})
+    click.echo(f"wrote {path}: " + ", ".join(f"{n} {name}" for name, n in counts.items())
+               + f" variants, {layouts} distinct layouts"
+               + (f" (the family has {manifest['family_size']:,})" if manifest["family_size"] else ""))
+
+
 def _emit(text: str, out: str | None) -> None:
     if out is None:
         click.echo(text, nl=False)

@@ -84,13 +84,22 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     check_bytes(f"{what}: the observation table",
                 cells * (spec.cue.values + 1) * (spec.cue.values + 4 + cells) * 4)
     h, w = params["height"], params["width"]
+    fixed = [maze.start_cell] if maze.start_cell is not None else []
+    fixed += list(maze.goal_cells or [])
+    for r, c in fixed:
+        if not (0 <= r < h and 0 <= c < w):
+            raise LayoutError(f"{what}: cell [{r}, {c}] is outside the {w}×{h} maze")
+    if maze.goal_cells is not None and len(maze.goal_cells) != spec.cue.values:
+        raise LayoutError(f"{what}: goal_cells names {len(maze.goal_cells)} cells for {spec.cue.values} cue values")
     rules = PlacementRules(start=maze.start, goals=spec.cue.values,
                            goals_in_dead_ends=maze.goals_in_dead_ends,
                            goals_hidden_from_start=maze.goals_hidden_from_start,
                            min_start_distance=maze.min_goal_distance,
                            min_goal_spacing=maze.min_goal_spacing,
                            min_branch_distance=maze.min_branch_distance,
-                           cue_site=maze.cue_site if spec.cue.display == "site" else "")
+                           cue_site=maze.cue_site if spec.cue.display == "site" else "",
+                           start_cell=None if maze.start_cell is None else maze.start_cell[0] * w + maze.start_cell[1],
+                           goal_cells=None if maze.goal_cells is None else tuple(r * w + c for r, c in maze.goal_cells))
     for attempt in range(MAX_LAYOUT_ATTEMPTS):   # redraw the maze until the rules can be met
         layout_rng = variant_rng(seed, _LAYOUT_STREAM, attempt)
         try:

@@ -14,6 +14,7 @@ from ..render import vector_layout
 from ..spec import Spec, load_spec, load_spec_text
 from ..variant import make_variant
 from .single import TaskEnv
+from .split import ManifestError, SplitEnv, entry_model, is_manifest, load_manifest, manifest_variants, split_entries
 from .vector import TaskVectorEnv
 
 NAMESPACE = "taskgen"
@@ -48,30 +49,66 @@ def build_model(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = 
     return compile_variant(make_variant(spec, 0 if seed is None else seed))
 
 
+def _manifest_path(spec_or_path: Any) -> str | None:
+    if isinstance(spec_or_path, (str, os.PathLike)) and Path(spec_or_path).is_file() and is_manifest(spec_or_path):
+        return os.fspath(spec_or_path)
+    return None
+
+
 def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
-         render_mode: str | None = None, **overrides: Any) -> TaskEnv:
-    """A ``gymnasium.Env`` for one variant of a spec.
+         render_mode: str | None = None, split: str | None = None, index: int | None = None,
+         **overrides: Any) -> TaskEnv | SplitEnv:
+    """A ``gymnasium.Env`` for one variant of a spec, or from a variant manifest.
 
     ``seed`` names the variant (its sampled parameters and layout; None means variant 0);
     episodes are seeded as usual through ``reset(seed=...)``. Overrides replace spec fields,
     with ``__`` between keys: ``make("specs/x.yaml", layout__corridor__length=12)``.
+
+    With a manifest (``taskgen variants``): ``make(manifest, split="test", index=3)`` is that
+    listed variant (its fingerprint checked), and ``make(manifest, split="train")`` is a
+    ``SplitEnv`` that draws a variant of the split at every reset.
     """
+    manifest_path = _manifest_path(spec_or_path)
+    if manifest_path is not None:
+        if split is None:
+            raise ManifestError(f"{manifest_path}: a manifest needs split= (and index= for one variant)")
+        if seed is not None or overrides:
+            raise ManifestError("a manifest fixes seeds and parameters: give split= and index= only")
+        if index is None:
+            return SplitEnv(manifest_variants(manifest_path, split), render_mode=render_mode)
+        manifest = load_manifest(manifest_path)
+        entries = split_entries(manifest, split, manifest_path)
+        if not 0 <= index < len(entries):
+            raise ManifestError(f"{manifest_path}: split {split!r} has {len(entries)} variants, no index {index}")
+        spec, model = entry_model(manifest, entries[index], manifest_path)
+        return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
+    if split is not None or index is not None:
+        raise ManifestError("split= and index= need a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
     model = compile_variant(make_variant(spec, 0 if seed is None else seed))
     return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
 
 
 def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: int | None = None,
-             variants: Sequence[int] | None = None, render_mode: str | None = None,
+             variants: Sequence[int] | None = None, render_mode: str | None = None, split: str | None = None,
              **overrides: Any) -> TaskVectorEnv:
     """A ``gymnasium.vector.VectorEnv`` of ``num_envs`` environments stepped together in numpy.
 
     All environments hold the variant ``seed`` (None: variant 0), or environment i holds variant
     ``variants[i]`` (one batch across many layouts). Episodes are seeded through
     ``reset(seed=...)`` as in gymnasium's vector envs: an int gives env i the seed ``seed + i``.
+    With a manifest and ``split=``, every environment draws a variant of the split at each reset.
     """
     if not isinstance(num_envs, int) or num_envs < 1:
         raise ValueError(f"num_envs must be an integer ≥ 1, got {num_envs!r}")
+    manifest_path = _manifest_path(spec_or_path)
+    if manifest_path is not None:
+        if split is None or seed is not None or variants is not None or overrides:
+            raise ManifestError(f"{manifest_path}: with a manifest give split= only")
+        return TaskVectorEnv(manifest_variants(manifest_path, split), render_mode=render_mode,
+                             num_envs=num_envs, draw_variants=True)
+    if split is not None:
+        raise ManifestError("split= needs a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
     if variants is None:
         variants = [0 if seed is None else seed] * num_envs

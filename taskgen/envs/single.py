@@ -76,7 +76,11 @@ class TaskEnv(gym.Env):
             self._stream, self._episode = stream_from(self.np_random), 0
         else:
             self._episode += 1
-        self._key = episode_keys(np.array([self._stream]), np.array([self._episode]))
+        return self._start(episode_keys(np.array([self._stream]), np.array([self._episode])))
+
+    def _start(self, key: np.ndarray):
+        """Begin the episode whose key is ``key``: draw its cue and noise, return obs and info."""
+        self._key = key
         start = categorical(uniform(subkeys(self._key, "cue")), self._start_cumulative)[0]
         self._state = int(self._starts[start])
         self._step = 0

@@ -20,32 +20,8 @@ from gymnasium.vector.utils import batch_space
 
 from ..model import TaskModel
 from ..render import TopDownRenderer, VectorLayout
+from ..render.vector import common_blocks, padded_table
 from .streams import categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
-
-
-def _common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:
-    """One block layout wide enough for every variant (each block as wide as its widest)."""
-    names = list(layouts[0].blocks)
-    if any(list(v.blocks) != names for v in layouts):
-        raise ValueError("every variant of a batch must have the same observation blocks")
-    blocks, start = {}, 0
-    for name in names:
-        width = max(v.blocks[name].stop - v.blocks[name].start for v in layouts)
-        blocks[name] = slice(start, start + width)
-        start += width
-    return blocks
-
-
-def _padded_table(layout: VectorLayout, blocks: dict[str, slice]) -> np.ndarray:
-    """A variant's noise-free table laid out in the common blocks (zeros where it is narrower)."""
-    width = max((b.stop for n, b in blocks.items() if n != "noise"), default=0)
-    table = np.zeros((layout.table.shape[0], width), dtype=np.float32)
-    for name, target in blocks.items():
-        if name == "noise":
-            continue
-        source = layout.blocks[name]
-        table[:, target.start:target.start + source.stop - source.start] = layout.table[:, source]
-    return table
 
 
 class TaskVectorEnv(VectorEnv):
@@ -60,29 +36,34 @@ class TaskVectorEnv(VectorEnv):
 
     metadata = {"autoreset_mode": AutoresetMode.NEXT_STEP, "render_modes": ["rgb_array"], "render_fps": 6}
 
-    def __init__(self, variants: Sequence[tuple[TaskModel, VectorLayout]], render_mode: str | None = None) -> None:
+    def __init__(self, variants: Sequence[tuple[TaskModel, VectorLayout]], render_mode: str | None = None,
+                 num_envs: int | None = None, draw_variants: bool = False) -> None:
+        """With ``draw_variants``, ``variants`` is a pool (a split) and each of ``num_envs``
+        environments draws its variant from it at every reset, as ``SplitEnv`` does."""
         if not variants:
             raise ValueError("a batch needs at least one environment")
         if render_mode is not None and render_mode not in self.metadata["render_modes"]:
             raise ValueError(f"render_mode must be one of {self.metadata['render_modes']} or None, "
                              f"got {render_mode!r}")
-        self.num_envs = len(variants)
+        self.num_envs = num_envs if draw_variants else len(variants)
         self.render_mode = render_mode
+        self._draw = draw_variants
         unique: dict[int, int] = {}
         models: list[TaskModel] = []
         layouts: list[VectorLayout] = []
         env_model = np.zeros(self.num_envs, dtype=np.int64)
         for i, (model, layout) in enumerate(variants):
-            if id(model) not in unique:
+            if id(model) not in unique or draw_variants:
                 unique[id(model)] = len(models)
                 models.append(model)
                 layouts.append(layout)
-            env_model[i] = unique[id(model)]
+            if not draw_variants:
+                env_model[i] = unique[id(model)]
         if len({m.num_actions for m in models}) != 1 or len({v.noise_bits for v in layouts}) != 1:
             raise ValueError("every variant of a batch must have the same actions and noise bits")
         self.models = models
         self.env_model = env_model
-        self.observation_blocks = _common_blocks(layouts)
+        self.observation_blocks = common_blocks(layouts)
         self._build_tables(models, layouts)
 
         size = max((b.stop for b in self.observation_blocks.values()), default=0)
@@ -115,15 +96,8 @@ class TaskVectorEnv(VectorEnv):
         self._terminal = np.concatenate([m.terminal for m in models])
         self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
         self._hidden = np.concatenate([m.hidden for m in models])
-        self._table = np.concatenate([_padded_table(v, self.observation_blocks) for v in layouts])
-        self._state_offset = state_off[self.env_model]
+        self._table = np.concatenate([padded_table(v, self.observation_blocks) for v in layouts])
         self._bits = layouts[0].noise_bits
-        self._flip = np.array([v.flip_probability for v in layouts])[self.env_model]
-        self._threshold = np.array([flip_threshold(v.flip_probability) for v in layouts],
-                                   dtype=np.uint64)[self.env_model]
-        self._horizon = np.array([m.horizon for m in models])[self.env_model]
-        self._timeout = np.array([m.timeout_reward for m in models])[self.env_model]
-        self._timeout_any = bool(self._timeout.any())
         width = max(m.initial_states().size for m in models)
         starts = np.zeros((len(models), width), dtype=np.int64)
         cumulative = np.ones((len(models), width))
@@ -132,10 +106,19 @@ class TaskVectorEnv(VectorEnv):
             starts[j, :] = s[-1] + o
             starts[j, :s.size] = s + o
             cumulative[j, :s.size] = np.cumsum(m.initial[s])
-        self._starts = starts[self.env_model]
-        self._cumulative = cumulative[self.env_model]
-        self._variant_ids = np.array([m.variant_id for m in models], dtype=object)[self.env_model]
-        self._variant_ids.flags.writeable = False
+        # per variant; _assign copies them into the per-environment rows
+        self._per_model = {
+            "_state_offset": state_off[:-1],
+            "_flip": np.array([v.flip_probability for v in layouts]),
+            "_threshold": np.array([flip_threshold(v.flip_probability) for v in layouts], dtype=np.uint64),
+            "_horizon": np.array([m.horizon for m in models]),
+            "_timeout": np.array([m.timeout_reward for m in models]),
+            "_starts": starts, "_cumulative": cumulative,
+            "_variant_ids": np.array([m.variant_id for m in models], dtype=object),
+        }
+        for name, table in self._per_model.items():
+            setattr(self, name, table[self.env_model].copy())
+        self._timeout_any = bool(self._per_model["_timeout"].any())
         self._every = np.ones(self.num_envs, dtype=bool)
         self._every.flags.writeable = False
 
@@ -146,6 +129,12 @@ class TaskVectorEnv(VectorEnv):
         if not rows.size:
             return
         keys = self._keys[rows]
+        if self._draw:    # a new variant from the pool, by the same stream a SplitEnv uses
+            count = len(self.models)
+            chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
+            self.env_model[rows] = chosen
+            for name, table in self._per_model.items():
+                getattr(self, name)[rows] = table[chosen]
         pick = categorical(uniform(subkeys(keys, "cue")), self._cumulative[rows])
         self._state[rows] = self._starts[rows, pick]
         self._step[rows] = 0
@@ -230,7 +219,7 @@ class TaskVectorEnv(VectorEnv):
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
         every = self._every   # every environment has every key: one shared, read-only mask
         return {
-            "variant_id": self._variant_ids, "_variant_id": every,
+            "variant_id": self._variant_ids.copy(), "_variant_id": every,
             "step": self._step.copy(), "_step": every,
             "analysis_only": {"cue": self._hidden[self._state], "_cue": every,
                               "state": self._state - self._state_offset, "_state": every},

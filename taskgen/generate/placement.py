@@ -51,6 +51,8 @@ class PlacementRules:
     min_goal_spacing: int = 1        # between any two goals
     min_branch_distance: int = 0     # the shortest paths to all goals share this many first steps
     cue_site: str = ""               # "" (none), "random" or "start"
+    start_cell: int | None = None    # fixed cells (flat indices), instead of drawing them
+    goal_cells: tuple[int, ...] | None = None
 
 
 def _parents(neighbour: np.ndarray, dist: np.ndarray) -> np.ndarray:
@@ -101,6 +103,8 @@ def place(rng: np.random.Generator, neighbour: np.ndarray, shape: tuple[int, int
         candidates = np.flatnonzero(degree == 1)
     else:
         candidates = np.arange(C)
+    if rules.start_cell is not None:
+        candidates = np.array([rules.start_cell])
     if candidates.size == 0:
         raise PlacementError(f"no cell can be the start ({rules.start})")
     start = int(candidates[int(rng.integers(candidates.size))])
@@ -114,7 +118,11 @@ def place(rng: np.random.Generator, neighbour: np.ndarray, shape: tuple[int, int
         ok &= ~visible_from(neighbour, start)
         why.append("not visible from the start")
     goals: list[int] = []
-    if rules.min_branch_distance > 0:
+    if rules.goal_cells is not None:
+        goals = list(rules.goal_cells)
+        if len(set(goals)) != len(goals) or start in goals:
+            raise PlacementError("fixed goal cells must differ from each other and from the start")
+    elif rules.min_branch_distance > 0:
         why.append(f"beyond one branch cell at least {rules.min_branch_distance} steps from the start")
         parent = _parents(neighbour, dist)
         for branch in rng.permutation(np.flatnonzero(dist >= rules.min_branch_distance)).tolist():

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 
@@ -52,3 +53,37 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
         blocks["noise"] = slice(start, start + noise.bits)
     return VectorLayout(blocks=blocks, table=table, noise_bits=noise.bits if noise else 0,
                         flip_probability=noise.flip_probability if noise else 0.0)
+
+
+def common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:
+    """One block layout wide enough for every variant (each block as wide as its widest)."""
+    names = list(layouts[0].blocks)
+    if any(list(v.blocks) != names for v in layouts):
+        raise ValueError("every variant of a batch must have the same observation blocks")
+    blocks, start = {}, 0
+    for name in names:
+        width = max(v.blocks[name].stop - v.blocks[name].start for v in layouts)
+        blocks[name] = slice(start, start + width)
+        start += width
+    return blocks
+
+
+def padded_table(layout: VectorLayout, blocks: dict[str, slice]) -> np.ndarray:
+    """A variant's noise-free table laid out in the common blocks (zeros where it is narrower)."""
+    width = max((b.stop for n, b in blocks.items() if n != "noise"), default=0)
+    table = np.zeros((layout.table.shape[0], width), dtype=np.float32)
+    for name, target in blocks.items():
+        if name == "noise":
+            continue
+        source = layout.blocks[name]
+        table[:, target.start:target.start + source.stop - source.start] = layout.table[:, source]
+    return table
+
+
+def scatter_index(layout: VectorLayout, blocks: dict[str, slice]) -> np.ndarray:
+    """int[size]: where each element of a variant's own vector goes in the common block layout."""
+    out = np.zeros(layout.size, dtype=np.int64)
+    for name, source in layout.blocks.items():
+        target = blocks[name]
+        out[source] = np.arange(target.start, target.start + source.stop - source.start)
+    return out

@@ -46,6 +46,7 @@ class Corridor(Strict):
 
 
 MAX_MAZE_SIDE = 101
+Cell = Annotated[list[Annotated[int, Field(ge=0, le=MAX_MAZE_SIDE)]], Field(min_length=2, max_length=2)]
 
 
 class Maze(Strict):
@@ -69,6 +70,12 @@ class Maze(Strict):
                          examples=[0.0, 0.5])
     start: Literal["random", "corner", "dead_end"] = Field(
         default="random", description="Where the start cell is drawn.", examples=["corner"])
+    start_cell: Cell | None = Field(
+        default=None, description="A fixed start cell [row, column] (0-based), instead of drawing one.",
+        examples=[[0, 0]])
+    goal_cells: list[Cell] | None = Field(
+        default=None, description="Fixed goal cells [[row, column], ...], one per cue value, in cue "
+        "order, instead of drawing them.", examples=[[[2, 2], [0, 2]]])
     goals_in_dead_ends: bool = Field(default=False, description="Goal cells must be dead ends.",
                                      examples=[True])
     goals_hidden_from_start: bool = Field(

@@ -1,0 +1,131 @@
+"""Environments from a variant manifest: one variant, or a new variant of a split at every reset."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import Any
+
+import gymnasium as gym
+import numpy as np
+import yaml
+from gymnasium import spaces
+
+from ..errors import TaskgenError
+from ..model import TaskModel, compile_variant
+from ..render import vector_layout
+from ..render.vector import VectorLayout, common_blocks, scatter_index
+from ..spec import Spec, load_spec_text
+from ..variant import make_variant
+from .single import TaskEnv
+from .streams import episode_keys, stream_from, subkeys, uniform
+
+MANIFEST_KEY = "taskgen_manifest"
+
+
+class ManifestError(TaskgenError, ValueError):
+    """A manifest that cannot be read, or whose variants no longer reproduce."""
+
+
+def is_manifest(path: str | os.PathLike[str]) -> bool:
+    """True for a file written by `taskgen variants` (its first line names the format)."""
+    try:
+        with open(path, encoding="utf-8") as handle:
+            return handle.readline().startswith(f"{MANIFEST_KEY}:")
+    except (OSError, UnicodeDecodeError):
+        return False
+
+
+def load_manifest(path: str | os.PathLike[str]) -> dict[str, Any]:
+    """Read a manifest (safe loader; the C loader when PyYAML has it, for large suites)."""
+    loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+    try:
+        data = yaml.load(Path(path).read_text(encoding="utf-8"), Loader=loader)
+    except (OSError, yaml.YAMLError) as exc:
+        raise ManifestError(f"{path}: not a readable manifest ({exc})") from None
+    if not isinstance(data, dict) or data.get(MANIFEST_KEY) != 1 or "variants" not in data:
+        raise ManifestError(f"{path}: expected a taskgen manifest of format 1")
+    return data
+
+
+def split_entries(manifest: dict[str, Any], split: str, source: str = "manifest") -> list[dict[str, Any]]:
+    """The variants of one split, in index order."""
+    entries = [v for v in manifest["variants"] if v["split"] == split]
+    if not entries:
+        names = sorted({v["split"] for v in manifest["variants"]})
+        raise ManifestError(f"{source}: no split {split!r} (splits: {', '.join(names)})")
+    return entries
+
+
+def entry_model(manifest: dict[str, Any], entry: dict[str, Any], source: str = "manifest") -> tuple[Spec, TaskModel]:
+    """Rebuild one listed variant and check that it still has its recorded fingerprint."""
+    from ..analysis.fingerprint import fingerprint
+
+    overrides = {key.replace(".", "__"): value for key, value in (entry.get("overrides") or {}).items()}
+    spec = load_spec_text(yaml.safe_dump(manifest["spec"]), f"{source} (embedded spec)", **overrides)
+    model = compile_variant(make_variant(spec, int(entry["seed"])))
+    if fingerprint(model) != entry["fingerprint"]:
+        raise ManifestError(f"{source}: variant {entry['id']} no longer reproduces its fingerprint (the manifest "
+                            f"was written by taskgen {manifest.get('taskgen_version')})")
+    return spec, model
+
+
+class SplitEnv(gym.Env):
+    """Draws one variant of a split at every reset (training across many layouts).
+
+    The draw uses the env's counter-based stream (purpose 'variant'), like the batched runtime,
+    so a batch over the same split equals a SyncVectorEnv of SplitEnvs. Observation blocks are
+    as wide as the widest variant's, zero-padded at their ends. ``info["variant_id"]`` names the
+    variant of the current episode.
+    """
+
+    metadata = {"render_modes": ["rgb_array"], "render_fps": 6}
+
+    def __init__(self, variants: list[tuple[TaskModel, VectorLayout]], render_mode: str | None = None) -> None:
+        self.envs = [TaskEnv(m, v, render_mode=render_mode) for m, v in variants]
+        self.render_mode = render_mode
+        self.observation_blocks = common_blocks([v for _, v in variants])
+        size = max((b.stop for b in self.observation_blocks.values()), default=0)
+        self._scatter = [scatter_index(v, self.observation_blocks) for _, v in variants]
+        self.observation_space = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        self.action_space = spaces.Discrete(self.envs[0].model.num_actions)
+        self._current = 0
+        self._stream: int | None = None
+        self._episode = 0
+
+    def _widen(self, obs: np.ndarray) -> np.ndarray:
+        wide = np.zeros(self.observation_space.shape, dtype=np.float32)
+        wide[self._scatter[self._current]] = obs
+        return wide
+
+    def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
+        """Draw a variant of the split, then start its episode from the same stream."""
+        super().reset(seed=seed)
+        if seed is not None or self._stream is None:
+            self._stream, self._episode = stream_from(self.np_random), 0
+        else:
+            self._episode += 1
+        key = episode_keys(np.array([self._stream]), np.array([self._episode]))
+        count = len(self.envs)
+        self._current = min(int(uniform(subkeys(key, "variant"))[0] * count), count - 1)
+        obs, info = self.envs[self._current]._start(key)
+        return self._widen(obs), info
+
+    def step(self, action: int):
+        """Step the current variant."""
+        obs, reward, terminated, truncated, info = self.envs[self._current].step(action)
+        return self._widen(obs), reward, terminated, truncated, info
+
+    def render(self) -> np.ndarray | None:
+        """The current variant's picture."""
+        return self.envs[self._current].render()
+
+
+def manifest_variants(path: str | os.PathLike[str], split: str) -> list[tuple[TaskModel, VectorLayout]]:
+    """Every variant of a split as (model, vector layout), fingerprints checked."""
+    manifest = load_manifest(path)
+    out = []
+    for entry in split_entries(manifest, split, str(path)):
+        spec, model = entry_model(manifest, entry, str(path))
+        out.append((model, vector_layout(model, spec.observation.vector)))
+    return out

@@ -1,0 +1,330 @@
+"""`taskgen variants`: reproducible suites of held-out variants, written as one manifest.
+
+A suite is a list of splits (name and size) over the points of a parameter sweep. Variants are
+drawn with consecutive seeds; a candidate is refused when it would break a held-out rule (a
+layout fingerprint already used, or a parameter value reserved for the held-out split). Drawing
+(compile and fingerprint) and the analyses run in a process pool; which candidates are taken is
+decided in seed order in this process, so the manifest is byte-identical for any worker count.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import itertools
+import json
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Iterable, Sequence
+
+import yaml
+from tqdm import tqdm
+
+from .. import __version__
+from ..analysis.fingerprint import fingerprint
+from ..envs import resolve_spec
+from ..errors import SpecError, TaskgenError
+from ..generate.maze import count_spanning_trees
+from ..model import compile_variant
+from ..spec import Spec
+from ..variant import make_variant
+from .check import check_variant
+from .output import write_text_atomic
+
+MANIFEST_FORMAT = 1
+CHUNK = 256              # candidates drawn per round, whatever the worker count
+MAX_REFUSALS = 20        # give up after this many refused candidates per requested variant (plus 1000)
+
+
+class SuiteError(TaskgenError, ValueError):
+    """A suite request that cannot be met (names what was asked and what exists)."""
+
+
+@dataclass(frozen=True)
+class SuiteRequest:
+    """What a suite should hold. Keys are dotted spec paths, such as ``layout.corridor.length``."""
+
+    splits: tuple[tuple[str, int], ...] = (("train", 1000), ("test", 200))
+    sweeps: tuple[tuple[str, tuple[Any, ...]], ...] = ()
+    zipped: bool = False
+    disjoint_layouts: bool = False
+    holdout: tuple[str, tuple[int, ...]] | None = None
+    holdout_split: str = "test"
+    seed: int = 0
+
+    def as_dict(self) -> dict[str, Any]:
+        """Plain data for the manifest."""
+        return {"splits": dict(self.splits), "sweeps": {k: list(v) for k, v in self.sweeps},
+                "sweep_mode": "zip" if self.zipped else "cross", "disjoint_layouts": self.disjoint_layouts,
+                "holdout": None if self.holdout is None else {"parameter": self.holdout[0],
+                                                              "values": list(self.holdout[1]),
+                                                              "split": self.holdout_split},
+                "seed": self.seed}
+
+
+def parse_values(text: str) -> tuple[Any, ...]:
+    """``a,b,c`` (numbers or words) or ``low:high[:step]`` (inclusive integers)."""
+    if ":" in text:
+        parts = text.split(":")
+        try:
+            numbers = [int(p) for p in parts]
+        except ValueError:
+            raise SuiteError(f"a range is low:high or low:high:step with integers, got {text!r}") from None
+        low, high = numbers[0], numbers[1]
+        step = numbers[2] if len(numbers) == 3 else 1
+        if len(numbers) not in (2, 3) or step <= 0:
+            raise SuiteError(f"a range is low:high or low:high:step with a step ≥ 1, got {text!r}")
+        values = tuple(range(low, high + 1, step))
+    else:
+        values = tuple(yaml.safe_load(v) for v in text.split(",") if v.strip() != "")
+    if not values:
+        raise SuiteError(f"empty set of values: {text!r}")
+    return values
+
+
+def _overrides(point: dict[str, Any]) -> dict[str, Any]:
+    return {key.replace(".", "__"): value for key, value in point.items()}
+
+
+def _apply(spec: Spec, point: dict[str, Any], what: str) -> Spec:
+    if not point:
+        return spec
+    try:
+        return resolve_spec(spec, **_overrides(point))
+    except SpecError as exc:
+        raise SuiteError(f"{what}: {exc}") from None
+
+
+def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
+    """The parameter assignments of the sweep, crossed or zipped (one empty point without sweeps)."""
+    if not request.sweeps:
+        return [{}]
+    keys = [k for k, _ in request.sweeps]
+    value_lists = [v for _, v in request.sweeps]
+    if request.zipped:
+        if len({len(v) for v in value_lists}) != 1:
+            raise SuiteError("zipped sweeps need equally many values: "
+                             + ", ".join(f"{k} has {len(v)}" for k, v in request.sweeps))
+        combos: Iterable[tuple[Any, ...]] = zip(*value_lists)
+    else:
+        combos = itertools.product(*value_lists)
+    return [dict(zip(keys, combo)) for combo in combos]
+
+
+def family_size(spec: Spec) -> int | None:
+    """How many distinct layouts the spec can produce, where that is countable (else None)."""
+    corridor, maze = spec.layout.corridor, spec.layout.maze
+    if corridor is not None:
+        return _count(corridor.length) * _count(corridor.arm_length)
+    if (maze.generator == "uniform" and maze.braid == 0 and maze.width.fixed and maze.height.fixed
+            and maze.start_cell is not None and maze.goal_cells is not None
+            and not (spec.cue.display == "site" and maze.cue_site == "random")):
+        return count_spanning_trees(maze.height.low, maze.width.low)
+    return None
+
+
+def _count(param: Any) -> int:
+    return len(set(param.choices)) if param.choices is not None else param.high - param.low + 1
+
+
+def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
+    """Compile one candidate: its fingerprint and parameter values (runs in a worker)."""
+    spec, seed = job
+    variant = make_variant(spec, seed)
+    model = compile_variant(variant)
+    return fingerprint(model), dict(model.params)
+
+
+def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
+    """The analyses of one accepted variant (runs in a worker)."""
+    spec, seed = job
+    report = check_variant(spec, seed)
+    out = {name: {k: v for k, v in report.baselines[name].to_dict().items() if k in
+                  ("success_rate", "mean_return", "method")} for name in ("optimal", "chance", "random")}
+    out["recall_distance"] = {int(k): v for k, v in report.recall.items()}
+    out["ok"] = report.ok
+    return out
+
+
+@dataclass
+class _Slot:
+    split: str
+    point: dict[str, Any]
+    overrides: dict[str, Any]
+    spec: Spec
+    wanted: int
+    taken: list[dict[str, Any]] = field(default_factory=list)
+
+
+def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
+                progress: bool | None = None) -> dict[str, Any]:
+    """Draw every split and return the manifest as plain data."""
+    names = [name for name, _ in request.splits]
+    if len(set(names)) != len(names) or any(count < 0 for _, count in request.splits):
+        raise SuiteError("splits need distinct names and sizes ≥ 0")
+    points = sweep_points(request)
+    slots: list[_Slot] = []
+    reserved: set[int] = set()
+    holdout_key = None
+    if request.holdout is not None:
+        holdout_key, values = request.holdout
+        if not values:
+            raise SuiteError(f"the held-out range of {holdout_key} is empty")
+        if request.holdout_split not in names:
+            raise SuiteError(f"the held-out split {request.holdout_split!r} is not one of the splits {names}")
+        reserved = set(values)
+    for name, count in request.splits:
+        for i, point in enumerate(points):
+            extra = dict(point)
+            if holdout_key is not None and name == request.holdout_split:
+                extra[holdout_key] = {"choice": sorted(reserved)}
+            slots.append(_Slot(name, point, extra, _apply(spec, extra, f"split {name}, sweep point {i}"), count))
+    if holdout_key is not None:
+        _check_holdout_leaves_values(spec, points, holdout_key, reserved)
+    if request.disjoint_layouts:
+        _check_family_size(spec, points, request)
+
+    seen: set[str] = set()
+    param_name = holdout_key.split(".")[-1] if holdout_key else None
+    next_seed = request.seed
+    total = sum(s.wanted for s in slots)
+    pool = ProcessPoolExecutor(max_workers=workers) if workers > 1 else None
+    run: Callable[..., Any] = (lambda fn, jobs: list(pool.map(fn, jobs, chunksize=8))) if pool else \
+        (lambda fn, jobs: [fn(j) for j in jobs])
+    try:
+        with tqdm(total=total, desc=f"drawing {spec.name}", unit="variant",
+                  disable=None if progress is None else not progress, leave=False) as bar:
+            for slot in slots:
+                refused = 0
+                while len(slot.taken) < slot.wanted:
+                    seeds = list(range(next_seed, next_seed + CHUNK))
+                    results = run(_draw, [(slot.spec, s) for s in seeds])
+                    for seed, (fp, params) in zip(seeds, results):
+                        next_seed = seed + 1
+                        if len(slot.taken) == slot.wanted:
+                            next_seed = seed
+                            break
+                        train_side = holdout_key is not None and slot.split != request.holdout_split
+                        if (train_side and params.get(param_name) in reserved) or \
+                                (request.disjoint_layouts and fp in seen):
+                            refused += 1
+                            continue
+                        seen.add(fp)
+                        slot.taken.append({"seed": seed, "fingerprint": fp, "params": params})
+                        bar.update(1)
+                    if refused > MAX_REFUSALS * slot.wanted + 1000:
+                        raise SuiteError(f"split {slot.split}: found only {len(slot.taken)} of {slot.wanted} "
+                                         f"variants after refusing {refused} candidates (layouts already "
+                                         "used or held-out values)")
+            accepted = [(slot, v) for slot in slots for v in slot.taken]
+            cache: dict[str, dict[str, Any]] = {}
+            unique = {}
+            for slot, v in accepted:
+                unique.setdefault(v["fingerprint"], (slot.spec, v["seed"]))
+            order = sorted(unique)
+            for fp, figures in zip(order, run(_figures, [unique[fp] for fp in order])):
+                cache[fp] = figures
+    finally:
+        if pool:
+            pool.shutdown()
+
+    variants = []
+    index_in_split: dict[str, int] = {}
+    for slot, v in accepted:
+        index = index_in_split.get(slot.split, 0)
+        index_in_split[slot.split] = index + 1
+        figures = cache[v["fingerprint"]]
+        variants.append({"id": f"{spec.name}-s{v['seed']}", "split": slot.split, "index": index,
+                         "seed": v["seed"], "overrides": slot.overrides, "params": v["params"],
+                         "fingerprint": v["fingerprint"], "optimal": figures["optimal"],
+                         "chance": figures["chance"], "random": figures["random"],
+                         "recall_distance": figures["recall_distance"], "checks_ok": figures["ok"]})
+    spec_data = spec.model_dump(mode="json")
+    return {
+        "taskgen_manifest": MANIFEST_FORMAT,
+        "taskgen_version": __version__,
+        "spec_sha256": spec_hash(spec),
+        "spec": spec_data,
+        "request": request.as_dict(),
+        "family_size": family_size(spec),
+        "variants": variants,
+    }
+
+
+def spec_hash(spec: Spec) -> str:
+    """sha256 of the validated spec (canonical JSON), so formatting and comments do not count."""
+    text = json.dumps(spec.model_dump(mode="json"), sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def _check_holdout_leaves_values(spec: Spec, points: list[dict[str, Any]], key: str, reserved: set[int]) -> None:
+    """The other splits must still have values to draw."""
+    for point in points:
+        target = _apply(spec, point, "sweep point")
+        param: Any = target
+        for part in key.split("."):
+            param = getattr(param, part, None)
+        if param is None or not hasattr(param, "low"):
+            if point.get(key) is not None:
+                continue
+            raise SuiteError(f"cannot hold out {key}: it is not a parameter drawn per variant")
+        values = set(param.choices) if param.choices is not None else set(range(param.low, param.high + 1))
+        if not values - reserved:
+            raise SuiteError(f"holding out {sorted(reserved)} of {key} leaves no values for the other splits "
+                             f"(the spec draws it from {sorted(values)})")
+
+
+def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteRequest) -> None:
+    """Refuse to ask for more unique layouts than the family has, where that is countable."""
+    wanted = sum(count for _, count in request.splits)
+    for point in points:
+        size = family_size(_apply(spec, point, "sweep point"))
+        if size is not None and wanted > size:
+            raise SuiteError(f"asked for {wanted} unique layouts, but this family has only {size:,} "
+                             f"({_family_words(spec)})")
+
+
+def _family_words(spec: Spec) -> str:
+    maze = spec.layout.maze
+    if maze is None:
+        return "one per combination of corridor length and arm length"
+    return (f"perfect mazes of {maze.width.low}×{maze.height.low} cells with fixed start and goals: the "
+            "spanning trees of the grid, by the matrix-tree theorem")
+
+
+class _PlainDumper(yaml.SafeDumper):
+    """Writes repeated values in full instead of as YAML anchors and aliases."""
+
+    def ignore_aliases(self, data: Any) -> bool:
+        return True
+
+
+def manifest_text(manifest: dict[str, Any]) -> str:
+    """The manifest as YAML, deterministic for equal content."""
+    return yaml.dump(manifest, Dumper=_PlainDumper, sort_keys=False, allow_unicode=True, width=100)
+
+
+def write_manifest(manifest: dict[str, Any], out_dir: str) -> str:
+    """Write DIR/manifest.yaml atomically; returns its path."""
+    path = Path(out_dir) / "manifest.yaml"
+    write_text_atomic(path, manifest_text(manifest))
+    return str(path)
+
+
+def parse_splits(items: Sequence[str]) -> tuple[tuple[str, int], ...]:
+    """``name=count`` items into split pairs."""
+    out = []
+    for item in items:
+        name, _, count = item.partition("=")
+        if not name or not count.isdigit():
+            raise SuiteError(f"a split is name=count, got {item!r}")
+        out.append((name, int(count)))
+    return tuple(out)
+
+
+def parse_assignment(item: str) -> tuple[str, tuple[Any, ...]]:
+    """``key=values`` (see parse_values) into a key and its values."""
+    key, _, values = item.partition("=")
+    if not key or not values:
+        raise SuiteError(f"expected key=values, got {item!r}")
+    return key, parse_values(values)

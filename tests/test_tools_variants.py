@@ -1,0 +1,180 @@
+"""Held-out suites: fingerprints, splits, sweeps, reproducible manifests and loading."""
+
+from __future__ import annotations
+
+import dataclasses
+import subprocess
+import sys
+
+import gymnasium as gym
+import networkx as nx
+import numpy as np
+import pytest
+import yaml
+
+import taskgen
+from taskgen import compile_variant, load_spec_text, make_variant
+from taskgen.analysis.fingerprint import fingerprint
+from taskgen.generate.maze import maze_layout
+from taskgen.tools.variants import SuiteError, SuiteRequest, build_suite, manifest_text, write_manifest
+from taskgen.variant import Variant
+
+LANTERN = str(taskgen.bundled_specs()["lantern-hall"])
+
+
+def _maze3_spec(**extra):
+    return load_spec_text(yaml.safe_dump({
+        "format_version": 1, "name": "maze-three",
+        "layout": {"maze": {"width": 3, "height": 3, "start_cell": [0, 0], "goal_cells": [[2, 2], [0, 2]],
+                            **extra}},
+        "cue": {"values": 2}, "rewards": {"correct": 1.0, "wrong": -1.0, "timeout": -1.0}}))
+
+
+def _permuted(model, rng):
+    """The same model with its states renumbered at random."""
+    perm = rng.permutation(model.num_states)          # new index of old state s is perm[s]
+    inverse = np.argsort(perm)
+    fields = {name: getattr(model, name)[inverse] for name in
+              ("reward", "terminal", "success", "initial", "hidden", "blind_state", "cell", "timer",
+               "obs_key", "cue_window", "cue_known", "knowledge")}
+    return dataclasses.replace(model, next_state=perm[model.next_state[inverse]], **fields)
+
+
+def test_fingerprint_ignores_state_numbering():
+    """Renumbering the states of a model leaves its fingerprint unchanged (the canonical
+    breadth-first labelling; common practice for graph hashing)."""
+    rng = np.random.default_rng(0)
+    for name in ("lantern-hall", "orchard-hives", "courier-rounds"):
+        model = taskgen.build_model(name, seed=2)
+        assert fingerprint(_permuted(model, rng)) == fingerprint(model)
+
+
+def test_fingerprint_ignores_generation_order():
+    """Variants drawn in any order get the fingerprints of their seeds."""
+    spec = taskgen.load_spec(taskgen.bundled_specs()["orchard-hives"])
+    forward = {s: fingerprint(compile_variant(make_variant(spec, s))) for s in [3, 5, 9]}
+    backward = {s: fingerprint(compile_variant(make_variant(spec, s))) for s in [9, 5, 3]}
+    assert forward == backward
+
+
+def test_every_3x3_maze_has_its_own_fingerprint():
+    """All 192 spanning trees of the 3×3 grid (networkx SpanningTreeIterator; OEIS A007341) make
+    192 different fingerprints: different layouts never collide."""
+    spec = _maze3_spec()
+    grid = nx.grid_2d_graph(3, 3)
+    prints = set()
+    for tree in nx.SpanningTreeIterator(grid):
+        passages = np.zeros((3, 3, 4), dtype=bool)
+        for (r1, c1), (r2, c2) in tree.edges():
+            for (ra, ca), (rb, cb) in (((r1, c1), (r2, c2)), ((r2, c2), (r1, c1))):
+                d = {(-1, 0): 0, (0, 1): 1, (1, 0): 2, (0, -1): 3}[(rb - ra, cb - ca)]
+                passages[ra, ca, d] = True
+        layout = maze_layout(passages, 0, [8, 2])
+        variant = Variant(spec=spec, seed=0, params={"cue_values": 2, "visible_steps": 1}, layout=layout)
+        prints.add(fingerprint(compile_variant(variant)))
+    assert len(prints) == 192
+
+
+def test_disjoint_splits_share_no_fingerprint():
+    """With --disjoint, no fingerprint appears in two variants, across or within splits."""
+    manifest = build_suite(_maze3_spec(), SuiteRequest(splits=(("train", 40), ("test", 20)), disjoint_layouts=True))
+    prints = [v["fingerprint"] for v in manifest["variants"]]
+    assert len(prints) == len(set(prints)) == 60
+    assert manifest["family_size"] == 192
+
+
+def test_more_unique_layouts_than_the_family_has_names_the_count():
+    """3×3 perfect mazes with fixed start and goals number 192 (OEIS A007341): asking for 193
+    unique layouts fails and says 192; asking for all 192 succeeds."""
+    with pytest.raises(SuiteError, match=r"asked for 193 unique layouts, but this family has only 192 "):
+        build_suite(_maze3_spec(), SuiteRequest(splits=(("train", 150), ("test", 43)), disjoint_layouts=True))
+    manifest = build_suite(_maze3_spec(), SuiteRequest(splits=(("all", 192),), disjoint_layouts=True))
+    assert len({v["fingerprint"] for v in manifest["variants"]}) == 192
+
+
+def test_holdout_range_never_reaches_train():
+    """Values held out for the test split never occur in train, and test uses only them."""
+    spec = taskgen.load_spec(LANTERN)
+    manifest = build_suite(spec, SuiteRequest(splits=(("train", 60), ("test", 20)),
+                                              holdout=("layout.corridor.length", (11, 12))))
+    train = {v["params"]["length"] for v in manifest["variants"] if v["split"] == "train"}
+    test = {v["params"]["length"] for v in manifest["variants"] if v["split"] == "test"}
+    assert train and not train & {11, 12} and test <= {11, 12}
+
+
+def test_sweeps_cross_or_zip():
+    """Crossed sweeps make every combination, zipped ones pair values in order."""
+    spec = taskgen.load_spec(LANTERN)
+    sweeps = (("layout.corridor.length", (4, 8)), ("layout.corridor.arm_length", (1, 3)))
+    crossed = build_suite(spec, SuiteRequest(splits=(("train", 2),), sweeps=sweeps))
+    zipped = build_suite(spec, SuiteRequest(splits=(("train", 2),), sweeps=sweeps, zipped=True))
+    pairs = lambda m: {(v["params"]["length"], v["params"]["arm_length"]) for v in m["variants"]}  # noqa: E731
+    assert pairs(crossed) == {(4, 1), (4, 3), (8, 1), (8, 3)} and len(crossed["variants"]) == 8
+    assert pairs(zipped) == {(4, 1), (8, 3)} and len(zipped["variants"]) == 4
+
+
+@pytest.mark.parametrize("request_, message", [
+    (SuiteRequest(sweeps=(("layout.corridor.lenght", (4,)),)), "did you mean 'length'"),
+    (SuiteRequest(holdout=("layout.corridor.length", ())), "held-out range of layout.corridor.length is empty"),
+    (SuiteRequest(holdout=("layout.corridor.length", tuple(range(6, 13)))), "leaves no values for the other splits"),
+    (SuiteRequest(sweeps=(("layout.corridor.length", (4, 8)), ("cue.values", (2,))), zipped=True),
+     "zipped sweeps need equally many values"),
+    (SuiteRequest(splits=(("a", 1), ("a", 2))), "distinct names"),
+])
+def test_bad_requests_say_what_is_wrong(request_, message):
+    """Unknown sweep keys, empty or all-consuming held-out ranges and unequal zips are refused."""
+    with pytest.raises(SuiteError, match=message):
+        build_suite(taskgen.load_spec(LANTERN), request_)
+
+
+def _cli(*args):
+    return subprocess.run([sys.executable, "-m", "taskgen.cli", *args], capture_output=True, text=True)
+
+
+def test_manifests_are_byte_identical_across_runs_and_workers(tmp_path):
+    """The same command twice, and with 1 and 2 workers, writes the same bytes."""
+    outs = []
+    for name, workers in (("a", "1"), ("b", "1"), ("c", "2")):
+        out = _cli("variants", LANTERN, "--out", str(tmp_path / name), "--split", "train=300", "--split",
+                   "test=40", "--holdout", "layout.corridor.length=12:12", "--workers", workers)
+        assert out.returncode == 0, out.stderr
+        outs.append((tmp_path / name / "manifest.yaml").read_bytes())
+    assert outs[0] == outs[1] == outs[2]
+
+
+def test_manifest_variants_reload_and_run(tmp_path):
+    """make(manifest, split, index) rebuilds the listed variant; split draws equal in batch."""
+    manifest = build_suite(taskgen.load_spec(taskgen.bundled_specs()["orchard-hives"]),
+                           SuiteRequest(splits=(("train", 4), ("test", 2)), disjoint_layouts=True))
+    path = write_manifest(manifest, str(tmp_path))
+    test1 = [v for v in manifest["variants"] if v["split"] == "test"][1]
+    env = taskgen.make(path, split="test", index=1)
+    assert env.model.variant_id == test1["id"] and fingerprint(env.model) == test1["fingerprint"]
+    vec = taskgen.make_vec(path, 3, split="train")
+    ref = gym.vector.SyncVectorEnv([lambda: taskgen.make(path, split="train")] * 3)
+    o1, _ = vec.reset(seed=1)
+    o2, _ = ref.reset(seed=1)
+    assert np.array_equal(o1, o2)
+    rng = np.random.default_rng(2)
+    seen = set()
+    for _ in range(400):
+        a = rng.integers(4, size=3)
+        r1, r2 = vec.step(a), ref.step(a)
+        for x, y in zip(r1[:4], r2[:4]):
+            assert np.array_equal(x, y)
+        assert list(r1[4]["variant_id"]) == list(r2[4]["variant_id"])
+        seen |= set(r1[4]["variant_id"])
+    assert seen == {v["id"] for v in manifest["variants"] if v["split"] == "train"}
+    with pytest.raises(taskgen.TaskgenError, match="no split 'valid'"):
+        taskgen.make(path, split="valid", index=0)
+
+
+def test_manifest_records_what_it_promises():
+    """Spec hash, version and, per variant, id, split, seed, parameters, fingerprint, figures
+    and recall distance are all present."""
+    manifest = build_suite(taskgen.load_spec(LANTERN), SuiteRequest(splits=(("train", 3),)))
+    assert manifest["taskgen_version"] == taskgen.__version__ and len(manifest["spec_sha256"]) == 64
+    for v in manifest["variants"]:
+        assert {"id", "split", "seed", "params", "fingerprint", "optimal", "chance", "random",
+                "recall_distance"} <= set(v)
+    assert manifest_text(manifest).startswith("taskgen_manifest: 1\n")
