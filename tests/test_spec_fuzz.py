@@ -14,7 +14,7 @@ from hypothesis import strategies as st
 
 import taskgen
 from taskgen.limits import ResourceLimitError
-from taskgen.render import vector_layout
+from taskgen.render import observation_set
 
 from strategies import documents, mutated_specs
 
@@ -42,7 +42,7 @@ def _outcome(text: str) -> str:
     except ResourceLimitError as exc:
         assert "raise it with" in str(exc)
         return "limit"
-    env = taskgen.TaskEnv(model, vector_layout(model, spec.observation.vector))
+    env = taskgen.TaskEnv(model, observation_set(model, spec.observation))
     obs, _ = env.reset(seed=0)
     assert env.observation_space.contains(obs)
     for a in range(8):

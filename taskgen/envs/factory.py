@@ -10,7 +10,7 @@ import gymnasium as gym
 import yaml
 
 from ..model import TaskModel, compile_variant
-from ..render import vector_layout
+from ..render import observation_set
 from ..spec import Spec, load_spec, load_spec_text
 from ..variant import make_variant
 from .single import TaskEnv
@@ -81,12 +81,12 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
         if not 0 <= index < len(entries):
             raise ManifestError(f"{manifest_path}: split {split!r} has {len(entries)} variants, no index {index}")
         spec, model = entry_model(manifest, entries[index], manifest_path)
-        return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
+        return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
     if split is not None or index is not None:
         raise ManifestError("split= and index= need a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
     model = compile_variant(make_variant(spec, 0 if seed is None else seed))
-    return TaskEnv(model, vector_layout(model, spec.observation.vector), render_mode=render_mode)
+    return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
 
 
 def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: int | None = None,
@@ -121,7 +121,7 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     for v in variants:
         if v not in built:
             model = compile_variant(make_variant(spec, v))
-            built[v] = (model, vector_layout(model, spec.observation.vector))
+            built[v] = (model, observation_set(model, spec.observation))
     return TaskVectorEnv([built[v] for v in variants], render_mode=render_mode)
 
 

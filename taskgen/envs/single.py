@@ -6,57 +6,76 @@ from typing import Any
 
 import gymnasium as gym
 import numpy as np
-from gymnasium import spaces
 
 from ..model import TaskModel
-from ..render import TopDownRenderer, VectorLayout
-from .streams import categorical, episode_keys, noise_track, stream_from, subkeys, uniform
+from ..render import TopDownRenderer
+from ..render.observations import ObservationSet, assemble
+from .streams import add_pixel_noise, categorical, episode_keys, noise_track, stream_from, subkeys, uniform
 
 
 class TaskEnv(gym.Env):
-    """A compiled task as a ``gymnasium.Env`` with a vector observation.
+    """A compiled task as a ``gymnasium.Env``.
 
     Actions are ``Discrete(4)``: north, east, south, west. Rewards, termination and
-    truncation come from the model's tables and step limit. ``info`` holds ``variant_id``,
-    ``step`` and, under ``analysis_only``, the hidden cue and the model state: these are for
-    analyses and baselines only; an agent that reads them is no longer tested on memory.
+    truncation come from the model's tables and step limit. The observation is the one
+    modality the spec asks for (a Box), or a Dict of several (``vector``, ``grid``, ``pixels``).
+    ``info`` holds ``variant_id``, ``step`` and, under ``analysis_only``, the hidden cue and
+    the model state: these are for analyses and baselines only; an agent that reads them is no
+    longer tested on memory.
     """
 
     metadata = {"render_modes": ["rgb_array"], "render_fps": 6}
 
-    def __init__(self, model: TaskModel, vector: VectorLayout, render_mode: str | None = None) -> None:
+    def __init__(self, model: TaskModel, observations: ObservationSet, render_mode: str | None = None) -> None:
         if render_mode is not None and render_mode not in self.metadata["render_modes"]:
             raise ValueError(f"render_mode must be one of {self.metadata['render_modes']} or None, "
                              f"got {render_mode!r}")
         self.model = model
-        self.vector = vector
+        self.observations = observations
+        self.vector = observations.vector
         self.render_mode = render_mode
-        self.observation_blocks = dict(vector.blocks)
-        self.observation_space = spaces.Box(0.0, 1.0, shape=(vector.size,), dtype=np.float32)
-        self.action_space = spaces.Discrete(model.num_actions)
+        self.observation_blocks = dict(self.vector.blocks) if self.vector is not None else {}
+        self.observation_space = observations.space()
+        self.action_space = gym.spaces.Discrete(model.num_actions)
         self._starts = model.initial_states()
         self._start_cumulative = np.cumsum(model.initial[self._starts])[None, :]
         self._renderer: TopDownRenderer | None = None
         self._state = int(self._starts[0])
         self._step = 0
-        self._noise = np.zeros((model.horizon + 1, vector.noise_bits), dtype=np.float32)
+        self._bits = self.vector.noise_bits if self.vector is not None else 0
+        self._noise = np.zeros((model.horizon + 1, self._bits), dtype=np.float32)
         # The step path reads plain Python lists: indexing them is far cheaper than numpy scalars.
         self._next = model.next_state.tolist()
         self._reward = model.reward.tolist()
         self._terminal = model.terminal.tolist()
         self._hidden = model.hidden.tolist()
-        self._rows = vector.table[model.obs_key]          # noise-free observation of every state
+        self._obs_key = model.obs_key.tolist()
+        self._rows = self.vector.table[model.obs_key] if self.vector is not None else None
         self._horizon = model.horizon
         self._timeout = model.timeout_reward
         self._num_actions = model.num_actions
         self._stream: int | None = None
         self._episode = 0
         self._key = np.zeros(1, dtype=np.uint64)
+        self._pixel_key = np.zeros(1, dtype=np.uint64)
 
-    def _observation(self) -> np.ndarray:
-        if not self.vector.noise_bits:
-            return self._rows[self._state].copy()
-        return np.concatenate((self._rows[self._state], self._noise[min(self._step, self._horizon)]))
+    def _observation(self) -> Any:
+        parts: dict[str, np.ndarray] = {}
+        if self._rows is not None:
+            if self._bits:
+                parts["vector"] = np.concatenate((self._rows[self._state], self._noise[min(self._step, self._horizon)]))
+            else:
+                parts["vector"] = self._rows[self._state].copy()
+        key = self._obs_key[self._state]
+        if self.observations.grid is not None:
+            parts["grid"] = self.observations.grid[key].copy()
+        if self.observations.pixels is not None:
+            frame = self.observations.pixels[key]
+            if self.observations.pixel_noise is not None:
+                kind, amplitude = self.observations.pixel_noise
+                frame = add_pixel_noise(frame[None], self._pixel_key, self._step, kind, amplitude)[0]
+            parts["pixels"] = frame.copy()
+        return assemble(self.observations, parts)
 
     def _info(self) -> dict[str, Any]:
         return {
@@ -66,7 +85,7 @@ class TaskEnv(gym.Env):
         }
 
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
-        """Start an episode: draw the cue and the noise bits, return the first observation.
+        """Start an episode: draw the cue and the noise, return the first observation.
 
         A seeded reset (or the first one) draws the env's stream number from ``np_random``;
         each later reset starts the stream's next episode (see streams.py).
@@ -84,13 +103,15 @@ class TaskEnv(gym.Env):
         start = categorical(uniform(subkeys(self._key, "cue")), self._start_cumulative)[0]
         self._state = int(self._starts[start])
         self._step = 0
-        if self.vector.noise_bits:  # the whole episode's noise at once: one numpy call per reset
-            self._noise = noise_track(self._key, self.vector.noise_bits, self.vector.flip_probability,
+        if self._bits:  # the whole episode's noise bits at once: one numpy call per reset
+            self._noise = noise_track(self._key, self._bits, self.vector.flip_probability,
                                       self.model.horizon)[0].astype(np.float32)
+        if self.observations.pixel_noise is not None:
+            self._pixel_key = subkeys(self._key, "pixel_noise")
         return self._observation(), self._info()
 
     def step(self, action: int):
-        """Move by the model's tables; flip noise bits; truncate at the step limit."""
+        """Move by the model's tables; truncate at the step limit."""
         if not (isinstance(action, (int, np.integer)) and 0 <= action < self._num_actions):
             raise ValueError(f"action must be an integer in [0, {self._num_actions}), got {action!r}")
         s = self._state

@@ -13,8 +13,9 @@ from gymnasium import spaces
 
 from ..errors import TaskgenError
 from ..model import TaskModel, compile_variant
-from ..render import vector_layout
-from ..render.vector import VectorLayout, common_blocks, scatter_index
+from ..render import observation_set
+from ..render.observations import ObservationSet, assemble
+from ..render.vector import common_blocks, scatter_index
 from ..spec import Spec, load_spec_text
 from ..variant import make_variant
 from .single import TaskEnv
@@ -81,22 +82,34 @@ class SplitEnv(gym.Env):
 
     metadata = {"render_modes": ["rgb_array"], "render_fps": 6}
 
-    def __init__(self, variants: list[tuple[TaskModel, VectorLayout]], render_mode: str | None = None) -> None:
-        self.envs = [TaskEnv(m, v, render_mode=render_mode) for m, v in variants]
+    def __init__(self, variants: list[tuple[TaskModel, ObservationSet]], render_mode: str | None = None) -> None:
+        self.envs = [TaskEnv(m, o, render_mode=render_mode) for m, o in variants]
         self.render_mode = render_mode
-        self.observation_blocks = common_blocks([v for _, v in variants])
-        size = max((b.stop for b in self.observation_blocks.values()), default=0)
-        self._scatter = [scatter_index(v, self.observation_blocks) for _, v in variants]
-        self.observation_space = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        self._observations = variants[0][1]
+        parts = self._observations.spaces()
+        self._scatter = None
+        if self._observations.vector is not None:
+            vectors = [o.vector for _, o in variants]
+            self.observation_blocks = common_blocks(vectors)
+            size = max((b.stop for b in self.observation_blocks.values()), default=0)
+            self._scatter = [scatter_index(v, self.observation_blocks) for v in vectors]
+            parts["vector"] = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        self.observation_space = next(iter(parts.values())) if len(parts) == 1 else spaces.Dict(parts)
         self.action_space = spaces.Discrete(self.envs[0].model.num_actions)
         self._current = 0
         self._stream: int | None = None
         self._episode = 0
 
-    def _widen(self, obs: np.ndarray) -> np.ndarray:
-        wide = np.zeros(self.observation_space.shape, dtype=np.float32)
-        wide[self._scatter[self._current]] = obs
-        return wide
+    def _widen(self, obs: Any) -> Any:
+        """The variant's vector laid out in the split's common blocks (other modalities as they are)."""
+        if self._scatter is None:
+            return obs
+        parts = {self._observations.names[0]: obs} if self._observations.single else dict(obs)
+        space = self.observation_space if self._observations.single else self.observation_space["vector"]
+        wide = np.zeros(space.shape, dtype=np.float32)
+        wide[self._scatter[self._current]] = parts["vector"]
+        parts["vector"] = wide
+        return assemble(self._observations, parts)
 
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
         """Draw a variant of the split, then start its episode from the same stream."""
@@ -121,11 +134,11 @@ class SplitEnv(gym.Env):
         return self.envs[self._current].render()
 
 
-def manifest_variants(path: str | os.PathLike[str], split: str) -> list[tuple[TaskModel, VectorLayout]]:
+def manifest_variants(path: str | os.PathLike[str], split: str) -> list[tuple[TaskModel, ObservationSet]]:
     """Every variant of a split as (model, vector layout), fingerprints checked."""
     manifest = load_manifest(path)
     out = []
     for entry in split_entries(manifest, split, str(path)):
         spec, model = entry_model(manifest, entry, str(path))
-        out.append((model, vector_layout(model, spec.observation.vector)))
+        out.append((model, observation_set(model, spec.observation)))
     return out

@@ -15,7 +15,7 @@ _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _STEP = np.uint64(0xD1B54A32D192ED03)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
-_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4}
+_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5}
 _TO_UNIT = 1.0 / (1 << 53)
 
 
@@ -95,3 +95,22 @@ def noise_track(keys: np.ndarray, bits: int, flip_probability: float, horizon: i
     track[:, 0] = noise_init(keys, bits)
     track[:, 1:] = track[:, :1] ^ np.logical_xor.accumulate(flipped, axis=1)
     return track
+
+
+def add_pixel_noise(frames: np.ndarray, noise_keys: np.ndarray, step: np.ndarray | int, kind: str,
+                    amplitude: float) -> np.ndarray:
+    """Frames [N, H, W, 3] with this step's pixel noise (a fresh draw per key and step).
+
+    gaussian: each channel gets N(0, (amplitude·255)²) by the Box–Muller transform of two
+    uniforms, then is rounded and clipped to 0…255; salt_pepper: each pixel turns black (draw
+    below amplitude/2) or white (below amplitude), all channels together."""
+    n, h, w, c = frames.shape
+    if kind == "salt_pepper":
+        u = uniform(noise_keys, step, h * w).reshape(n, h, w)
+        out = frames.copy()
+        out[u < amplitude / 2] = 0
+        out[(u >= amplitude / 2) & (u < amplitude)] = 255
+        return out
+    u = uniform(noise_keys, step, 2 * h * w * c).reshape(n, 2, h, w, c)
+    normal = np.sqrt(-2.0 * np.log1p(-u[:, 0])) * np.cos(2.0 * np.pi * u[:, 1])
+    return np.clip(np.rint(frames + normal * (amplitude * 255.0)), 0, 255).astype(np.uint8)

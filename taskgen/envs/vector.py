@@ -19,9 +19,10 @@ from gymnasium.vector import AutoresetMode, VectorEnv
 from gymnasium.vector.utils import batch_space
 
 from ..model import TaskModel
-from ..render import TopDownRenderer, VectorLayout
+from ..render import TopDownRenderer
+from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
-from .streams import categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
+from .streams import add_pixel_noise, categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
 
 
 class TaskVectorEnv(VectorEnv):
@@ -36,7 +37,7 @@ class TaskVectorEnv(VectorEnv):
 
     metadata = {"autoreset_mode": AutoresetMode.NEXT_STEP, "render_modes": ["rgb_array"], "render_fps": 6}
 
-    def __init__(self, variants: Sequence[tuple[TaskModel, VectorLayout]], render_mode: str | None = None,
+    def __init__(self, variants: Sequence[tuple[TaskModel, ObservationSet]], render_mode: str | None = None,
                  num_envs: int | None = None, draw_variants: bool = False) -> None:
         """With ``draw_variants``, ``variants`` is a pool (a split) and each of ``num_envs``
         environments draws its variant from it at every reset, as ``SplitEnv`` does."""
@@ -50,7 +51,7 @@ class TaskVectorEnv(VectorEnv):
         self._draw = draw_variants
         unique: dict[int, int] = {}
         models: list[TaskModel] = []
-        layouts: list[VectorLayout] = []
+        layouts: list[ObservationSet] = []
         env_model = np.zeros(self.num_envs, dtype=np.int64)
         for i, (model, layout) in enumerate(variants):
             if id(model) not in unique or draw_variants:
@@ -59,15 +60,22 @@ class TaskVectorEnv(VectorEnv):
                 layouts.append(layout)
             if not draw_variants:
                 env_model[i] = unique[id(model)]
-        if len({m.num_actions for m in models}) != 1 or len({v.noise_bits for v in layouts}) != 1:
-            raise ValueError("every variant of a batch must have the same actions and noise bits")
+        vectors = [o.vector for o in layouts]
+        if len({m.num_actions for m in models}) != 1 or len({o.names for o in layouts}) != 1 or \
+                len({v.noise_bits if v is not None else 0 for v in vectors}) != 1:
+            raise ValueError("every variant of a batch must have the same actions, modalities and noise bits")
         self.models = models
         self.env_model = env_model
-        self.observation_blocks = common_blocks(layouts)
+        self._observations = layouts[0]
+        self._has_vector = vectors[0] is not None
+        self.observation_blocks = common_blocks(vectors) if self._has_vector else {}
         self._build_tables(models, layouts)
 
-        size = max((b.stop for b in self.observation_blocks.values()), default=0)
-        self.single_observation_space = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        parts = self._observations.spaces()
+        if self._has_vector:
+            size = max((b.stop for b in self.observation_blocks.values()), default=0)
+            parts["vector"] = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        self.single_observation_space = next(iter(parts.values())) if len(parts) == 1 else spaces.Dict(parts)
         self.single_action_space = spaces.Discrete(models[0].num_actions)
         self.observation_space = batch_space(self.single_observation_space, self.num_envs)
         self.action_space = batch_space(self.single_action_space, self.num_envs)
@@ -80,12 +88,13 @@ class TaskVectorEnv(VectorEnv):
         self._episodes = np.zeros(N, dtype=np.int64)
         self._keys = np.zeros(N, dtype=np.uint64)
         self._flip_keys = np.zeros(N, dtype=np.uint64)
+        self._pixel_keys = np.zeros(N, dtype=np.uint64)
         self._seeded = np.zeros(N, dtype=bool)
         self._autoreset = np.zeros(N, dtype=bool)
         self._generators: list[np.random.Generator | None] = [None] * N
         self._renderers: dict[int, TopDownRenderer] = {}
 
-    def _build_tables(self, models: list[TaskModel], layouts: list[VectorLayout]) -> None:
+    def _build_tables(self, models: list[TaskModel], layouts: list[ObservationSet]) -> None:
         """Stack the unique variants' tables into one global state space."""
         state_off = np.cumsum([0] + [m.num_states for m in models])
         key_off = np.cumsum([0] + [m.num_keys for m in models])
@@ -96,8 +105,14 @@ class TaskVectorEnv(VectorEnv):
         self._terminal = np.concatenate([m.terminal for m in models])
         self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
         self._hidden = np.concatenate([m.hidden for m in models])
-        self._table = np.concatenate([padded_table(v, self.observation_blocks) for v in layouts])
-        self._bits = layouts[0].noise_bits
+        vectors = [o.vector for o in layouts]
+        if self._has_vector:
+            self._table = np.concatenate([padded_table(v, self.observation_blocks) for v in vectors])
+        else:
+            self._table = np.zeros((int(key_off[-1]), 0), dtype=np.float32)
+        self._grid = np.concatenate([o.grid for o in layouts]) if layouts[0].grid is not None else None
+        self._pixels = np.concatenate([o.pixels for o in layouts]) if layouts[0].pixels is not None else None
+        self._bits = vectors[0].noise_bits if self._has_vector else 0
         width = max(m.initial_states().size for m in models)
         starts = np.zeros((len(models), width), dtype=np.int64)
         cumulative = np.ones((len(models), width))
@@ -109,8 +124,9 @@ class TaskVectorEnv(VectorEnv):
         # per variant; _assign copies them into the per-environment rows
         self._per_model = {
             "_state_offset": state_off[:-1],
-            "_flip": np.array([v.flip_probability for v in layouts]),
-            "_threshold": np.array([flip_threshold(v.flip_probability) for v in layouts], dtype=np.uint64),
+            "_flip": np.array([v.flip_probability if v is not None else 0.0 for v in vectors]),
+            "_threshold": np.array([flip_threshold(v.flip_probability) if v is not None else 0 for v in vectors],
+                                   dtype=np.uint64),
             "_horizon": np.array([m.horizon for m in models]),
             "_timeout": np.array([m.timeout_reward for m in models]),
             "_starts": starts, "_cumulative": cumulative,
@@ -141,6 +157,8 @@ class TaskVectorEnv(VectorEnv):
         if self._bits:
             self._noise[rows] = noise_init(keys, self._bits)
             self._flip_keys[rows] = subkeys(keys, "noise_flip")
+        if self._observations.pixel_noise is not None:
+            self._pixel_keys[rows] = subkeys(keys, "pixel_noise")
 
     def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
         """Reset every environment; ``seed`` is None, an int (env i gets seed + i) or a list."""
@@ -209,11 +227,22 @@ class TaskVectorEnv(VectorEnv):
         self._autoreset = terminated | truncated
         return self._observe(), reward, terminated, truncated, self._infos()
 
-    def _observe(self) -> np.ndarray:
-        rows = self._table[self._obs_key[self._state]]
-        if not self._bits:
-            return rows
-        return np.concatenate((rows, self._noise.view(np.uint8).astype(np.float32)), axis=1)
+    def _observe(self) -> Any:
+        keys = self._obs_key[self._state]
+        parts: dict[str, np.ndarray] = {}
+        if self._has_vector:
+            rows = self._table[keys]
+            parts["vector"] = rows if not self._bits else \
+                np.concatenate((rows, self._noise.view(np.uint8).astype(np.float32)), axis=1)
+        if self._grid is not None:
+            parts["grid"] = self._grid[keys]
+        if self._pixels is not None:
+            frames = self._pixels[keys]
+            if self._observations.pixel_noise is not None:
+                kind, amplitude = self._observations.pixel_noise
+                frames = add_pixel_noise(frames, self._pixel_keys, self._step, kind, amplitude)
+            parts["pixels"] = frames
+        return assemble(self._observations, parts)
 
     def _infos(self) -> dict[str, Any]:
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
@@ -245,5 +274,6 @@ class TaskVectorEnv(VectorEnv):
                    self._seeded, self._autoreset, self._starts, self._cumulative, self._threshold,
                    self._horizon, self._timeout, self._state_offset, self.env_model]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
+        shared += [t for t in (self._grid, self._pixels) if t is not None]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs,
                 "shared": sum(a.nbytes for a in shared)}

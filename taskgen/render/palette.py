@@ -1,5 +1,10 @@
-"""Colours of the top-down picture. Cue colours follow Okabe & Ito's colour-blind-safe palette
-("Color Universal Design", 2008), in that palette's order without black."""
+"""Colours of every picture taskgen draws, chosen so each cue colour reads against the floor.
+
+Cue colours are Okabe & Ito's colour-blind-safe palette ("Color Universal Design", 2008) in
+the palette's order, without black. Yellow, orange and sky blue fall below 3:1 on white, so
+the floor is near-black: every cue colour then has a contrast ratio of at least 3:1 with it
+(WCAG 2.1, success criterion 1.4.11), by the relative-luminance formula of WCAG 2.x.
+"""
 
 from __future__ import annotations
 
@@ -13,6 +18,21 @@ CUE_COLOURS: tuple[tuple[int, int, int], ...] = (
     (204, 121, 167),  # reddish purple
     (120, 120, 120),  # grey, for an eighth value
 )
-WALL = (40, 40, 48)
-FLOOR = (226, 226, 220)
-AGENT = (20, 20, 20)
+FLOOR = (20, 20, 28)
+WALL = (150, 150, 160)
+AGENT = (255, 255, 255)
+
+
+def relative_luminance(rgb: tuple[int, int, int]) -> float:
+    """WCAG 2.x relative luminance of an sRGB colour (0 black … 1 white)."""
+    def channel(c: int) -> float:
+        c = c / 255
+        return c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4
+    r, g, b = (channel(c) for c in rgb)
+    return 0.2126 * r + 0.7152 * g + 0.0722 * b
+
+
+def contrast_ratio(a: tuple[int, int, int], b: tuple[int, int, int]) -> float:
+    """WCAG 2.x contrast ratio (lighter + 0.05) / (darker + 0.05), from 1 to 21."""
+    la, lb = sorted((relative_luminance(a), relative_luminance(b)), reverse=True)
+    return (la + 0.05) / (lb + 0.05)

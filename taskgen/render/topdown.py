@@ -9,16 +9,12 @@ from ..model import TaskModel
 from .palette import AGENT, CUE_COLOURS, FLOOR, WALL
 
 
-def _tint(colour: tuple[int, int, int], amount: float) -> tuple[int, int, int]:
-    return tuple(int(round(c + (255 - c) * amount)) for c in colour)  # type: ignore[return-value]
-
-
 class TopDownRenderer:
     """Draws a model's layout once and the agent and cue per frame.
 
     The grid gets a one-cell wall border and thin walls where a move is blocked; a lamp strip
     above it shows the cue colour while the cue is visible and stays wall-coloured otherwise.
-    Goals (arm ends) are tinted with the colour of their cue value, so a viewer can match cue
+    Goals (arm ends) are filled with the colour of their cue value, so a viewer can match cue
     and goal; a cue site is marked with a diamond outline.
     """
 
@@ -44,8 +40,7 @@ class TopDownRenderer:
         for value, cell in enumerate(layout.sites.get("goal", [])):
             r, c = layout.cells[cell]
             left, top, right, bottom = self._box(r, c)
-            draw.rectangle((left + wall, top + wall, right - wall, bottom - wall),
-                           fill=_tint(CUE_COLOURS[value], 0.45))
+            draw.rectangle((left + wall, top + wall, right - wall, bottom - wall), fill=CUE_COLOURS[value])
         for cell in layout.sites.get("cue_site", []) if model.cue_visible_steps == 0 else []:
             r, c = layout.cells[cell]
             left, top, right, bottom = self._box(r, c)
@@ -71,3 +66,68 @@ class TopDownRenderer:
         inset = max(1, self.px // 5)
         draw.ellipse((left + inset, top + inset, right - inset, bottom - inset), fill=AGENT)
         return np.asarray(image, dtype=np.uint8)
+
+
+def _nearest(size: int, source: int) -> np.ndarray:
+    """Source indices of a nearest-neighbour resize from ``source`` to ``size`` pixels."""
+    return np.minimum((np.arange(size) * source) // size, source - 1)
+
+
+def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", window: int = 7) -> np.ndarray:
+    """uint8[K, height, width, 3]: the top-down picture the agent gets for every observation key.
+
+    The top tenth of the frame is the lamp strip (the cue colour while the cue is shown). Below
+    it, ``view='full'`` shows the whole map with the agent as a white square; ``view='window'``
+    shows ``window × window`` cells centred on the agent (outside the map is wall). Every key is
+    drawn at once with numpy gathers, so the runtime only indexes this table.
+    """
+    K = model.num_keys
+    lamp = max(1, height // 10)
+    body_h = height - lamp
+    frames = np.empty((K, height, width, 3), dtype=np.uint8)
+    renderer = TopDownRenderer(model, cell_px=8)
+    px = renderer.px
+    rows, cols = model.layout.shape
+    cells = model.layout.cells[model.key_cell]                       # [K, 2]
+    if view == "full":
+        # the map without the lamp strip: rows of cells plus the one-cell border
+        background = renderer.background[renderer.lamp_rows * px:]
+        src_h, src_w = background.shape[:2]
+        ri, ci = _nearest(body_h, src_h), _nearest(width, src_w)
+        body = background[ri][:, ci]
+        frames[:, lamp:] = body[None]
+        top = (cells[:, 0] + 1) * px
+        left = (cells[:, 1] + 1) * px
+        inset = max(1, px // 4)
+        in_rows = (ri[None, :] >= (top + inset)[:, None]) & (ri[None, :] < (top + px - inset)[:, None])
+        in_cols = (ci[None, :] >= (left + inset)[:, None]) & (ci[None, :] < (left + px - inset)[:, None])
+        # a marker at least one pixel wide even where a cell is smaller than a pixel
+        keys = np.arange(K)
+        in_rows[keys, np.argmin(np.abs(ri[None, :] - (top + px // 2)[:, None]), axis=1)] = True
+        in_cols[keys, np.argmin(np.abs(ci[None, :] - (left + px // 2)[:, None]), axis=1)] = True
+        marker = in_rows[:, :, None] & in_cols[:, None, :]
+        frames[:, lamp:][marker] = AGENT
+    else:
+        half = window // 2
+        pad = half + 1
+        full = renderer.background[renderer.lamp_rows * px:]
+        padded = np.empty((full.shape[0] + 2 * pad * px, full.shape[1] + 2 * pad * px, 3), dtype=np.uint8)
+        padded[:] = WALL
+        padded[pad * px:pad * px + full.shape[0], pad * px:pad * px + full.shape[1]] = full
+        span = window * px
+        ri, ci = _nearest(body_h, span), _nearest(width, span)
+        top = (cells[:, 0] + 1 + pad - half) * px
+        left = (cells[:, 1] + 1 + pad - half) * px
+        frames[:, lamp:] = padded[(top[:, None] + ri[None, :])[:, :, None], (left[:, None] + ci[None, :])[:, None, :]]
+        centre_r = (ri >= half * px + px // 4) & (ri < half * px + px - px // 4)
+        centre_c = (ci >= half * px + px // 4) & (ci < half * px + px - px // 4)
+        if not centre_r.any():
+            centre_r[np.argmin(np.abs(ri - (half * px + px // 2)))] = True
+        if not centre_c.any():
+            centre_c[np.argmin(np.abs(ci - (half * px + px // 2)))] = True
+        frames[:, lamp:][:, centre_r[:, None] & centre_c[None, :]] = AGENT
+    frames[:, :lamp] = WALL
+    shown = np.flatnonzero(model.key_cue >= 0)
+    colours = np.asarray(CUE_COLOURS, dtype=np.uint8)
+    frames[shown, :lamp] = colours[model.key_cue[shown]][:, None, None, :]
+    return frames

@@ -222,13 +222,65 @@ class VectorObservation(Strict):
                                 examples=[{"bits": 8, "flip_probability": 0.1}])
 
 
-class Observation(Strict):
-    """What the agent receives. Version 1 offers the vector observation."""
+def _odd(value: Any) -> Any:
+    if isinstance(value, int) and not isinstance(value, bool) and value % 2 == 0:
+        raise expected_error("an odd number (the agent sits in the middle)", value)
+    return value
 
-    vector: VectorObservation = Field(
-        default_factory=VectorObservation, description="The vector observation.",
+
+class GridObservation(Strict):
+    """A north-up window of cells centred on the agent: uint8 channels open, wall north / east /
+    south / west, goal (cue value + 1), cue (shown value + 1, at the agent), agent."""
+
+    size: Annotated[int, BeforeValidator(_odd)] = Field(
+        default=5, ge=1, le=31, description="Cells across the (square, odd-sided) window.", examples=[5])
+
+
+class PixelNoise(Strict):
+    """Noise added to every pixel frame, drawn afresh each step."""
+
+    kind: Literal["gaussian", "salt_pepper"] = Field(
+        description="gaussian: add N(0, (amplitude·255)²) per channel, clipped; salt_pepper: each pixel "
+        "turns black or white with probability amplitude.", examples=["gaussian"])
+    amplitude: float = Field(ge=0.0, le=1.0, description="Noise strength (see kind).", examples=[0.05])
+
+
+class PixelObservation(Strict):
+    """A top-down RGB picture (uint8): a lamp strip showing the cue colour while the cue is shown,
+    above the map (full) or a window of cells centred on the agent."""
+
+    height: int = Field(default=64, ge=8, le=512, description="Frame height in pixels.", examples=[64])
+    width: int = Field(default=64, ge=8, le=512, description="Frame width in pixels.", examples=[64])
+    view: Literal["full", "window"] = Field(default="full", description="The whole map, or a window "
+                                            "around the agent.", examples=["full", "window"])
+    window: Annotated[int, BeforeValidator(_odd)] = Field(
+        default=7, ge=1, le=31, description="Cells across the window view (odd).", examples=[7])
+    noise: PixelNoise | None = Field(default=None, description="Pixel noise, or null for none.",
+                                     examples=[{"kind": "salt_pepper", "amplitude": 0.02}])
+
+
+class Observation(Strict):
+    """What the agent receives: one modality (then a Box) or several (then a Dict keyed by name)."""
+
+    vector: VectorObservation | None = Field(
+        default_factory=VectorObservation, description="The vector observation (null to leave it out).",
         examples=[{"cue": True, "position": "one_hot", "walls": True}],
     )
+    grid: GridObservation | None = Field(default=None, description="A local grid view, or null.",
+                                         examples=[{"size": 5}])
+    pixels: PixelObservation | None = Field(default=None, description="Top-down pixels, or null.",
+                                            examples=[{"height": 64, "width": 64, "view": "full"}])
+
+    @model_validator(mode="after")
+    def _something(self) -> "Observation":
+        if self.vector is None and self.grid is None and self.pixels is None:
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": "at least one of vector, grid, pixels", "found": "none"})
+        return self
+
+    def modalities(self) -> list[str]:
+        """Names of the requested modalities, in a fixed order."""
+        return [name for name in ("vector", "grid", "pixels") if getattr(self, name) is not None]
 
 
 class Spec(Strict):

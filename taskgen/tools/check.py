@@ -10,7 +10,7 @@ from tqdm import tqdm
 
 from ..analysis import VariantReport, analyse
 from ..model import TaskModel, compile_variant
-from ..render import vector_layout
+from ..render import observation_set
 from ..spec import Spec
 from ..variant import make_variant
 
@@ -19,8 +19,7 @@ BASELINE_ORDER = ("optimal", "chance", "cue_blind", "random")
 
 def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
     """Every modality the spec gives the agent, rendered noise-free for each observation key."""
-    vector = vector_layout(model, spec.observation.vector)
-    return {"vector": (vector.table, vector.blocks)}
+    return observation_set(model, spec.observation).tables()
 
 
 def check_variant(spec: Spec, seed: int, min_gap: float = 0.0) -> VariantReport:

@@ -1,0 +1,89 @@
+"""Every modality a spec asks for, rendered once per observation key (noise-free)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from gymnasium import spaces
+
+from ..limits import check_bytes
+from ..model import TaskModel
+from ..spec.schema import Observation
+from .grid import GRID_CHANNELS, grid_table
+from .topdown import pixel_table
+from .vector import VectorLayout, vector_layout
+
+
+@dataclass(frozen=True, eq=False)
+class ObservationSet:
+    """The noise-free table of each requested modality, indexed by observation key.
+
+    Runtimes gather rows of these tables and add noise; analyses compare them (the leak check
+    and the chance level see exactly what the agent sees, noise excluded).
+    """
+
+    names: tuple[str, ...]
+    vector: VectorLayout | None
+    grid: np.ndarray | None        # uint8[K, s, s, channels]
+    pixels: np.ndarray | None      # uint8[K, H, W, 3]
+    pixel_noise: tuple[str, float] | None
+
+    @property
+    def single(self) -> bool:
+        """True when the agent gets one modality (a Box), False for several (a Dict)."""
+        return len(self.names) == 1
+
+    def spaces(self) -> dict[str, spaces.Box]:
+        """The space of each modality."""
+        out: dict[str, spaces.Box] = {}
+        if self.vector is not None:
+            out["vector"] = spaces.Box(0.0, 1.0, shape=(self.vector.size,), dtype=np.float32)
+        if self.grid is not None:
+            high = np.full(self.grid.shape[1:], 1, dtype=np.uint8)
+            high[..., GRID_CHANNELS.index("goal")] = 255
+            high[..., GRID_CHANNELS.index("cue")] = 255
+            out["grid"] = spaces.Box(0, high, dtype=np.uint8)
+        if self.pixels is not None:
+            out["pixels"] = spaces.Box(0, 255, shape=self.pixels.shape[1:], dtype=np.uint8)
+        return out
+
+    def space(self) -> spaces.Space:
+        """The observation space of a single env."""
+        parts = self.spaces()
+        return next(iter(parts.values())) if self.single else spaces.Dict(parts)
+
+    def tables(self) -> dict[str, tuple[np.ndarray, dict[str, slice]]]:
+        """Noise-free table and block layout of each modality (for the analyses)."""
+        out: dict[str, tuple[np.ndarray, dict[str, slice]]] = {}
+        if self.vector is not None:
+            blocks = {k: v for k, v in self.vector.blocks.items() if k != "noise"}
+            out["vector"] = (self.vector.table, blocks)
+        for name in ("grid", "pixels"):
+            table = getattr(self, name)
+            if table is not None:
+                flat = table.reshape(table.shape[0], -1)
+                out[name] = (flat, {name: slice(0, flat.shape[1])})
+        return out
+
+
+def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
+    """Render every modality of ``spec`` for every observation key of ``model``."""
+    what = model.variant_id
+    vector = vector_layout(model, spec.vector) if spec.vector is not None else None
+    grid = pixels = None
+    if spec.grid is not None:
+        check_bytes(f"{what}: the grid-view table", model.num_keys * spec.grid.size ** 2 * 8)
+        grid = grid_table(model, spec.grid.size)
+    if spec.pixels is not None:
+        p = spec.pixels
+        check_bytes(f"{what}: the pixel table", model.num_keys * p.height * p.width * 3)
+        pixels = pixel_table(model, p.height, p.width, p.view, p.window)
+    noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
+    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise)
+
+
+def assemble(obs: ObservationSet, parts: dict[str, Any]) -> Any:
+    """One modality as its array, several as a dict."""
+    return parts[obs.names[0]] if obs.single else parts
