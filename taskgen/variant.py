@@ -81,8 +81,7 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     n = 0 if spec.cue.display == "site" else spec.cue.visible_steps
     m = spec.cue.sequence_length
     check_work(what, cells * max(m * n + 1, 2) * (m + 2) * spec.cue.values ** m, 4, max(horizon, 1))
-    check_bytes(f"{what}: the observation table",
-                cells * (spec.cue.values + 1) * (spec.cue.values + 4 + cells) * 4)
+    _check_tables(spec, what, cells, params["height"], params["width"])
     h, w = params["height"], params["width"]
     fixed = [maze.start_cell] if maze.start_cell is not None else []
     fixed += list(maze.goal_cells or [])
@@ -138,8 +137,20 @@ def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:
         horizon = int(np.ceil(spec.episode.max_steps_factor * longest))
     m = spec.cue.sequence_length
     check_work(what, cells * (m * n + 1) * (m + 2) * k ** m, 4, max(horizon, 1))
-    vector = spec.observation.vector
-    width = k + 4 + (cells if vector.position == "one_hot" else 2)
-    check_bytes(f"{what}: the observation table", cells * (k + 1) * width * 4)
     rows, cols = max(2 * k - 1, k - 1 + params["width"]), params["length"] + params["arm_length"] + 1
+    _check_tables(spec, what, cells, rows, cols)
+
+
+def _check_tables(spec: Spec, what: str, cells: int, rows: int, cols: int) -> None:
+    """Refuse observation tables (one row per observation key) and pictures over the byte cap."""
+    k = spec.cue.values
+    keys = cells * (k + 1)                     # (cell, shown cue value or none)
+    obs = spec.observation
+    if obs.vector is not None:
+        width = k + 4 + (cells if obs.vector.position == "one_hot" else 2)
+        check_bytes(f"{what}: the vector table", keys * width * 4)
+    if obs.pixels is not None:
+        check_bytes(f"{what}: the pixel table", keys * obs.pixels.height * obs.pixels.width * 3)
+    if obs.grid is not None:
+        check_bytes(f"{what}: the grid-view table", keys * obs.grid.size ** 2 * 8)
     check_bytes(f"{what}: a top-down picture", (rows + 3) * (cols + 2) * 12 * 12 * 3)
