@@ -87,6 +87,17 @@ def _raw_numpy_loop(vec: Any, num_envs: int, rng: np.random.Generator) -> Callab
     return run
 
 
+def _frame_gather_loop(table: np.ndarray, num_envs: int, rng: np.random.Generator) -> Callable[[int], None]:
+    """The floor of a pixel step: gathering N frames from a table into a preallocated buffer."""
+    buffer = np.empty((num_envs,) + table.shape[1:], dtype=table.dtype)
+
+    def run(steps: int) -> None:
+        keys = rng.integers(table.shape[0], size=(steps, num_envs))
+        for k in keys:
+            np.take(table, k, axis=0, out=buffer, mode="clip")   # 'raise' would buffer the output
+    return run
+
+
 def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
               seed: int = 0) -> dict[str, Any]:
     """Measure every runtime and the references; returns timings, ratios and memory."""
@@ -105,14 +116,22 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
                             rng), budget),
         _timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng), budget),
     ]
+    pixels = make_vec(spec, num_envs, observation__vector=None, observation__grid=None,
+                      observation__pixels={"height": 64, "width": 64})
+    timings += [
+        _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
+        _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
+               _frame_gather_loop(pixels._pixels, num_envs, rng), budget),
+    ]
     by = {t.name: t.env_steps_per_s for t in timings}
-    single, vec, sync_ours, fl_single, fl_sync, raw = (t.env_steps_per_s for t in timings)
+    single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather = (t.env_steps_per_s for t in timings)
     ratios = {
         "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
         "batched / raw numpy table step": vec / raw,
         "single / FrozenLake single": single / fl_single,
         "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
         "batched / single": vec / single,
+        "top-down pixels / numpy frame gather": pix / gather,
     }
     memory = batched.memory_bytes()
     return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(batched._bits),
