@@ -53,7 +53,7 @@ def test_minimal_spec_gets_defaults():
      "x.yaml:8:22: episode.max_steps: expected an integer ≥ 1 or 'auto', got 0"),
     (GOOD + "colour: red\n",
      "x.yaml:8:1: colour: expected a known key (format_version, name, description, layout, cue, "
-     "decision, rewards, episode, observation), got 'colour'"),
+     "decision, agent, rewards, episode, observation), got 'colour'"),
     (GOOD.replace("format_version: 1", "format_version: 2"),
      "x.yaml:1:17: format_version: expected 1, got 2"),
     (GOOD.replace("name: tiny", "name: Tiny Task"),

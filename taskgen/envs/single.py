@@ -75,6 +75,8 @@ class TaskEnv(gym.Env):
                 kind, amplitude = self.observations.pixel_noise
                 frame = add_pixel_noise(frame[None], self._pixel_key, self._step, kind, amplitude)[0]
             parts["pixels"] = frame.copy()
+        if self.observations.first_person is not None:
+            parts["first_person"] = self.observations.first_person[key].copy()
         return assemble(self.observations, parts)
 
     def _info(self) -> dict[str, Any]:

@@ -112,6 +112,8 @@ class TaskVectorEnv(VectorEnv):
             self._table = np.zeros((int(key_off[-1]), 0), dtype=np.float32)
         self._grid = np.concatenate([o.grid for o in layouts]) if layouts[0].grid is not None else None
         self._pixels = np.concatenate([o.pixels for o in layouts]) if layouts[0].pixels is not None else None
+        self._first_person = (np.concatenate([o.first_person for o in layouts])
+                              if layouts[0].first_person is not None else None)
         self._bits = vectors[0].noise_bits if self._has_vector else 0
         width = max(m.initial_states().size for m in models)
         starts = np.zeros((len(models), width), dtype=np.int64)
@@ -242,6 +244,8 @@ class TaskVectorEnv(VectorEnv):
                 kind, amplitude = self._observations.pixel_noise
                 frames = add_pixel_noise(frames, self._pixel_keys, self._step, kind, amplitude)
             parts["pixels"] = frames
+        if self._first_person is not None:
+            parts["first_person"] = self._first_person[keys]
         return assemble(self._observations, parts)
 
     def _infos(self) -> dict[str, Any]:
@@ -274,6 +278,6 @@ class TaskVectorEnv(VectorEnv):
                    self._seeded, self._autoreset, self._starts, self._cumulative, self._threshold,
                    self._horizon, self._timeout, self._state_offset, self.env_model]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
-        shared += [t for t in (self._grid, self._pixels) if t is not None]
+        shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs,
                 "shared": sum(a.nbytes for a in shared)}

@@ -7,6 +7,30 @@ import math
 import numpy as np
 
 from ..generate import MOVE_NAMES
+from ..generate.grid import GridLayout
+
+TURN_NAMES = ("turn_left", "turn_right", "forward")
+HEADING_NAMES = ("north", "east", "south", "west")
+
+
+def poses(layout: GridLayout, turns: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
+    """The agent's poses and how actions move between them.
+
+    Returns (cell of each pose, heading of each pose (−1 without headings), next pose per
+    action [P, A], start pose). With moves a pose is a cell and the actions are the four moves;
+    with turns a pose is (cell, heading), and the actions turn left, turn right or step forward.
+    The start heading is the first open direction of east, south, west, north.
+    """
+    C = layout.num_cells
+    stay = np.arange(C)[:, None]
+    moved = np.where(layout.neighbour >= 0, layout.neighbour, stay)          # [C, 4]
+    if not turns:
+        return np.arange(C), -np.ones(C, dtype=np.int64), moved, layout.start
+    cell, heading = np.divmod(np.arange(4 * C), 4)
+    next_pose = np.stack([cell * 4 + (heading + 3) % 4, cell * 4 + (heading + 1) % 4,
+                          moved[cell, heading] * 4 + heading], axis=1)
+    facing = next((d for d in (1, 2, 3, 0) if layout.neighbour[layout.start, d] >= 0), 1)
+    return cell, heading, next_pose, layout.start * 4 + facing
 from ..variant import Variant
 from .graph import distances_from, reachable
 from .tables import TaskModel
@@ -42,7 +66,9 @@ def compile_variant(variant: Variant) -> TaskModel:
     m = spec.cue.sequence_length
     by_site = spec.cue.display == "site"
     n = 0 if by_site else variant.params["visible_steps"]
-    C, A = layout.num_cells, len(MOVE_NAMES)
+    turns = spec.agent.actions == "turns"
+    cell_of, heading_of, pose_next, start_pose = poses(layout, turns)
+    C, A = cell_of.size, pose_next.shape[1]
     T = 2 if by_site else m * n + 1
     P, K = m + 2, k ** m
     done, failed = m, m + 1
@@ -51,16 +77,17 @@ def compile_variant(variant: Variant) -> TaskModel:
     rewards, decision = spec.rewards, spec.decision
     digits = (np.arange(K)[:, None] // k ** np.arange(m)[None, :]) % k      # [K, m] sequence of each h
 
-    c, t, p, h = (a.ravel() for a in np.meshgrid(np.arange(C), np.arange(T), np.arange(P), np.arange(K),
+    q, t, p, h = (a.ravel() for a in np.meshgrid(np.arange(C), np.arange(T), np.arange(P), np.arange(K),
                                                  indexing="ij"))
-    index = lambda c_, t_, p_, h_: ((c_ * T + t_) * P + p_) * K + h_  # noqa: E731
-    full = index(c, t, p, h)
+    index = lambda q_, t_, p_, h_: ((q_ * T + t_) * P + p_) * K + h_  # noqa: E731
+    full = index(q, t, p, h)
+    c = cell_of[q]
     ends_here = p >= done
     goal_of = -np.ones(C, dtype=np.int64)
     goal_of[goals] = np.arange(goals.size)
 
-    moved = layout.neighbour[c]                                   # [N, A]
-    c2 = np.where(moved >= 0, moved, c[:, None])
+    q2 = pose_next[q]                                             # [N, A]
+    c2 = cell_of[q2]
     t2 = (np.maximum(t[:, None], c2 == site) if by_site else np.minimum(t + 1, T - 1)[:, None])
     g2 = goal_of[c2]
     entered = (g2 >= 0) & (c2 != c[:, None])       # stepping onto a goal, not staying on it
@@ -68,7 +95,7 @@ def compile_variant(variant: Variant) -> TaskModel:
     right = (g2 == target) if decision.rule == "match" else (g2 != target)
     good, bad = entered & right, entered & ~right
     p2 = np.where(good, p[:, None] + 1, np.where(bad & (decision.wrong == "end"), failed, p[:, None]))
-    nxt = index(c2, t2, p2, h[:, None])
+    nxt = index(q2, t2, p2, h[:, None])
     reward = np.full(nxt.shape, rewards.step, dtype=np.float64)
     paid = np.full(goals.size, rewards.correct) if rewards.per_goal is None else np.asarray(rewards.per_goal)
     reward += np.where(good, paid[np.maximum(g2, 0)], np.where(bad, rewards.wrong, 0.0))
@@ -76,12 +103,13 @@ def compile_variant(variant: Variant) -> TaskModel:
     reward = np.where(ends_here[:, None], 0.0, reward)
 
     start_timer = int(by_site and layout.start == site)
-    start_states = index(layout.start, start_timer, 0, np.arange(K))
+    start_states = index(start_pose, start_timer, 0, np.arange(K))
     keep = reachable(nxt, start_states)
     new_index = -np.ones(full.size, dtype=np.int64)
     new_index[keep] = np.arange(int(keep.sum()))
     next_state = new_index[nxt[keep]]
-    c, t, p, h = c[keep], t[keep], p[keep], h[keep]
+    q, c, t, p, h = q[keep], c[keep], t[keep], p[keep], h[keep]
+    heading = heading_of[q]
     terminal = p >= done
     success = p == done
 
@@ -101,10 +129,10 @@ def compile_variant(variant: Variant) -> TaskModel:
         revealed = np.minimum(t // max(n, 1) + 1, m)
         known = revealed == m
         knowledge = h % k ** revealed
-    keys, obs_key = np.unique(np.stack([c, visible_cue], axis=1), axis=0, return_inverse=True)
+    keys, obs_key = np.unique(np.stack([c, heading, visible_cue], axis=1), axis=0, return_inverse=True)
     # cue twins share a blind state; every end state of a cell counts as one, so that the cue-blind
     # analysis sees whether the cue changes where the agent goes, not how an episode ended
-    _, blind_state = np.unique(np.stack([c, t, np.where(terminal, done, p)], axis=1), axis=0,
+    _, blind_state = np.unique(np.stack([q, t, np.where(terminal, done, p)], axis=1), axis=0,
                                return_inverse=True)
 
     prior = np.full(K, 1.0 / K)
@@ -120,11 +148,12 @@ def compile_variant(variant: Variant) -> TaskModel:
 
     return TaskModel(
         next_state=next_state, reward=reward[keep], terminal=terminal, success=success,
-        initial=initial, hidden=h, blind_state=blind_state.ravel(), cell=c, timer=t,
-        obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(), key_cue=keys[:, 1].copy(),
+        initial=initial, hidden=h, blind_state=blind_state.ravel(), cell=c, heading=heading, timer=t,
+        obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(), key_heading=keys[:, 1].copy(),
+        key_cue=keys[:, 2].copy(),
         hidden_values=K, cue_values=k, hidden_prior=prior, cue_visible_steps=n, cue_window=shown, cue_known=known,
         knowledge=knowledge,
         horizon=int(horizon), discount=spec.episode.discount, timeout_reward=rewards.timeout,
-        layout=layout, action_names=MOVE_NAMES, variant_id=variant.variant_id,
+        layout=layout, action_names=TURN_NAMES if turns else MOVE_NAMES, variant_id=variant.variant_id,
         params={**variant.params, "max_steps": int(horizon)},
     )

@@ -37,9 +37,11 @@ class TaskModel:
     hidden: np.ndarray          # int64[S], cue value
     blind_state: np.ndarray     # int64[S]
     cell: np.ndarray            # int64[S], layout cell of the agent
+    heading: np.ndarray         # int64[S], 0 north … 3 west, or −1 when the agent has no heading
     timer: np.ndarray           # int64[S], steps taken, saturating at the cue's display window
     obs_key: np.ndarray         # int64[S]
     key_cell: np.ndarray        # int64[K]
+    key_heading: np.ndarray     # int64[K], −1 without headings
     key_cue: np.ndarray         # int64[K]
     hidden_values: int          # number of hidden values (cue values, or k^m for a sequence of m)
     cue_values: int             # values one displayed cue element can take (k)

@@ -9,11 +9,12 @@ from ..model import TaskModel
 GRID_CHANNELS = ("open", "wall_north", "wall_east", "wall_south", "wall_west", "goal", "cue", "agent")
 
 
-def grid_table(model: TaskModel, size: int) -> np.ndarray:
+def grid_table(model: TaskModel, size: int, egocentric: bool = False) -> np.ndarray:
     """uint8[K, size, size, 8]: for every observation key, the ``size × size`` cells around the
     agent (north up), with channels GRID_CHANNELS: 1 for an open cell, a wall bit per side
     (cells outside the map are closed on every side), the goal's cue value + 1, the shown cue
-    value + 1 at the agent's cell, and 1 at the agent's cell."""
+    value + 1 at the agent's cell, and 1 at the agent's cell. ``egocentric`` turns the window so
+    the agent's heading points up (wall bits then mean ahead, right, behind, left)."""
     layout = model.layout
     rows, cols = layout.shape
     half = size // 2
@@ -33,4 +34,11 @@ def grid_table(model: TaskModel, size: int) -> np.ndarray:
     out = per_cell[window]                                       # −1 picks the "outside" row
     out[:, half, half, 6] = np.where(model.key_cue >= 0, model.key_cue + 1, 0)
     out[:, half, half, 7] = 1
+    if egocentric:   # turn each window so the agent's heading is up, wall bits turning with it
+        for heading in range(4):
+            rows = np.flatnonzero(model.key_heading == heading)
+            turned = np.rot90(out[rows], k=heading, axes=(1, 2)).copy()
+            walls = turned[..., 1:5].copy()
+            turned[..., 1:5] = walls[..., [(heading + d) % 4 for d in range(4)]]
+            out[rows] = turned
     return out

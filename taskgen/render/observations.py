@@ -11,6 +11,7 @@ from gymnasium import spaces
 from ..limits import check_bytes
 from ..model import TaskModel
 from ..spec.schema import Observation
+from .first_person import first_person_table
 from .grid import GRID_CHANNELS, grid_table
 from .topdown import pixel_table
 from .vector import VectorLayout, vector_layout
@@ -29,6 +30,7 @@ class ObservationSet:
     grid: np.ndarray | None        # uint8[K, s, s, channels]
     pixels: np.ndarray | None      # uint8[K, H, W, 3]
     pixel_noise: tuple[str, float] | None
+    first_person: np.ndarray | None = None   # uint8[K, H, W, 3]
 
     @property
     def single(self) -> bool:
@@ -45,8 +47,10 @@ class ObservationSet:
             high[..., GRID_CHANNELS.index("goal")] = 255
             high[..., GRID_CHANNELS.index("cue")] = 255
             out["grid"] = spaces.Box(0, high, dtype=np.uint8)
-        if self.pixels is not None:
-            out["pixels"] = spaces.Box(0, 255, shape=self.pixels.shape[1:], dtype=np.uint8)
+        for name in ("pixels", "first_person"):
+            table = getattr(self, name)
+            if table is not None:
+                out[name] = spaces.Box(0, 255, shape=table.shape[1:], dtype=np.uint8)
         return out
 
     def space(self) -> spaces.Space:
@@ -60,7 +64,7 @@ class ObservationSet:
         if self.vector is not None:
             blocks = {k: v for k, v in self.vector.blocks.items() if k != "noise"}
             out["vector"] = (self.vector.table, blocks)
-        for name in ("grid", "pixels"):
+        for name in ("grid", "pixels", "first_person"):
             table = getattr(self, name)
             if table is not None:
                 flat = table.reshape(table.shape[0], -1)
@@ -73,15 +77,20 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
     what = model.variant_id
     vector = vector_layout(model, spec.vector) if spec.vector is not None else None
     grid = pixels = None
+    first_person = None
     if spec.grid is not None:
         check_bytes(f"{what}: the grid-view table", model.num_keys * spec.grid.size ** 2 * 8)
-        grid = grid_table(model, spec.grid.size)
+        grid = grid_table(model, spec.grid.size, egocentric=spec.grid.frame == "egocentric")
+    if spec.first_person is not None:
+        f = spec.first_person
+        check_bytes(f"{what}: the first-person table", model.num_keys * f.height * f.width * 3)
+        first_person = first_person_table(model, f.height, f.width, f.fov)
     if spec.pixels is not None:
         p = spec.pixels
         check_bytes(f"{what}: the pixel table", model.num_keys * p.height * p.width * 3)
         pixels = pixel_table(model, p.height, p.width, p.view, p.window)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
-    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise)
+    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, first_person)
 
 
 def assemble(obs: ObservationSet, parts: dict[str, Any]) -> Any:

@@ -43,6 +43,8 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
         parts.append(("position", (layout.cells[model.key_cell] / scale).astype(np.float32)))
     if spec.walls:
         parts.append(("walls", layout.walls()[model.key_cell].astype(np.float32)))
+    if (model.key_heading >= 0).any():      # an agent with a heading sees which way it faces
+        parts.append(("heading", np.eye(4, dtype=np.float32)[np.maximum(model.key_heading, 0)]))
     blocks, start = {}, 0
     for name, block in parts:
         blocks[name] = slice(start, start + block.shape[1])

@@ -234,6 +234,9 @@ class GridObservation(Strict):
 
     size: Annotated[int, BeforeValidator(_odd)] = Field(
         default=5, ge=1, le=31, description="Cells across the (square, odd-sided) window.", examples=[5])
+    frame: Literal["north_up", "egocentric"] = Field(
+        default="north_up", description="north_up: north at the top; egocentric: the agent's heading at "
+        "the top (needs agent.actions: turns).", examples=["north_up"])
 
 
 class PixelNoise(Strict):
@@ -259,6 +262,17 @@ class PixelObservation(Strict):
                                      examples=[{"kind": "salt_pepper", "amplitude": 0.02}])
 
 
+class FirstPersonObservation(Strict):
+    """A first-person RGB view (uint8) by raycasting: walls shaded by distance, goal walls in their
+    cue colour, a lamp strip in the cue colour while the cue is shown. Needs agent.actions: turns."""
+
+    height: int = Field(default=64, ge=8, le=512, description="Frame height in pixels.", examples=[64])
+    width: int = Field(default=64, ge=8, le=512, description="Frame width in pixels (one ray per column).",
+                       examples=[64])
+    fov: float = Field(default=66.0, gt=0.0, lt=180.0, description="Horizontal field of view in degrees.",
+                       examples=[66.0])
+
+
 class Observation(Strict):
     """What the agent receives: one modality (then a Box) or several (then a Dict keyed by name)."""
 
@@ -270,17 +284,29 @@ class Observation(Strict):
                                          examples=[{"size": 5}])
     pixels: PixelObservation | None = Field(default=None, description="Top-down pixels, or null.",
                                             examples=[{"height": 64, "width": 64, "view": "full"}])
+    first_person: FirstPersonObservation | None = Field(
+        default=None, description="First-person pixels, or null.", examples=[{"height": 48, "width": 64}])
 
     @model_validator(mode="after")
     def _something(self) -> "Observation":
-        if self.vector is None and self.grid is None and self.pixels is None:
+        if not self.modalities():
             raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "at least one of vector, grid, pixels", "found": "none"})
+                                      {"expected": "at least one of vector, grid, pixels, first_person",
+                                       "found": "none"})
         return self
 
     def modalities(self) -> list[str]:
         """Names of the requested modalities, in a fixed order."""
-        return [name for name in ("vector", "grid", "pixels") if getattr(self, name) is not None]
+        return [name for name in ("vector", "grid", "pixels", "first_person") if getattr(self, name) is not None]
+
+
+class Agent(Strict):
+    """How the agent moves."""
+
+    actions: Literal["moves", "turns"] = Field(
+        default="moves", description="moves: Discrete(4) north, east, south, west; turns: Discrete(3) turn "
+        "left, turn right, forward, with a heading (needed by first_person and the egocentric grid).",
+        examples=["moves", "turns"])
 
 
 class Spec(Strict):
@@ -288,6 +314,12 @@ class Spec(Strict):
 
     @model_validator(mode="after")
     def _sequences_match(self) -> "Spec":
+        obs = self.observation
+        needs_heading = obs.first_person is not None or (obs.grid is not None and obs.grid.frame == "egocentric")
+        if needs_heading and self.agent.actions != "turns":
+            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                                      {"expected": "agent.actions 'turns' for a first-person or egocentric view",
+                                       "found": repr(self.agent.actions)})
         goals = self.rewards.per_goal
         if goals is not None and len(goals) != self.cue.values:
             raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
@@ -318,6 +350,8 @@ class Spec(Strict):
     cue: Cue = Field(description="The cue to remember.", examples=[{"values": 2, "visible_steps": 1}])
     decision: Decision = Field(default_factory=Decision, description="How the cue decides which goal pays.",
                                examples=[{"rule": "non_match", "wrong": "end"}])
+    agent: Agent = Field(default_factory=Agent, description="The agent's actions (moves or turns).",
+                         examples=[{"actions": "turns"}])
     rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.",
                              examples=[{"correct": 1.0, "wrong": -1.0, "step": -0.01}])
     episode: Episode = Field(default_factory=Episode, description="Step limit and discount.",
