@@ -10,6 +10,7 @@ import numpy as np
 from ..model import TaskModel
 from ..render import TopDownRenderer
 from ..render.observations import ObservationSet, assemble
+from .distractors import apply_distractors
 from .streams import add_pixel_noise, categorical, episode_keys, noise_track, stream_from, subkeys, uniform
 
 
@@ -58,6 +59,10 @@ class TaskEnv(gym.Env):
         self._episode = 0
         self._key = np.zeros(1, dtype=np.uint64)
         self._pixel_key = np.zeros(1, dtype=np.uint64)
+        self._distractor_key = np.zeros(1, dtype=np.uint64)
+        self._distracted = observations.decoy_probability > 0 or observations.lure_probability > 0
+        tiles = observations.lure_tiles
+        self._tile_count = np.array([0 if tiles is None else tiles.shape[0]])
 
     def _observation(self) -> Any:
         parts: dict[str, np.ndarray] = {}
@@ -77,6 +82,10 @@ class TaskEnv(gym.Env):
             parts["pixels"] = frame.copy()
         if self.observations.first_person is not None:
             parts["first_person"] = self.observations.first_person[key].copy()
+        if self._distracted:
+            apply_distractors(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key,
+                              np.array([self._step]), np.array([self.model.key_cue[key] >= 0]),
+                              self._tile_count, np.zeros(1, dtype=np.int64), self.observations.lure_tiles)
         return assemble(self.observations, parts)
 
     def _info(self) -> dict[str, Any]:
@@ -110,6 +119,8 @@ class TaskEnv(gym.Env):
                                       self.model.horizon)[0].astype(np.float32)
         if self.observations.pixel_noise is not None:
             self._pixel_key = subkeys(self._key, "pixel_noise")
+        if self._distracted:
+            self._distractor_key = subkeys(self._key, "distractor")
         return self._observation(), self._info()
 
     def step(self, action: int):

@@ -15,7 +15,7 @@ _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _STEP = np.uint64(0xD1B54A32D192ED03)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
-_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5}
+_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5, "distractor": 6}
 _TO_UNIT = 1.0 / (1 << 53)
 
 

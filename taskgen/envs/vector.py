@@ -22,6 +22,7 @@ from ..model import TaskModel
 from ..render import TopDownRenderer
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
+from .distractors import apply_distractors
 from .streams import add_pixel_noise, categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
 
 
@@ -89,6 +90,8 @@ class TaskVectorEnv(VectorEnv):
         self._keys = np.zeros(N, dtype=np.uint64)
         self._flip_keys = np.zeros(N, dtype=np.uint64)
         self._pixel_keys = np.zeros(N, dtype=np.uint64)
+        self._distractor_keys = np.zeros(N, dtype=np.uint64)
+        self._distracted = self._observations.decoy_probability > 0 or self._observations.lure_probability > 0
         self._seeded = np.zeros(N, dtype=bool)
         self._autoreset = np.zeros(N, dtype=bool)
         self._generators: list[np.random.Generator | None] = [None] * N
@@ -115,6 +118,11 @@ class TaskVectorEnv(VectorEnv):
         self._first_person = (np.concatenate([o.first_person for o in layouts])
                               if layouts[0].first_person is not None else None)
         self._bits = vectors[0].noise_bits if self._has_vector else 0
+        self._key_cue = np.concatenate([m.key_cue for m in models])
+        tiles = [o.lure_tiles if o.lure_tiles is not None else np.zeros((1, 4), dtype=np.int64) for o in layouts]
+        self._tiles = np.concatenate(tiles)
+        tile_count = np.array([t.shape[0] for t in tiles])
+        tile_offset = np.cumsum([0] + list(tile_count))[:-1]
         width = max(m.initial_states().size for m in models)
         starts = np.zeros((len(models), width), dtype=np.int64)
         cumulative = np.ones((len(models), width))
@@ -132,6 +140,7 @@ class TaskVectorEnv(VectorEnv):
             "_horizon": np.array([m.horizon for m in models]),
             "_timeout": np.array([m.timeout_reward for m in models]),
             "_starts": starts, "_cumulative": cumulative,
+            "_tile_count": tile_count, "_tile_offset": tile_offset,
             "_variant_ids": np.array([m.variant_id for m in models], dtype=object),
         }
         for name, table in self._per_model.items():
@@ -161,6 +170,8 @@ class TaskVectorEnv(VectorEnv):
             self._flip_keys[rows] = subkeys(keys, "noise_flip")
         if self._observations.pixel_noise is not None:
             self._pixel_keys[rows] = subkeys(keys, "pixel_noise")
+        if self._distracted:
+            self._distractor_keys[rows] = subkeys(keys, "distractor")
 
     def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
         """Reset every environment; ``seed`` is None, an int (env i gets seed + i) or a list."""
@@ -246,6 +257,9 @@ class TaskVectorEnv(VectorEnv):
             parts["pixels"] = frames
         if self._first_person is not None:
             parts["first_person"] = self._first_person[keys]
+        if self._distracted:
+            apply_distractors(self._observations, parts, self._distractor_keys, self._step,
+                              self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
         return assemble(self._observations, parts)
 
     def _infos(self) -> dict[str, Any]:

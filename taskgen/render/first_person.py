@@ -20,6 +20,11 @@ _HEADING = np.array([(-1.0, 0.0), (0.0, 1.0), (1.0, 0.0), (0.0, -1.0)])
 SKY = (8, 8, 12)
 
 
+def lamp_rows(height: int) -> int:
+    """Rows of the lamp strip at the top of a first-person frame."""
+    return max(1, height // 12)
+
+
 def cast(model: TaskModel, cells: np.ndarray, headings: np.ndarray, width: int, fov: float,
          max_steps: int | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Cast ``width`` rays from each (cell, heading): perpendicular distance [N, W], the cell
@@ -89,7 +94,7 @@ def first_person_table(model: TaskModel, height: int, width: int, fov: float) ->
     frames[:] = np.asarray(SKY, dtype=np.uint8)
     frames[:, height // 2:] = np.asarray(FLOOR, dtype=np.uint8)
     frames[is_wall] = np.broadcast_to(wall[:, None, :, :], (K, height, width, 3))[is_wall]
-    lamp = max(1, height // 12)
+    lamp = lamp_rows(height)
     shown = np.flatnonzero(model.key_cue >= 0)
     frames[shown, :lamp] = np.asarray(CUE_COLOURS, dtype=np.uint8)[model.key_cue[shown]][:, None, None, :]
     return frames

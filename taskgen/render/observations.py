@@ -13,7 +13,7 @@ from ..model import TaskModel
 from ..spec.schema import Observation
 from .first_person import first_person_table
 from .grid import GRID_CHANNELS, grid_table
-from .topdown import pixel_table
+from .topdown import pixel_table, tile_boxes
 from .vector import VectorLayout, vector_layout
 
 
@@ -31,6 +31,10 @@ class ObservationSet:
     pixels: np.ndarray | None      # uint8[K, H, W, 3]
     pixel_noise: tuple[str, float] | None
     first_person: np.ndarray | None = None   # uint8[K, H, W, 3]
+    decoy_probability: float = 0.0
+    lure_probability: float = 0.0
+    lure_tiles: np.ndarray | None = None     # int[T, 4] pixel boxes a lure may light (top-down)
+    cue_values: int = 2
 
     @property
     def single(self) -> bool:
@@ -90,7 +94,12 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
         check_bytes(f"{what}: the pixel table", model.num_keys * p.height * p.width * 3)
         pixels = pixel_table(model, p.height, p.width, p.view, p.window)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
-    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, first_person)
+    tiles = None
+    if spec.pixels is not None:
+        tiles = tile_boxes(model, spec.pixels.height, spec.pixels.width, spec.pixels.view, spec.pixels.window)
+    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, first_person,
+                          spec.distractors.decoy_probability, spec.distractors.lure_probability, tiles,
+                          model.cue_values)
 
 
 def assemble(obs: ObservationSet, parts: dict[str, Any]) -> Any:

@@ -73,6 +73,35 @@ def _nearest(size: int, source: int) -> np.ndarray:
     return np.minimum((np.arange(size) * source) // size, source - 1)
 
 
+def lamp_rows(height: int) -> int:
+    """Rows of the lamp strip at the top of a top-down frame."""
+    return max(1, height // 10)
+
+
+def tile_boxes(model: TaskModel, height: int, width: int, view: str = "full", window: int = 7) -> np.ndarray:
+    """int[T, 4]: (top, bottom, left, right) pixel box of each floor tile a lure may light: every
+    layout cell in the full view, every window position in the window view."""
+    renderer_px = 8
+    rows, cols = model.layout.shape
+    lamp = lamp_rows(height)
+    if view == "full":   # every cell but the goals, which already show a cue colour
+        src_h, src_w = (rows + 2) * renderer_px, (cols + 2) * renderer_px
+        plain = np.setdiff1d(np.arange(model.layout.num_cells), model.layout.sites.get("goal", []))
+        tiles = model.layout.cells[plain] + 1
+    else:
+        src_h = src_w = window * renderer_px
+        r, c = np.divmod(np.arange(window * window), window)
+        tiles = np.stack([r, c], axis=1)
+    ri = _nearest(height - lamp, src_h) // renderer_px
+    ci = _nearest(width, src_w) // renderer_px
+    out = np.zeros((tiles.shape[0], 4), dtype=np.int64)
+    for i, (r, c) in enumerate(tiles):
+        hit_r, hit_c = np.flatnonzero(ri == r), np.flatnonzero(ci == c)
+        if hit_r.size and hit_c.size:
+            out[i] = (hit_r[0] + lamp, hit_r[-1] + 1 + lamp, hit_c[0], hit_c[-1] + 1)
+    return out
+
+
 def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", window: int = 7) -> np.ndarray:
     """uint8[K, height, width, 3]: the top-down picture the agent gets for every observation key.
 
@@ -82,7 +111,7 @@ def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", w
     drawn at once with numpy gathers, so the runtime only indexes this table.
     """
     K = model.num_keys
-    lamp = max(1, height // 10)
+    lamp = lamp_rows(height)
     body_h = height - lamp
     frames = np.empty((K, height, width, 3), dtype=np.uint8)
     renderer = TopDownRenderer(model, cell_px=8)

@@ -273,6 +273,18 @@ class FirstPersonObservation(Strict):
                        examples=[66.0])
 
 
+class Distractors(Strict):
+    """Signals that look like the cue but are not it, drawn afresh each step from the episode's stream."""
+
+    decoy_probability: float = Field(
+        default=0.0, ge=0.0, le=1.0, description="Chance per step that, while the real cue is not shown, a "
+        "decoy cue value (uniform over the values, so it carries nothing about the real one) appears "
+        "wherever the cue would: vector cue bits, grid cue channel, lamp strips.", examples=[0.1])
+    lure_probability: float = Field(
+        default=0.0, ge=0.0, le=1.0, description="Chance per step that a random floor tile flashes a cue "
+        "colour (top-down pixels) or cue value (grid view).", examples=[0.2])
+
+
 class Observation(Strict):
     """What the agent receives: one modality (then a Box) or several (then a Dict keyed by name)."""
 
@@ -286,6 +298,8 @@ class Observation(Strict):
                                             examples=[{"height": 64, "width": 64, "view": "full"}])
     first_person: FirstPersonObservation | None = Field(
         default=None, description="First-person pixels, or null.", examples=[{"height": 48, "width": 64}])
+    distractors: Distractors = Field(default_factory=Distractors, description="Decoy cues and lure tiles.",
+                                     examples=[{"decoy_probability": 0.05, "lure_probability": 0.1}])
 
     @model_validator(mode="after")
     def _something(self) -> "Observation":
