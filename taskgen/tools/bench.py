@@ -123,8 +123,13 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
         _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
                _frame_gather_loop(pixels._pixels, num_envs, rng), budget),
     ]
+    first_person = make_vec(spec, num_envs, agent__actions="turns", observation__vector=None,
+                            observation__grid=None, observation__pixels=None,
+                            observation__first_person={"height": 64, "width": 64})
+    timings.append(_timed(f"taskgen batched first-person 64×64 ({num_envs})", num_envs,
+                          _vector_loop(first_person, rng), budget))
     by = {t.name: t.env_steps_per_s for t in timings}
-    single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather = (t.env_steps_per_s for t in timings)
+    single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather, fp = (t.env_steps_per_s for t in timings)
     ratios = {
         "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
         "batched / raw numpy table step": vec / raw,
@@ -132,6 +137,7 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
         "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
         "batched / single": vec / single,
         "top-down pixels / numpy frame gather": pix / gather,
+        "first-person / SyncVectorEnv(FrozenLake)": fp / fl_sync,
     }
     memory = batched.memory_bytes()
     return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(batched._bits),
