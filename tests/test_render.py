@@ -52,3 +52,13 @@ def test_topdown_lamp_shows_the_cue_colour():
             assert tuple(frame[2, 2]) not in CUE_COLOURS
     rows, cols = model.layout.shape
     assert frame.shape == ((rows + 3) * 10, (cols + 2) * 10, 3)
+
+
+def test_goal_flags_mark_the_goal_the_agent_stands_on():
+    """The goals block has one bit per goal, set exactly on that goal's cell."""
+    model, spec = _model_and_spec(goals=True, cue=False, walls=False, position="none")
+    vec = vector_layout(model, spec.observation.vector)
+    goals = model.layout.sites["goal"]
+    for key in range(model.num_keys):
+        expected = (goals == model.key_cell[key]).astype(np.float32)
+        assert np.array_equal(vec.table[key, vec.blocks["goals"]], expected)

@@ -13,7 +13,8 @@ def grid_table(model: TaskModel, size: int, egocentric: bool = False) -> np.ndar
     """uint8[K, size, size, 8]: for every observation key, the ``size × size`` cells around the
     agent (north up), with channels GRID_CHANNELS: 1 for an open cell, a wall bit per side
     (cells outside the map are closed on every side), the goal's cue value + 1, the shown cue
-    value + 1 at the agent's cell, and 1 at the agent's cell. ``egocentric`` turns the window so
+    value + 1 at the agent's cell, and at the agent's cell 1 (or its heading + 1, north = 1 …
+    west = 4, when it has one). ``egocentric`` turns the window so
     the agent's heading points up (wall bits then mean ahead, right, behind, left)."""
     layout = model.layout
     rows, cols = layout.shape
@@ -33,7 +34,7 @@ def grid_table(model: TaskModel, size: int, egocentric: bool = False) -> np.ndar
     window = index[r, c]                                         # [K, size, size]
     out = per_cell[window]                                       # −1 picks the "outside" row
     out[:, half, half, 6] = np.where(model.key_cue >= 0, model.key_cue + 1, 0)
-    out[:, half, half, 7] = 1
+    out[:, half, half, 7] = np.where(model.key_heading >= 0, model.key_heading + 1, 1)   # heading + 1
     if egocentric:   # turn each window so the agent's heading is up, wall bits turning with it
         for heading in range(4):
             rows = np.flatnonzero(model.key_heading == heading)

@@ -50,6 +50,7 @@ class ObservationSet:
             high = np.full(self.grid.shape[1:], 1, dtype=np.uint8)
             high[..., GRID_CHANNELS.index("goal")] = 255
             high[..., GRID_CHANNELS.index("cue")] = 255
+            high[..., GRID_CHANNELS.index("agent")] = 4
             out["grid"] = spaces.Box(0, high, dtype=np.uint8)
         for name in ("pixels", "first_person"):
             table = getattr(self, name)

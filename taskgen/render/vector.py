@@ -43,6 +43,14 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
         parts.append(("position", (layout.cells[model.key_cell] / scale).astype(np.float32)))
     if spec.walls:
         parts.append(("walls", layout.walls()[model.key_cell].astype(np.float32)))
+    if spec.goals:
+        goal_of = -np.ones(layout.num_cells, dtype=np.int64)
+        goals = layout.sites.get("goal", np.array([], dtype=np.int64))
+        goal_of[goals] = np.arange(goals.size)
+        flags = np.zeros((K, goals.size), dtype=np.float32)
+        on = goal_of[model.key_cell] >= 0
+        flags[np.flatnonzero(on), goal_of[model.key_cell][on]] = 1.0
+        parts.append(("goals", flags))
     if (model.key_heading >= 0).any():      # an agent with a heading sees which way it faces
         parts.append(("heading", np.eye(4, dtype=np.float32)[np.maximum(model.key_heading, 0)]))
     blocks, start = {}, 0

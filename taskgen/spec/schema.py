@@ -207,7 +207,8 @@ class Noise(Strict):
 
 
 class VectorObservation(Strict):
-    """A flat float32 vector made of named blocks, in this order: cue, position, walls, noise."""
+    """A flat float32 vector made of named blocks, in this order: cue, position, walls, goals,
+    heading (with turns), noise."""
 
     cue: bool = Field(default=True, description="One bit per cue value, set while the cue is visible.",
                       examples=[True])
@@ -218,6 +219,8 @@ class VectorObservation(Strict):
     )
     walls: bool = Field(default=True, description="Four bits: a wall to the north, east, south, west.",
                         examples=[True])
+    goals: bool = Field(default=False, description="One bit per goal (arm end), set while the agent "
+                        "stands on it.", examples=[False])
     noise: Noise | None = Field(default=None, description="Distractor noise bits, or null for none.",
                                 examples=[{"bits": 8, "flip_probability": 0.1}])
 
@@ -229,8 +232,8 @@ def _odd(value: Any) -> Any:
 
 
 class GridObservation(Strict):
-    """A north-up window of cells centred on the agent: uint8 channels open, wall north / east /
-    south / west, goal (cue value + 1), cue (shown value + 1, at the agent), agent."""
+    """A window of cells centred on the agent: uint8 channels open, wall north / east / south /
+    west, goal (cue value + 1), cue (shown value + 1, at the agent), agent (1, or heading + 1)."""
 
     size: Annotated[int, BeforeValidator(_odd)] = Field(
         default=5, ge=1, le=31, description="Cells across the (square, odd-sided) window.", examples=[5])
