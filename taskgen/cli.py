@@ -113,6 +113,25 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
                + (f" (the family has {manifest['family_size']:,})" if manifest["family_size"] else ""))
 
 
+@cli.command(name="gallery")
+@click.argument("specs", nargs=-1, required=True, type=click.Path(dir_okay=False))
+@click.option("--out", "-o", required=True, type=click.Path(file_okay=False), help="Folder of the galleries.")
+@click.option("--episodes", "-n", default=2, show_default=True, type=click.IntRange(min=1),
+              help="Episodes per spec.")
+@click.option("--policy", type=click.Choice(["optimal", "random", "chance"]), default="optimal",
+              show_default=True, help="Who plays: optimal (knows the cue), random, or the best memoryless policy.")
+@click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
+              help="Seed of the first episode.")
+@click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
+def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int) -> None:
+    """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
+    from .tools.gallery import gallery
+
+    pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant)
+    for page in pages:
+        click.echo(f"wrote {page}")
+
+
 def _emit(text: str, out: str | None) -> None:
     if out is None:
         click.echo(text, nl=False)

@@ -1,0 +1,104 @@
+"""Galleries: pictures decode, regenerate pixel for pixel, pages link only to files that exist."""
+
+from __future__ import annotations
+
+import re
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PIL import Image
+
+import taskgen
+from taskgen.tools import gallery as gallery_module
+from taskgen.tools.gallery import PER_ROW, gallery
+
+GALLERY = Path(__file__).resolve().parents[1] / "gallery"
+
+
+class _Links(HTMLParser):
+    """Collects href and src attributes (Python's html.parser)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.targets: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.targets += [v for k, v in attrs if k in ("href", "src") and v]
+
+
+def _frames(path: Path) -> list[np.ndarray]:
+    with Image.open(path) as image:
+        out = []
+        for i in range(getattr(image, "n_frames", 1)):
+            image.seek(i)
+            out.append(np.asarray(image.convert("RGB")))
+        return out
+
+
+def test_every_example_has_a_committed_gallery():
+    """gallery/ holds a page for every spec in specs/ (regenerate with the README command)."""
+    assert sorted(p.parent.name for p in GALLERY.glob("*/index.html")) == sorted(taskgen.bundled_specs())
+
+
+@pytest.mark.parametrize("name", sorted(taskgen.bundled_specs()))
+def test_pictures_decode_with_the_expected_frames(name):
+    """Each GIF decodes (Pillow) with one frame per step plus the last; each filmstrip is those
+    frames in rows of eight."""
+    for gif in sorted((GALLERY / name).glob("episode-*.gif")):
+        frames = _frames(gif)
+        strip = Image.open(gif.with_suffix(".png"))
+        w, h = frames[0].shape[1], frames[0].shape[0]
+        rows = -(-len(frames) // PER_ROW)
+        assert strip.size == (w * min(PER_ROW, len(frames)), h * rows)
+        assert len(frames) >= 2
+
+
+def test_regenerating_a_gallery_is_pixel_identical(tmp_path):
+    """Regenerating one committed gallery gives the same pixels in every picture."""
+    gallery([str(taskgen.bundled_specs()["lantern-hall"])], str(tmp_path))
+    for committed in sorted((GALLERY / "lantern-hall").glob("episode-*")):
+        fresh = tmp_path / "lantern-hall" / committed.name
+        a, b = _frames(committed), _frames(fresh)
+        assert len(a) == len(b) and all(np.array_equal(x, y) for x, y in zip(a, b)), committed.name
+
+
+@pytest.mark.parametrize("page", sorted(GALLERY.glob("**/index.html")), ids=lambda p: str(p.relative_to(GALLERY)))
+def test_html_links_exist_and_markdown_names_the_same_files(page):
+    """Every link and image in an HTML page points at an existing file (html.parser), and the
+    Markdown page beside it references the same files."""
+    parser = _Links()
+    parser.feed(page.read_text())
+    assert parser.targets
+    for target in parser.targets:
+        assert (page.parent / target).is_file(), target
+    markdown = (page.parent / "index.md").read_text()
+    md_targets = re.findall(r"\]\(([^)]+)\)", markdown)
+    html_files = {t.replace("index.html", "index.md") for t in parser.targets}
+    assert set(md_targets) == html_files
+
+
+def test_an_interrupted_run_leaves_no_page(tmp_path, monkeypatch):
+    """If an episode fails half-way, no index page is written and no temporary file remains."""
+    real = gallery_module.record
+
+    def failing(spec, variant_seed, policy, episode, seed):
+        if episode == 1:
+            raise KeyboardInterrupt
+        return real(spec, variant_seed, policy, episode, seed)
+
+    monkeypatch.setattr(gallery_module, "record", failing)
+    with pytest.raises(KeyboardInterrupt):
+        gallery([str(taskgen.bundled_specs()["lantern-hall"])], str(tmp_path))
+    folder = tmp_path / "lantern-hall"
+    assert not (folder / "index.html").exists() and not (folder / "index.md").exists()
+    assert not list(tmp_path.glob("**/.*.tmp"))
+
+
+@pytest.mark.parametrize("policy", ["random", "chance"])
+def test_other_policies_record_episodes(policy, tmp_path):
+    """The random and the chance policy play whole episodes too."""
+    spec = taskgen.load_spec(taskgen.bundled_specs()["seed-cache"])
+    episode = gallery_module.record(spec, 0, policy, 0, 0)
+    assert len(episode.frames) == len(episode.labels) >= 2
