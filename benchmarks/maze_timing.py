@@ -14,8 +14,7 @@ import time
 import yaml
 
 import taskgen
-from taskgen.analysis import (best_memoryless, cue_blind_baseline, optimal_baseline, policy_figures,
-                              random_baseline, solvability)
+from taskgen.analysis import (best_memoryless, cue_blind_baseline, optimal_baseline, random_baseline, solvability)
 from taskgen.tools.check import observation_tables
 
 

@@ -8,7 +8,6 @@ import numpy as np
 
 from taskgen import compile_variant, load_spec_text, make_variant
 from taskgen.analysis import analyse, static_leak
-from taskgen.render import vector_layout
 from taskgen.tools.check import observation_tables
 
 from conftest import corridor_spec_text

@@ -7,12 +7,10 @@ import itertools
 import numpy as np
 import pytest
 
-from taskgen.analysis import (analyse, best_memoryless, evaluate, evaluate_memoryless, observation_classes,
-                              optimal_baseline)
-from taskgen.render import vector_layout
+from taskgen.analysis import (analyse, best_memoryless, evaluate, evaluate_memoryless, observation_classes)
 from taskgen.tools.check import observation_tables
 
-from conftest import corridor_model, corridor_spec_text
+from conftest import corridor_spec_text
 from taskgen import compile_variant, load_spec_text, make_variant
 
 

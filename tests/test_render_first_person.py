@@ -12,7 +12,6 @@ from gymnasium.utils.env_checker import check_env
 
 import taskgen
 from taskgen import compile_variant, load_spec_text, make_variant
-from taskgen.render import observation_set
 from taskgen.render.first_person import cast, first_person_table
 from taskgen.render.grid import grid_table
 

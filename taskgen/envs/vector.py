@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from typing import Any, Sequence
 
-import gymnasium as gym
 import numpy as np
 from gymnasium import spaces
 from gymnasium.utils import seeding
@@ -29,7 +28,7 @@ from .streams import add_pixel_noise, categorical, episode_keys, flip_threshold,
 class TaskVectorEnv(VectorEnv):
     """A batch of compiled tasks as a ``gymnasium.vector.VectorEnv`` (autoreset: next step).
 
-    ``variants[i]`` is the (model, vector layout) of environment i; environments may share a
+    ``variants[i]`` is the (model, observation set) of environment i; environments may share a
     variant or each hold their own. Observations, rewards, terminations, truncations, resets and
     infos equal those of ``gymnasium.vector.SyncVectorEnv`` over the matching single envs given
     the same seeds and actions (when variants' blocks differ in width, each block is zero-padded

@@ -68,7 +68,7 @@ def compile_variant(variant: Variant) -> TaskModel:
     n = 0 if by_site else variant.params["visible_steps"]
     turns = spec.agent.actions == "turns"
     cell_of, heading_of, pose_next, start_pose = poses(layout, turns)
-    C, A = cell_of.size, pose_next.shape[1]
+    C = cell_of.size
     T = 2 if by_site else m * n + 1
     P, K = m + 2, k ** m
     done, failed = m, m + 1

@@ -49,11 +49,9 @@ class CheckRun:
             figures = [r.baselines[name] for r in self.reports]
             methods = sorted({b.method for b in figures})
             known = [b for b in figures if b.method != "unavailable"]
-            mean = (lambda key: sum(getattr(b, key) for b in known) / len(known)) if known \
-                else (lambda key: None)
             out[name] = {
-                "success_rate": mean("success_rate"),
-                "mean_return": mean("mean_return"),
+                "success_rate": _mean([b.success_rate for b in known]),
+                "mean_return": _mean([b.mean_return for b in known]),
                 "method": methods[0] if len(methods) == 1 else " + ".join(methods),
                 "policy_class": figures[0].policy_class,
             }
@@ -78,6 +76,11 @@ class CheckRun:
         return {"ok": self.ok, "spec": self.spec.name, "source": self.source, "min_gap": self.min_gap,
                 "baselines": self.summary(), "statistics": self.statistics(),
                 "variants": [r.to_dict() for r in self.reports]}
+
+
+def _mean(values: list[float]) -> float | None:
+    """The mean, or None when no variant has the figure."""
+    return sum(values) / len(values) if values else None
 
 
 def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0) -> CheckRun:
