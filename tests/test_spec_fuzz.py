@@ -25,7 +25,7 @@ EXAMPLE_TEXTS = [p.read_text() for p in taskgen.bundled_specs().values()]
 
 
 def _outcome(text: str) -> str:
-    """Load, compile and step a spec; return 'task', 'spec error' or 'limit', or fail."""
+    """Load, compile and step a spec; return 'task', 'spec error', 'limit' or 'layout', or fail."""
     try:
         spec = taskgen.load_spec_text(text, "fuzz.yaml")
     except taskgen.SpecError as exc:
@@ -42,6 +42,9 @@ def _outcome(text: str) -> str:
     except ResourceLimitError as exc:
         assert "raise it with" in str(exc)
         return "limit"
+    except taskgen.LayoutError as exc:     # a valid spec whose layouts cannot meet their rules
+        assert str(exc).startswith(f"{spec.name}-s0") and "variant seed 0" in str(exc)
+        return "layout"
     env = taskgen.TaskEnv(model, observation_set(model, spec.observation))
     obs, _ = env.reset(seed=0)
     assert env.observation_space.contains(obs)
@@ -68,5 +71,6 @@ def test_random_text(text):
 @FUZZ
 @given(mutated_specs(EXAMPLE_TEXTS))
 def test_mutated_example_specs(text):
-    """Mutations of every example spec (Hypothesis): a task, a located SpecError or a resource cap."""
+    """Mutations of every example spec (Hypothesis): a task, a located SpecError, a resource cap, or
+    a layout error naming the variant and seed."""
     _outcome(text)

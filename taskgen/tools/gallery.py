@@ -78,13 +78,15 @@ def _policy(name: str, model: TaskModel, spec: Spec, seed: int):
     return lambda t, info: int(rng.integers(model.num_actions))
 
 
-def _ground_truth(renderer: TopDownRenderer, model: TaskModel, state: int, font: ImageFont.ImageFont) -> Image.Image:
-    """The whole map with the agent, the true cue and the goals that pay for it outlined."""
+def _ground_truth(renderer: TopDownRenderer, model: TaskModel, state: int, length: int,
+                  font: ImageFont.ImageFont) -> Image.Image:
+    """The whole map with the agent, the true cue (a sequence of ``length`` values) and the goals
+    it names outlined."""
     picture = Image.fromarray(renderer.frame(int(model.obs_key[state])))
     draw = ImageDraw.Draw(picture)
     cue = int(model.hidden[state])
     k = model.cue_values
-    sequence = [(cue // k ** j) % k for j in range(max(1, round(np.log(model.hidden_values) / np.log(k))))]
+    sequence = [(cue // k ** j) % k for j in range(length)]
     goals = model.layout.sites.get("goal", [])
     for value in sequence:
         if value < len(goals):
@@ -116,7 +118,7 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) 
     done = False
     while True:
         agent = _scaled(_agent_view(env, obs, renderer))
-        truth = _scaled(np.asarray(_ground_truth(renderer, model, env._state, font)))
+        truth = _scaled(np.asarray(_ground_truth(renderer, model, env._state, spec.cue.sequence_length, font)))
         action = None if done else choose(t, info)
         shown = bool(model.cue_shown()[env._state])
         text = (f"t={t} " + ("end" if done else model.action_names[action]) +
