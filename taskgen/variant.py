@@ -87,9 +87,11 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     fixed += list(maze.goal_cells or [])
     for r, c in fixed:
         if not (0 <= r < h and 0 <= c < w):
-            raise LayoutError(f"{what}: cell [{r}, {c}] is outside the {w}×{h} maze")
+            raise LayoutError(f"{what} ({w}×{h} {maze.generator} maze, variant seed {seed}): cell [{r}, {c}] "
+                              "is outside the maze")
     if maze.goal_cells is not None and len(maze.goal_cells) != spec.cue.values:
-        raise LayoutError(f"{what}: goal_cells names {len(maze.goal_cells)} cells for {spec.cue.values} cue values")
+        raise LayoutError(f"{what} ({w}×{h} {maze.generator} maze, variant seed {seed}): goal_cells names "
+                          f"{len(maze.goal_cells)} cells for {spec.cue.values} cue values")
     rules = PlacementRules(start=maze.start, goals=spec.cue.values,
                            goals_in_dead_ends=maze.goals_in_dead_ends,
                            goals_hidden_from_start=maze.goals_hidden_from_start,
