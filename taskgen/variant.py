@@ -80,7 +80,8 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
         horizon = int(np.ceil(spec.episode.max_steps_factor * cells))
     n = 0 if spec.cue.display == "site" else spec.cue.visible_steps
     m = spec.cue.sequence_length
-    check_work(what, cells * max(m * n + 1, 2) * (m + 2) * spec.cue.values ** m, 4, max(horizon, 1))
+    # progress 0 … m−1 can be anywhere; the two end states of each goal add little
+    check_work(what, cells * max(m * n + 1, 2) * m * spec.cue.values ** m, 4, max(horizon, 1))
     _check_tables(spec, what, cells, params["height"], params["width"])
     h, w = params["height"], params["width"]
     fixed = [maze.start_cell] if maze.start_cell is not None else []
@@ -138,7 +139,7 @@ def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:
     if horizon == "auto":
         horizon = int(np.ceil(spec.episode.max_steps_factor * longest))
     m = spec.cue.sequence_length
-    check_work(what, cells * (m * n + 1) * (m + 2) * k ** m, 4, max(horizon, 1))
+    check_work(what, cells * (m * n + 1) * m * k ** m, 4, max(horizon, 1))
     rows, cols = max(2 * k - 1, k - 1 + params["width"]), params["length"] + params["arm_length"] + 1
     _check_tables(spec, what, cells, rows, cols)
 

@@ -246,9 +246,8 @@ def best_memoryless(model: TaskModel, observations: ObservationTables | None = N
             best_policy, best_value = policy, value
     return MemorylessResult(
         policy=best_policy, classes=classes, mean_return=best_value, method="search lower bound",
-        detail=f"local search (gain-guided, then one{' and two' if active.size <= pair_limit else ''} "
-        "observations at a "
-        f"time) from {used} starts over {active.size} observations, {evaluated} policies "
+        detail=f"local search (gain-guided, then {'one and two observations' if active.size <= pair_limit else 'one observation'} "
+        f"at a time) from {used} starts over {active.size} observations, {evaluated} policies "
         "evaluated exactly" + (", stopped at the work budget" if evaluated >= allowance else ""),
     )
 
