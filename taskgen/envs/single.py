@@ -63,8 +63,13 @@ class TaskEnv(gym.Env):
         self._distracted = observations.decoy_probability > 0 or observations.lure_probability > 0
         tiles = observations.lure_tiles
         self._tile_count = np.array([0 if tiles is None else tiles.shape[0]])
+        self._vector_only = observations.names == ("vector",) and not self._distracted
 
     def _observation(self) -> Any:
+        if self._vector_only:   # the common case, kept short: it runs on every step
+            if self._bits:
+                return np.concatenate((self._rows[self._state], self._noise[min(self._step, self._horizon)]))
+            return self._rows[self._state].copy()
         parts: dict[str, np.ndarray] = {}
         if self._rows is not None:
             if self._bits:

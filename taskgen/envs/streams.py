@@ -84,13 +84,17 @@ def noise_init(keys: np.ndarray, bits: int) -> np.ndarray:
     return uniform(subkeys(keys, "noise_init"), 0, bits) < 0.5
 
 
-def noise_track(keys: np.ndarray, bits: int, flip_probability: float, horizon: int) -> np.ndarray:
-    """bool[N, horizon+1, bits]: each episode's noise bits at every step, as the batched runtime
-    produces them step by step (uniform at step 0, then ``flips`` at steps 1 … horizon)."""
+def noise_track(keys: np.ndarray, bits: int, flip_probability: float | np.ndarray, horizon: int) -> np.ndarray:
+    """bool[N, horizon+1, bits]: each episode's noise bits at every step (uniform at step 0, then
+    ``flips`` at steps 1 … horizon); the same bits the step-by-step path gives. The flip
+    probability may differ per episode (an array of N)."""
     keys = np.asarray(keys, dtype=np.uint64)
     flip_keys = subkeys(keys, "noise_flip")
     steps = np.arange(1, horizon + 1)
-    flipped = flips(flip_keys[:, None], steps[None, :], bits, flip_threshold(flip_probability))
+    # the same rounding as flip_threshold (half to even), for one probability or one per episode
+    threshold = np.rint(np.asarray(flip_probability, dtype=np.float64) * 65536).astype(np.int64)
+    threshold = np.broadcast_to(threshold, keys.shape)[:, None]
+    flipped = flips(flip_keys[:, None], steps[None, :], bits, threshold)
     track = np.empty((keys.shape[0], horizon + 1, bits), dtype=bool)
     track[:, 0] = noise_init(keys, bits)
     track[:, 1:] = track[:, :1] ^ np.logical_xor.accumulate(flipped, axis=1)

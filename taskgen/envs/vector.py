@@ -145,6 +145,9 @@ class TaskVectorEnv(VectorEnv):
         for name, table in self._per_model.items():
             setattr(self, name, table[self.env_model].copy())
         self._timeout_any = bool(self._per_model["_timeout"].any())
+        if not self._draw:
+            self._variant_ids.flags.writeable = False   # shared by every info dict: read-only
+        self._width = self._table.shape[1]
         self._every = np.ones(self.num_envs, dtype=bool)
         self._every.flags.writeable = False
 
@@ -243,9 +246,13 @@ class TaskVectorEnv(VectorEnv):
         keys = self._obs_key[self._state]
         parts: dict[str, np.ndarray] = {}
         if self._has_vector:
-            rows = self._table[keys]
-            parts["vector"] = rows if not self._bits else \
-                np.concatenate((rows, self._noise.view(np.uint8).astype(np.float32)), axis=1)
+            if self._bits:   # one output array; the bool bits are cast as they are copied in
+                out = np.empty((self.num_envs, self._width + self._bits), dtype=np.float32)
+                out[:, :self._width] = self._table[keys]
+                out[:, self._width:] = self._noise
+                parts["vector"] = out
+            else:
+                parts["vector"] = self._table[keys]
         if self._grid is not None:
             parts["grid"] = self._grid[keys]
         if self._pixels is not None:
@@ -265,7 +272,7 @@ class TaskVectorEnv(VectorEnv):
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
         every = self._every   # every environment has every key: one shared, read-only mask
         return {
-            "variant_id": self._variant_ids.copy(), "_variant_id": every,
+            "variant_id": self._variant_ids.copy() if self._draw else self._variant_ids, "_variant_id": every,
             "step": self._step.copy(), "_step": every,
             "analysis_only": {"cue": self._hidden[self._state], "_cue": every,
                               "state": self._state - self._state_offset, "_state": every},
