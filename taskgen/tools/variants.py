@@ -246,9 +246,15 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
         "spec_sha256": spec_hash(spec),
         "spec": spec_data,
         "request": request.as_dict(),
-        "family_size": family_size(spec),
+        "family_size": _suite_family_size(spec, points),
         "variants": variants,
     }
+
+
+def _suite_family_size(spec: Spec, points: list[dict[str, Any]]) -> int | None:
+    """Distinct layouts over the sweep: the points differ in a swept value, so their families add."""
+    sizes = [family_size(_apply(spec, point, "sweep point")) for point in points]
+    return None if any(size is None for size in sizes) else sum(sizes)
 
 
 def spec_hash(spec: Spec) -> str:
@@ -275,7 +281,8 @@ def _check_holdout_leaves_values(spec: Spec, points: list[dict[str, Any]], key: 
 
 
 def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteRequest) -> None:
-    """Refuse to ask for more unique layouts than the family has, where that is countable."""
+    """Refuse to ask for more unique layouts than the family has, where that is countable
+    (splits are sized per sweep point, so each point's family must hold every split)."""
     wanted = sum(count for _, count in request.splits)
     for point in points:
         size = family_size(_apply(spec, point, "sweep point"))
