@@ -178,3 +178,11 @@ def test_manifest_records_what_it_promises():
         assert {"id", "split", "seed", "params", "fingerprint", "optimal", "chance", "random",
                 "recall_distance"} <= set(v)
     assert manifest_text(manifest).startswith("taskgen_manifest: 1\n")
+
+
+def test_a_manifest_is_not_taken_for_a_spec(tmp_path):
+    """Giving a manifest where a spec is expected says what it is and how to load it."""
+    path = write_manifest(build_suite(taskgen.load_spec(LANTERN), SuiteRequest(splits=(("train", 1),))),
+                          str(tmp_path))
+    out = _cli("check", path)
+    assert out.returncode == 2 and "this is a variant manifest, not a spec" in out.stderr

@@ -39,6 +39,9 @@ def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) 
     path = Path(spec_or_path)
     if not path.exists() and str(spec_or_path) in bundled_specs():
         path = bundled_specs()[str(spec_or_path)]
+    if path.is_file() and is_manifest(path):
+        raise ManifestError(f"{path}: this is a variant manifest, not a spec; load its variants with "
+                            "taskgen.make(manifest, split=..., index=...) or taskgen.make_vec(manifest, n, split=...)")
     return load_spec(path, **overrides)
 
 
