@@ -42,9 +42,9 @@ class Objective:
         return cls(live.astype(np.float64), 1.0, 0.0)
 
 
-def _backup(next_state: np.ndarray, terminal: np.ndarray, objective: Objective,
-            v_next: np.ndarray, last: bool) -> np.ndarray:
-    """Q[s, a] for one step, given the values one step later."""
+def backup(next_state: np.ndarray, terminal: np.ndarray, objective: Objective,
+           v_next: np.ndarray, last: bool) -> np.ndarray:
+    """Q[s, a] for one step, given the values one step later (the last step pays the timeout)."""
     if last:
         tail = np.where(terminal[next_state] | terminal[:, None], 0.0, objective.timeout)
         return objective.reward + tail
@@ -83,7 +83,7 @@ def optimise_tables(next_state: np.ndarray, terminal: np.ndarray, horizon: int,
     live = ~terminal[:, None]
     rows = np.arange(S)
     for t in range(horizon - 1, -1, -1):
-        q = _backup(next_state, terminal, objective, values[t + 1], last=t == horizon - 1)
+        q = backup(next_state, terminal, objective, values[t + 1], last=t == horizon - 1)
         steps = live * (1.0 + lengths[t + 1][next_state])
         choose_q, choose_steps = (q, steps) if shared is None else (shared.pool(q), shared.pool(steps))
         near = choose_q >= choose_q.max(axis=1, keepdims=True) - TIE_TOLERANCE
@@ -110,7 +110,7 @@ def evaluate(model: TaskModel, policy: np.ndarray, objective: Objective | None =
         raise AnalysisError(f"a deterministic policy must have shape (H, S) = {(H, S)}")
     values = np.zeros((H + 1, S))
     for t in range(H - 1, -1, -1):
-        q = _backup(model.next_state, model.terminal, objective, values[t + 1], last=t == H - 1)
+        q = backup(model.next_state, model.terminal, objective, values[t + 1], last=t == H - 1)
         values[t] = (q * policy).sum(axis=1) if stochastic else q[np.arange(S), policy[t]]
     return values
 
@@ -126,7 +126,7 @@ def return_variance(model: TaskModel, policy: np.ndarray) -> float:
     ns, g = model.next_state, model.discount
     for t in range(H - 1, -1, -1):
         if t == H - 1:   # the last step also pays the timeout
-            r, v_next, w_next = _backup(ns, model.terminal, objective, v, last=True), 0.0, 0.0
+            r, v_next, w_next = backup(ns, model.terminal, objective, v, last=True), 0.0, 0.0
         else:
             r, v_next, w_next = model.reward, v[ns], w[ns]
         first = r + g * v_next

@@ -18,6 +18,7 @@ import numpy as np
 from ..errors import AnalysisError
 from ..model import TaskModel
 from .baselines import cue_blind_policy, optimal_policy
+from .dp import Objective, backup
 
 ObservationTables = Mapping[str, tuple[np.ndarray, Mapping[str, slice]]]
 ENUMERATION_BUDGET = 1 << 16
@@ -105,12 +106,9 @@ def proposal_gains(model: TaskModel, classes: np.ndarray, policy: np.ndarray) ->
     # accumulate per state over time, then per observation once (bincount beats add.at)
     advantage = np.zeros((S, A))
     v = np.zeros(S)
+    objective = Objective.task_return(model)
     for t in range(H - 1, -1, -1):
-        ns = model.next_state
-        if t == H - 1:
-            q = model.reward + np.where(model.terminal[ns] | model.terminal[:, None], 0.0, model.timeout_reward)
-        else:
-            q = model.reward + model.discount * v[ns]
+        q = backup(model.next_state, model.terminal, objective, v, last=t == H - 1)
         v = q[rows, act]
         advantage += occupancy[t][:, None] * (q - v[:, None])
     return np.stack([np.bincount(classes, weights=advantage[:, a], minlength=O) for a in range(A)], axis=1)

@@ -11,7 +11,7 @@ from ..model import TaskModel
 from ..render import TopDownRenderer
 from ..render.observations import ObservationSet, assemble
 from .distractors import apply_distractors
-from .streams import add_pixel_noise, categorical, episode_keys, noise_track, stream_from, subkeys, uniform
+from .streams import add_pixel_noise, categorical, next_episode, noise_track, subkeys, uniform
 
 
 class TaskEnv(gym.Env):
@@ -107,11 +107,9 @@ class TaskEnv(gym.Env):
         each later reset starts the stream's next episode (see streams.py).
         """
         super().reset(seed=seed)
-        if seed is not None or self._stream is None:
-            self._stream, self._episode = stream_from(self.np_random), 0
-        else:
-            self._episode += 1
-        return self._start(episode_keys(np.array([self._stream]), np.array([self._episode])))
+        self._stream, self._episode, key = next_episode(self._stream, self._episode, seed is not None,
+                                                        self.np_random)
+        return self._start(key)
 
     def _start(self, key: np.ndarray):
         """Begin the episode whose key is ``key``: draw its cue and noise, return obs and info."""

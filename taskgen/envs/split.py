@@ -19,7 +19,7 @@ from ..render.vector import common_blocks, scatter_index
 from ..spec import Spec, load_spec_text
 from ..variant import make_variant
 from .single import TaskEnv
-from .streams import episode_keys, stream_from, subkeys, uniform
+from .streams import next_episode, subkeys, uniform
 
 MANIFEST_KEY = "taskgen_manifest"
 
@@ -114,11 +114,8 @@ class SplitEnv(gym.Env):
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
         """Draw a variant of the split, then start its episode from the same stream."""
         super().reset(seed=seed)
-        if seed is not None or self._stream is None:
-            self._stream, self._episode = stream_from(self.np_random), 0
-        else:
-            self._episode += 1
-        key = episode_keys(np.array([self._stream]), np.array([self._episode]))
+        self._stream, self._episode, key = next_episode(self._stream, self._episode, seed is not None,
+                                                        self.np_random)
         count = len(self.envs)
         self._current = min(int(uniform(subkeys(key, "variant"))[0] * count), count - 1)
         obs, info = self.envs[self._current]._start(key)

@@ -32,6 +32,17 @@ def stream_from(np_random: np.random.Generator) -> int:
     return int(np_random.integers(0, 2**63 - 1))
 
 
+def next_episode(stream: int | None, episode: int, seeded: bool,
+                 np_random: np.random.Generator) -> tuple[int, int, np.ndarray]:
+    """(stream, episode, key) after a reset: a seeded or first reset draws a new stream from
+    ``np_random`` and starts its episode 0, any other reset starts the stream's next episode."""
+    if seeded or stream is None:
+        stream, episode = stream_from(np_random), 0
+    else:
+        episode += 1
+    return stream, episode, episode_keys(np.array([stream]), np.array([episode]))
+
+
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:
     """uint64 key of each (stream, episode number)."""
     with np.errstate(over="ignore"):

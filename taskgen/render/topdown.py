@@ -30,7 +30,7 @@ class TopDownRenderer:
         wall = max(1, cell_px // 6)
         layout = model.layout
         for cell, (r, c) in enumerate(layout.cells):
-            left, top, right, bottom = self._box(r, c)
+            left, top, right, bottom = self.box(r, c)
             draw.rectangle((left, top, right, bottom), fill=FLOOR)
             sides = ((left, top, right, top + wall - 1), (right - wall + 1, top, right, bottom),
                      (left, bottom - wall + 1, right, bottom), (left, top, left + wall - 1, bottom))
@@ -39,17 +39,18 @@ class TopDownRenderer:
                     draw.rectangle(box, fill=WALL)
         for value, cell in enumerate(layout.sites.get("goal", [])):
             r, c = layout.cells[cell]
-            left, top, right, bottom = self._box(r, c)
+            left, top, right, bottom = self.box(r, c)
             draw.rectangle((left + wall, top + wall, right - wall, bottom - wall), fill=CUE_COLOURS[value])
         for cell in layout.sites.get("cue_site", []) if model.cue_visible_steps == 0 else []:
             r, c = layout.cells[cell]
-            left, top, right, bottom = self._box(r, c)
+            left, top, right, bottom = self.box(r, c)
             mid_x, mid_y, half = (left + right) // 2, (top + bottom) // 2, max(2, cell_px // 4)
             draw.polygon([(mid_x, mid_y - half), (mid_x + half, mid_y), (mid_x, mid_y + half),
                           (mid_x - half, mid_y)], outline=AGENT)
         self.background = np.asarray(image, dtype=np.uint8)
 
-    def _box(self, row: int, col: int) -> tuple[int, int, int, int]:
+    def box(self, row: int, col: int) -> tuple[int, int, int, int]:
+        """Pixel box (left, top, right, bottom) of a grid cell in the full picture."""
         top = (row + 1 + self.lamp_rows) * self.px
         left = (col + 1) * self.px
         return left, top, left + self.px - 1, top + self.px - 1
@@ -62,7 +63,7 @@ class TopDownRenderer:
         if cue >= 0:
             draw.rectangle((0, 0, image.width - 1, self.lamp_rows * self.px - 1), fill=CUE_COLOURS[cue])
         r, c = self.model.layout.cells[self.model.key_cell[key]]
-        left, top, right, bottom = self._box(int(r), int(c))
+        left, top, right, bottom = self.box(int(r), int(c))
         inset = max(1, self.px // 5)
         draw.ellipse((left + inset, top + inset, right - inset, bottom - inset), fill=AGENT)
         return np.asarray(image, dtype=np.uint8)

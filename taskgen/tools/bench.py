@@ -82,12 +82,11 @@ def _raw_numpy_loop(vec: Any, num_envs: int, rng: np.random.Generator) -> Callab
         nonlocal state
         for i in range(steps):
             a = actions[i % ACTION_BLOCK]
-            r = reward[state, a]
+            reward[state, a]          # gathered as a real step does, result unused
             state = next_state[state, a]
             obs[:, :width] = table[keys[state]]
             if bits:
                 obs[:, width:] = rng.random((num_envs, bits)) < p
-        del r
     return run
 
 

@@ -91,7 +91,7 @@ def _ground_truth(renderer: TopDownRenderer, model: TaskModel, state: int, lengt
     for value in sequence:
         if value < len(goals):
             r, c = model.layout.cells[goals[value]]
-            left, top, right, bottom = renderer._box(int(r), int(c))
+            left, top, right, bottom = renderer.box(int(r), int(c))
             draw.rectangle((left - 1, top - 1, right + 1, bottom + 1), outline=AGENT, width=2)
     draw.rectangle((0, 0, picture.width - 1, renderer.lamp_rows * renderer.px - 1), fill=CUE_COLOURS[sequence[0]])
     draw.text((2, 1), f"true cue {'-'.join(map(str, sequence))}", fill=(0, 0, 0), font=font)
