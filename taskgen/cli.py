@@ -15,6 +15,7 @@ from .envs import resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, run_check
 from .tools.bench import format_bench, run_bench
+from .tools.field_check import format_field_text, run_field_check
 from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
@@ -39,20 +40,29 @@ def cli() -> None:
               "(default 2e8, or TASKGEN_MAX_WORK).")
 @click.option("--max-bytes", type=float, help="Cap on one table or picture in bytes (default 512 MiB, "
               "or TASKGEN_MAX_BYTES).")
+@click.option("--paths", default=64, show_default=True, type=click.IntRange(min=2),
+              help="Field specs: hidden paths sampled per variant (figures are exact per path, "
+              "averaged with their standard error).")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
-          max_bytes: float | None) -> None:
+          max_bytes: float | None, paths: int) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, recall distance, cue leaks, carried cues, the memory gap and the
-    optimal, chance (best memoryless), cue-blind and random baselines. Exits 0 when every check
-    passes, 1 when one fails, 2 on a bad spec.
+    optimal, chance (best memoryless), cue-blind and random baselines; for a hidden-path field,
+    solvability, the memory gap and the optimal, chance and random baselines (with the random
+    agent's falls) over sampled paths. Exits 0 when every check passes, 1 when one fails, 2 on
+    a bad spec.
     """
     with limits.raised(max_work, max_bytes):
-        run = run_check(resolve_spec(spec), spec, variants=variants, seed=seed, min_gap=min_gap)
+        loaded = resolve_spec(spec)
+        if loaded.layout.field is not None:
+            run = run_field_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths)
+        else:
+            run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap)
     if as_json:
         click.echo(json.dumps(run.to_dict(), indent=2))
     else:
-        click.echo(format_text(run))
+        click.echo(format_field_text(run) if loaded.layout.field is not None else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
 
 
@@ -118,8 +128,10 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
 @click.option("--out", "-o", required=True, type=click.Path(file_okay=False), help="Folder of the galleries.")
 @click.option("--episodes", "-n", default=2, show_default=True, type=click.IntRange(min=1),
               help="Episodes per spec.")
-@click.option("--policy", type=click.Choice(["optimal", "random", "chance"]), default="optimal",
-              show_default=True, help="Who plays: optimal (knows the cue), random, or the best memoryless policy.")
+@click.option("--policy", type=click.Choice(["auto", "optimal", "random", "chance", "explorer"]), default="auto",
+              show_default=True, help="Who plays: optimal (knows the cue or the path), random, the best "
+              "memoryless policy, or on fields the explorer (remembers its falls); auto: optimal, or the "
+              "explorer on fields.")
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first episode.")
 @click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")

@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
 
 from .errors import LayoutError
 from .generate import GridLayout, corridor_layout
+from .generate.grid import grid_from_cells
+from .generate.paths import FieldFrame, PathShape
 from .generate.maze import backtracker_maze, braid, dead_ends, maze_layout, rooms_maze, wilson_maze
 from .generate.placement import PlacementError, PlacementRules, place
 from .limits import check_bytes, check_work
@@ -52,6 +54,8 @@ def make_variant(spec: Spec, seed: int = 0) -> Variant:
     seed = int(seed)
     if spec.layout.maze is not None:
         return _maze_variant(spec, seed)
+    if spec.layout.field is not None:
+        return _field_variant(spec, seed)
     rng = variant_rng(seed, _PARAMS_STREAM)
     corridor = spec.layout.corridor
     params = {
@@ -128,6 +132,45 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     params["layout_attempt"] = attempt
     params["dead_ends"] = int(dead_ends(passages).size)
     return Variant(spec=spec, seed=seed, params=params, layout=maze_layout(passages, start, goals, cue_site))
+
+
+def field_geometry(params: dict[str, Any]) -> tuple[FieldFrame, PathShape]:
+    """The frame and path shape a field variant's parameters give."""
+    frame = FieldFrame(params["height"], params["width"], params["start_side"])
+    return frame, PathShape(frame.depth, frame.across, params["turns"], params["path_width"], params["start"])
+
+
+def _field_variant(spec: Spec, seed: int) -> Variant:
+    """Draw a field's size and turns; its open layout is fixed, its paths are drawn per episode."""
+    field = spec.layout.field
+    what = f"{spec.name}-s{seed}"
+    rng = variant_rng(seed, _PARAMS_STREAM)
+    params: dict[str, Any] = {"width": field.width.sample(rng), "height": field.height.sample(rng),
+                              "turns": field.path.turns.sample(rng), "path_width": field.path.width,
+                              "start_side": field.path.start_side, "start": field.path.start}
+    frame, shape = field_geometry(params)
+    problem = shape.problem()
+    if problem is not None:
+        raise LayoutError(f"{what} ({params['width']}×{params['height']} field, {params['turns']} turns, "
+                          f"variant seed {seed}): {problem}")
+    rows, cols = params["height"], params["width"]
+    horizon = spec.episode.max_steps
+    if horizon == "auto":
+        horizon = int(np.ceil(spec.episode.max_steps_factor * shape.longest))
+    levels = (field.fall.max_falls or 0) + 1
+    check_work(what, rows * cols * levels, 4, max(horizon, 1))
+    obs = spec.observation
+    cells = rows * cols
+    if obs.vector is not None:
+        check_bytes(f"{what}: the vector table", cells * (2 * cells + 4) * 4)
+    if obs.pixels is not None:
+        check_bytes(f"{what}: the pixel table", cells * obs.pixels.height * obs.pixels.width * 3)
+    check_bytes(f"{what}: a top-down picture", (rows + 3) * (cols + 2) * 12 * 12 * 3)
+    index = frame.cell_index()
+    layout = grid_from_cells((rows, cols), [(r, c) for r in range(rows) for c in range(cols)], (0, 0), {})
+    sides = {"start_side": index[0], "far_side": index[-1]}
+    layout = replace(layout, start=int(index[0, 0]), sites=sides)
+    return Variant(spec=spec, seed=seed, params=params, layout=layout)
 
 
 def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:

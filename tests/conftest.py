@@ -34,6 +34,39 @@ def corridor_model(seed: int = 0, **fields: Any):
     return compile_variant(make_variant(spec, seed))
 
 
+def _is_field(path) -> bool:
+    return "field" in (yaml.safe_load(open(path)).get("layout") or {})
+
+
+#: Bundled examples with a cue (corridors and mazes) and hidden-path fields.
+CUE_SPECS = sorted(name for name, path in bundled_specs().items() if not _is_field(path))
+FIELD_SPECS = sorted(name for name, path in bundled_specs().items() if _is_field(path))
+
+
+def field_spec_text(width: Any = 3, height: Any = 4, turns: Any = 0, start: str = "middle",
+                    fall: dict | None = None, mark: Any = "default", rewards: dict | None = None,
+                    episode: dict | None = None, observation: dict | None = None,
+                    path: dict | None = None) -> str:
+    """YAML text of a hidden-path field spec with the given fields."""
+    field: dict[str, Any] = {"width": width, "height": height,
+                             "path": {"turns": turns, "start": start, **(path or {})}}
+    if fall is not None:
+        field["fall"] = fall
+    if mark != "default":
+        field["mark"] = mark
+    doc: dict[str, Any] = {"format_version": 1, "name": "test-field", "layout": {"field": field}}
+    for key, value in (("rewards", rewards), ("episode", episode), ("observation", observation)):
+        if value is not None:
+            doc[key] = value
+    return yaml.safe_dump(doc, sort_keys=False)
+
+
+def field_model(seed: int = 0, **fields: Any):
+    """Compiled FieldModel of a field spec (see field_spec_text for the fields)."""
+    from taskgen.model import compile_field
+    return compile_field(make_variant(load_spec_text(field_spec_text(**fields)), seed))
+
+
 @pytest.fixture(params=sorted(bundled_specs()), ids=str)
 def example_spec(request) -> str:
     """Path of each bundled example spec."""

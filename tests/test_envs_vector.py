@@ -21,8 +21,9 @@ def _assert_same(ours, theirs, where):
     oi, ti = ours[4], theirs[4]
     assert list(oi["variant_id"]) == list(ti["variant_id"]), where
     assert np.array_equal(oi["step"], ti["step"]), where
-    for key in ("cue", "state"):
-        assert np.array_equal(oi["analysis_only"][key], ti["analysis_only"][key]), (where, key)
+    assert set(oi["analysis_only"]) == set(ti["analysis_only"]), where
+    for key, value in oi["analysis_only"].items():
+        assert np.array_equal(value, ti["analysis_only"][key]), (where, key)
 
 
 def _compare(spec_name, variants, reset_seed, steps=STEPS):

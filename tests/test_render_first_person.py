@@ -15,6 +15,8 @@ from taskgen import compile_variant, load_spec_text, make_variant
 from taskgen.render.first_person import cast, first_person_table
 from taskgen.render.grid import grid_table
 
+from conftest import CUE_SPECS
+
 
 def _room(size=9, start=(4, 1), height=60):
     """An empty square room: a rooms maze whose only room is the whole maze."""
@@ -82,7 +84,7 @@ def test_egocentric_grid_turns_with_the_agent():
         assert ego[key, 1, 1, 1] == north_up[key, 1, 1, 1 + heading]   # "wall ahead" bit
 
 
-@pytest.mark.parametrize("spec_name", sorted(taskgen.bundled_specs()))
+@pytest.mark.parametrize("spec_name", CUE_SPECS)
 def test_first_person_envs_pass_the_checker_and_batch_equally(spec_name):
     """Every example runs with turns and a first-person view: gymnasium's checker passes, and the
     batch equals a SyncVectorEnv of single envs."""

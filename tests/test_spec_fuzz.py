@@ -14,7 +14,6 @@ from hypothesis import strategies as st
 
 import taskgen
 from taskgen.limits import ResourceLimitError
-from taskgen.render import observation_set
 
 from strategies import documents, mutated_specs
 
@@ -38,14 +37,13 @@ def _outcome(text: str) -> str:
             assert error.location.field or "YAML" in error.expected or "key" in error.expected, str(error)
         return "spec error"
     try:
-        model = taskgen.compile_variant(taskgen.make_variant(spec, 0))
+        env = taskgen.make(spec)
     except ResourceLimitError as exc:
         assert "raise it with" in str(exc)
         return "limit"
     except taskgen.LayoutError as exc:     # a valid spec whose layouts cannot meet their rules
         assert str(exc).startswith(f"{spec.name}-s0") and "variant seed 0" in str(exc)
         return "layout"
-    env = taskgen.TaskEnv(model, observation_set(model, spec.observation))
     obs, _ = env.reset(seed=0)
     assert env.observation_space.contains(obs)
     for a in range(8):

@@ -30,6 +30,9 @@ def test_minimal_spec_gets_defaults():
 
 # Exact messages: the template "file:line:col: field: expected ..., got ..." (common practice,
 # the compiler-style location prefix that editors and terminals turn into links).
+FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\n"
+
+
 @pytest.mark.parametrize("text, message", [
     (GOOD.replace("length: 4", "length: -3"),
      "x.yaml:5:13: layout.corridor.length: expected an integer ≥ 0, got -3"),
@@ -59,13 +62,29 @@ def test_minimal_spec_gets_defaults():
     (GOOD.replace("name: tiny", "name: Tiny Task"),
      "x.yaml:2:7: name: expected lower-case letters, digits and dashes (at most 63), got 'Tiny Task'"),
     (GOOD.replace("    length: 4\n", ""),
-     "x.yaml:4:3: layout: expected exactly one of corridor, maze, got neither"),
+     "x.yaml:4:3: layout: expected exactly one of corridor, maze, field, got neither"),
     (GOOD.replace("cue:\n  values: 2\n", ""),
      "x.yaml:1:1: cue: expected this required key, got none"),
     ("format_version: 1\nname: [unclosed\n",
      "x.yaml:3:1: expected valid YAML, got expected ',' or ']', but got '<stream end>'"),
     (GOOD + "cue: {values: 3}\n",
      "x.yaml:8:1: cue: expected each key once (first given at line 6), got a duplicate key"),
+    (FIELD + "cue: {values: 2}\n",
+     "x.yaml:5:6: cue: expected no cue block with a field layout (the hidden path is what the agent must "
+     "remember), got a cue block"),
+    (FIELD + "observation: {grid: {size: 3}}\n",
+     "x.yaml:5:21: observation.grid: expected observation.vector and/or observation.pixels with a field "
+     "layout, got observation.grid"),
+    (FIELD + "rewards: {wrong: -1}\n",
+     "x.yaml:5:18: rewards.wrong: expected no rewards.wrong or rewards.per_goal with a field layout (a fall "
+     "pays rewards.fall), got rewards.wrong"),
+    (FIELD.replace("height: 5", "height: 5, mark: {steps: 0}"),
+     "x.yaml:4:46: layout.field.mark.steps: expected an integer ≥ 1 or 'episode', got 0"),
+    (FIELD.replace("height: 5", "height: 5, path: {width: 9}"),
+     "x.yaml:4:46: layout.field.path.width: expected an integer ≤ 4, got 9"),
+    (GOOD + "observation: {first_person: {}}\n",
+     "x.yaml:1:1: agent.actions: expected agent.actions 'turns' for a first-person or egocentric view, "
+     "got 'moves'"),
     ("- 1\n- 2\n", "x.yaml:1:1: expected a YAML mapping at the top level, got a list"),
     ("", "x.yaml:1:1: expected a YAML mapping, got an empty document"),
 ])

@@ -102,3 +102,28 @@ def test_other_policies_record_episodes(policy, tmp_path):
     spec = taskgen.load_spec(taskgen.bundled_specs()["seed-cache"])
     episode = gallery_module.record(spec, 0, policy, 0, 0)
     assert len(episode.frames) == len(episode.labels) >= 2
+
+
+@pytest.mark.parametrize("observation", [None, {"vector": None, "pixels": {"height": 48, "width": 40}}],
+                         ids=["drawn view", "pixels"])
+def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
+    """In every frame of a field episode, the agent's view (left) holds no pixel of the path's
+    colours while the ground truth (right) does; marks appear in the agent's view after a fall."""
+    from taskgen.render.palette import MARK, PATH, PATH_END
+    from conftest import field_spec_text
+    spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, start="random", mark={"steps": 4},
+                                                  observation=observation, rewards={"fall": -0.1}))
+    episode = gallery_module.record(spec, 0, "explorer", 0, 3)
+    first = np.asarray(episode.frames[0])
+    truth_width = np.asarray(gallery_module._scaled(gallery_module.FieldPictures(
+        taskgen.build_model(spec)).agent(0, np.zeros(30, dtype=bool)))).shape[1]
+    split = first.shape[1] - truth_width - 4
+    marked = 0
+    for frame in episode.frames:
+        pixels = np.asarray(frame)[:gallery_module.VIEW_HEIGHT]
+        agent, truth = pixels[:, :split], pixels[:, split + 4:]
+        for colour in (PATH, PATH_END):
+            assert not (agent == colour).all(axis=2).any()
+        assert (truth == PATH).all(axis=2).any()
+        marked += bool((agent == MARK).all(axis=2).any())
+    assert marked > 0 and episode.success

@@ -1,8 +1,9 @@
 """Stage 5b of the pipeline: Gymnasium runtimes over the compiled model."""
 
-from .factory import build_model, bundled_specs, make, make_vec, register_bundled, resolve_spec
+from .field import FieldEnv, FieldVectorEnv
+from .factory import build_field, build_model, bundled_specs, make, make_vec, register_bundled, resolve_spec
 from .single import TaskEnv
 from .vector import TaskVectorEnv
 
-__all__ = ["TaskEnv", "TaskVectorEnv", "build_model", "bundled_specs", "make", "make_vec", "register_bundled",
+__all__ = ["FieldEnv", "FieldVectorEnv", "TaskEnv", "build_field", "TaskVectorEnv", "build_model", "bundled_specs", "make", "make_vec", "register_bundled",
            "resolve_spec"]

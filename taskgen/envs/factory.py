@@ -9,10 +9,13 @@ from typing import Any, Sequence
 import gymnasium as gym
 import yaml
 
-from ..model import TaskModel, compile_variant
+from ..model import FieldModel, TaskModel, compile_field, compile_variant
 from ..render import observation_set
+from ..render.field import MarkOverlay, field_observation_set
+from ..render.observations import ObservationSet
 from ..spec import Spec, load_spec, load_spec_text
 from ..variant import make_variant
+from .field import FieldEnv, FieldVectorEnv
 from .single import TaskEnv
 from .split import ManifestError, SplitEnv, entry_model, is_manifest, load_manifest, manifest_variants, split_entries
 from .vector import TaskVectorEnv
@@ -46,10 +49,19 @@ def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) 
 
 
 def build_model(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
-                **overrides: Any) -> TaskModel:
-    """Spec → variant (``seed``, default 0) → compiled model, in one call."""
+                **overrides: Any) -> TaskModel | FieldModel:
+    """Spec → variant (``seed``, default 0) → compiled model, in one call (a FieldModel for a
+    field spec: its dynamics for every path; ``path_model`` gives one path's TaskModel)."""
     spec = resolve_spec(spec_or_path, **overrides)
-    return compile_variant(make_variant(spec, 0 if seed is None else seed))
+    variant = make_variant(spec, 0 if seed is None else seed)
+    return compile_field(variant) if spec.layout.field is not None else compile_variant(variant)
+
+
+def build_field(spec: Spec, seed: int = 0) -> tuple[FieldModel, ObservationSet, MarkOverlay]:
+    """A field spec's variant ``seed`` compiled, with its agent-view tables and mark overlay."""
+    model = compile_field(make_variant(spec, seed))
+    observations, overlay = field_observation_set(model, spec.observation)
+    return model, observations, overlay
 
 
 def _manifest_path(spec_or_path: Any) -> str | None:
@@ -60,7 +72,7 @@ def _manifest_path(spec_or_path: Any) -> str | None:
 
 def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
          render_mode: str | None = None, split: str | None = None, index: int | None = None,
-         **overrides: Any) -> TaskEnv | SplitEnv:
+         **overrides: Any) -> TaskEnv | SplitEnv | FieldEnv:
     """A ``gymnasium.Env`` for one variant of a spec, or from a variant manifest.
 
     ``seed`` names the variant (its sampled parameters and layout; None means variant 0);
@@ -88,13 +100,15 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
     if split is not None or index is not None:
         raise ManifestError("split= and index= need a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
+    if spec.layout.field is not None:
+        return FieldEnv(*build_field(spec, 0 if seed is None else seed), render_mode=render_mode)
     model = compile_variant(make_variant(spec, 0 if seed is None else seed))
     return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
 
 
 def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: int | None = None,
              variants: Sequence[int] | None = None, render_mode: str | None = None, split: str | None = None,
-             **overrides: Any) -> TaskVectorEnv:
+             **overrides: Any) -> TaskVectorEnv | FieldVectorEnv:
     """A ``gymnasium.vector.VectorEnv`` of ``num_envs`` environments stepped together in numpy.
 
     All environments hold the variant ``seed`` (None: variant 0), or environment i holds variant
@@ -113,6 +127,11 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     if split is not None:
         raise ManifestError("split= needs a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
+    if spec.layout.field is not None:
+        if variants is not None and len(set(variants)) > 1:
+            raise ValueError("a batch of a field spec holds one variant: give seed=, not several variants")
+        field_seed = variants[0] if variants else (0 if seed is None else seed)
+        return FieldVectorEnv(*build_field(spec, field_seed), num_envs=num_envs, render_mode=render_mode)
     if variants is None:
         variants = [0 if seed is None else seed] * num_envs
     elif seed is not None:

@@ -9,13 +9,17 @@ Flood, "Fast splittable pseudorandom number generators", OOPSLA 2014) applied to
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
+from gymnasium.utils import seeding
 
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _STEP = np.uint64(0xD1B54A32D192ED03)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
-_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5, "distractor": 6}
+_PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5, "distractor": 6,
+            "path": 7}
 _TO_UNIT = 1.0 / (1 << 53)
 
 
@@ -41,6 +45,32 @@ def next_episode(stream: int | None, episode: int, seeded: bool,
     else:
         episode += 1
     return stream, episode, episode_keys(np.array([stream]), np.array([episode]))
+
+
+def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.Generator | None],
+                      streams: np.ndarray, episodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(episodes, keys) of a batched reset; ``seed`` is None, an int (env i gets seed + i) or a
+    list. A seeded env (or one never seeded) draws a new stream from its generator and starts
+    at episode 0; the others go on to their stream's next episode. Updates ``seeded``,
+    ``generators`` and ``streams`` in place, as N single envs' resets would."""
+    n = seeded.shape[0]
+    if seed is None:
+        seeds: list[int | None] = [None] * n
+    elif isinstance(seed, (int, np.integer)):
+        seeds = [int(seed) + i for i in range(n)]
+    else:
+        seeds = list(seed)
+        if len(seeds) != n:
+            raise ValueError(f"reset needs {n} seeds, got {len(seeds)}")
+    fresh = np.zeros(n, dtype=bool)
+    for i, s in enumerate(seeds):   # once per reset call, not per step
+        if s is not None or not seeded[i]:
+            if s is not None or generators[i] is None:
+                generators[i], _ = seeding.np_random(s)
+            streams[i] = stream_from(generators[i])
+            seeded[i] = fresh[i] = True
+    episodes = np.where(fresh, 0, episodes + 1)
+    return episodes, episode_keys(streams, episodes)
 
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:

@@ -13,7 +13,6 @@ from typing import Any, Sequence
 
 import numpy as np
 from gymnasium import spaces
-from gymnasium.utils import seeding
 from gymnasium.vector import AutoresetMode, VectorEnv
 from gymnasium.vector.utils import batch_space
 
@@ -22,7 +21,8 @@ from ..render import TopDownRenderer
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .distractors import apply_distractors
-from .streams import add_pixel_noise, categorical, episode_keys, flip_threshold, flips, noise_init, stream_from, subkeys, uniform
+from .streams import (add_pixel_noise, categorical, episode_keys, flip_threshold, flips, noise_init, subkeys, uniform,
+                      vector_reset_keys)
 
 
 class TaskVectorEnv(VectorEnv):
@@ -177,24 +177,8 @@ class TaskVectorEnv(VectorEnv):
 
     def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
         """Reset every environment; ``seed`` is None, an int (env i gets seed + i) or a list."""
-        if seed is None:
-            seeds: list[int | None] = [None] * self.num_envs
-        elif isinstance(seed, (int, np.integer)):
-            seeds = [int(seed) + i for i in range(self.num_envs)]
-        else:
-            seeds = list(seed)
-            if len(seeds) != self.num_envs:
-                raise ValueError(f"reset needs {self.num_envs} seeds, got {len(seeds)}")
-        # Seeding happens once per reset call, not per step: draw each seeded env's stream.
-        fresh = np.zeros(self.num_envs, dtype=bool)
-        for i, s in enumerate(seeds):
-            if s is not None or not self._seeded[i]:
-                if s is not None or self._generators[i] is None:
-                    self._generators[i], _ = seeding.np_random(s)
-                self._streams[i] = stream_from(self._generators[i])
-                self._seeded[i] = fresh[i] = True
-        self._episodes = np.where(fresh, 0, self._episodes + 1)
-        self._keys = episode_keys(self._streams, self._episodes)
+        self._episodes, self._keys = vector_reset_keys(seed, self._seeded, self._generators, self._streams,
+                                                       self._episodes)
         self._begin(np.ones(self.num_envs, dtype=bool))
         self._autoreset[:] = False
         return self._observe(), self._infos()

@@ -21,6 +21,11 @@ CUE_COLOURS: tuple[tuple[int, int, int], ...] = (
 FLOOR = (20, 20, 28)
 WALL = (150, 150, 160)
 AGENT = (255, 255, 255)
+# hidden-path fields have no cue colours: a mark is vermillion in the agent's view; the path
+# (bluish green) and its end (yellow) appear only in ground-truth pictures
+MARK = (213, 94, 0)
+PATH = (0, 158, 115)
+PATH_END = (240, 228, 66)
 
 
 def relative_luminance(rgb: tuple[int, int, int]) -> float:

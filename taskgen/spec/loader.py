@@ -184,6 +184,9 @@ def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
     if kind == "missing":
         return SpecError(pos.locate(path, field), "expected this required key", "none")
     if kind == "taskgen_expected":
+        if ctx.get("at"):   # a rule over several fields names the one at fault
+            path = path + tuple(ctx["at"].split("."))
+            field = _dotted(path)
         return SpecError(pos.locate(path, field), f"expected {ctx['expected']}", ctx["found"])
     bounds = {"greater_than_equal": "≥", "greater_than": ">", "less_than_equal": "≤", "less_than": "<"}
     if kind in bounds:

@@ -8,7 +8,8 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, model_validator
+from pydantic import (BaseModel, BeforeValidator, ConfigDict, Field, ValidationInfo, WithJsonSchema, field_validator,
+                      model_validator)
 from pydantic_core import PydanticCustomError
 
 from .params import IntParam, expected_error, int_param
@@ -16,6 +17,13 @@ from .params import IntParam, expected_error, int_param
 FORMAT_VERSION = 1
 MAX_CUE_VALUES = 8
 MAX_REWARD = 1e6   # larger magnitudes only lose precision in the analyses' sums
+
+
+def _refuse(at: str, expected: str, found: str) -> None:
+    """Raise a rule's error in taskgen's template; ``at`` (dotted, relative to the model that
+    checks the rule) names the field at fault for the loader to locate, "" the model itself."""
+    raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
+                              {"expected": expected, "found": found, "at": at})
 
 
 class Strict(BaseModel):
@@ -94,6 +102,73 @@ class Maze(Strict):
         "held at least that long).", examples=[0, 4])
 
 
+MAX_FIELD_SIDE = 31
+SIDES = ("north", "east", "south", "west")
+
+
+class HiddenPath(Strict):
+    """The safe path across a field, drawn afresh at every reset from the episode's seed and never
+    shown to the agent. It runs from a cell on ``start_side`` to the opposite side, always
+    moving away from the start side or along it (so it never crosses itself)."""
+
+    start_side: Literal["north", "east", "south", "west"] = Field(
+        default="south", description="The side the path starts on; it ends on the opposite side.",
+        examples=["south"])
+    start: Literal["random", "middle"] = Field(
+        default="random", description="random: the start cell is drawn along the start side each "
+        "episode; middle: it is the middle cell of that side in every episode.", examples=["random"])
+    turns: int_param(0, 2 * MAX_FIELD_SIDE) = Field(  # type: ignore[valid-type]
+        default=IntParam(0, 0), json_schema_extra={"default": 0},
+        description="Direction changes along the path: 0 is a straight path; an odd number ends "
+        "with a run along the far side. An integer, {range: [low, high]} or {choice: [...]}, drawn "
+        "per variant (the path itself is drawn per episode).", examples=[0, 2, {"range": [2, 4]}])
+    width: int = Field(default=1, ge=1, le=4, description="Cells across the path.", examples=[1, 2])
+
+
+class Fall(Strict):
+    """What stepping off the hidden path does (it pays rewards.fall)."""
+
+    to: Literal["start", "stay"] = Field(
+        default="start", description="start: the agent is sent back to the path's start cell; stay: "
+        "it stays on the path cell it stepped from.", examples=["start"])
+    max_falls: int | None = Field(
+        default=None, ge=1, le=64, description="The fall that reaches this count ends the episode "
+        "(a failure); null: falls never end it.", examples=[None, 5])
+
+
+def _mark_steps(value: Any) -> Any:
+    if value == "episode" or (isinstance(value, int) and not isinstance(value, bool) and value >= 1):
+        return value
+    raise expected_error("an integer ≥ 1 or 'episode'", value)
+
+
+class Mark(Strict):
+    """A feedback mark on the cell where the agent stepped off: a bit of the vector's marks block
+    and a tile in the mark colour in top-down pixels."""
+
+    steps: Annotated[
+        Union[int, Literal["episode"]], BeforeValidator(_mark_steps),
+        WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1}, {"const": "episode"}]}),
+    ] = Field(default="episode", description="How many observations the mark is part of, the one "
+              "right after the fall included; 'episode': until the episode ends.", examples=[3, "episode"])
+
+
+class FieldLayout(Strict):
+    """An open field of width × height cells with a hidden safe path across it."""
+
+    width: int_param(1, MAX_FIELD_SIDE) = Field(  # type: ignore[valid-type]
+        description="Cells across (west to east); an integer, {range: [low, high]} or {choice: [...]}, "
+        "drawn per variant.", examples=[5, {"range": [4, 6]}])
+    height: int_param(1, MAX_FIELD_SIDE) = Field(  # type: ignore[valid-type]
+        description="Cells down (north to south); like width.", examples=[6])
+    path: HiddenPath = Field(default_factory=HiddenPath, description="The hidden safe path.",
+                             examples=[{"start_side": "south", "turns": 2}])
+    fall: Fall = Field(default_factory=Fall, description="What stepping off the path does.",
+                       examples=[{"to": "start", "max_falls": None}])
+    mark: Mark | None = Field(default_factory=Mark, description="The feedback mark, or null for none.",
+                              examples=[{"steps": 4}, None])
+
+
 class Layout(Strict):
     """Where the agent walks: exactly one layout family."""
 
@@ -101,20 +176,22 @@ class Layout(Strict):
                                       "cue value.", examples=[{"length": 8, "arm_length": 2}])
     maze: Maze | None = Field(default=None, description="A procedural maze with one goal per cue value.",
                               examples=[{"width": 7, "height": 7, "goals_in_dead_ends": True}])
+    field: FieldLayout | None = Field(
+        default=None, description="An open field crossed on a hidden path (no cue: the path is what "
+        "the agent must learn and remember within an episode).",
+        examples=[{"width": 5, "height": 6, "path": {"turns": 2}}])
 
     @model_validator(mode="after")
     def _one_family(self) -> "Layout":
-        given = [name for name in ("corridor", "maze") if getattr(self, name) is not None]
+        given = [name for name in ("corridor", "maze", "field") if getattr(self, name) is not None]
         if len(given) != 1:
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "exactly one of corridor, maze",
-                                       "found": " and ".join(given) if given else "neither"})
+            _refuse("", "exactly one of corridor, maze, field", " and ".join(given) if given else "neither")
         return self
 
     @property
     def family(self) -> str:
         """The layout family's name."""
-        return "corridor" if self.corridor is not None else "maze"
+        return "corridor" if self.corridor is not None else "maze" if self.maze is not None else "field"
 
 
 class Decision(Strict):
@@ -166,6 +243,9 @@ class Rewards(Strict):
         default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Added on the step that reaches the step limit without ending.",
         examples=[-0.5],
     )
+    fall: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD,
+                        description="Stepping off a field's hidden path (field layouts only; there "
+                        "'correct' pays for reaching the path's end).", examples=[-0.1])
 
 
 def _max_steps(value: Any) -> Any:
@@ -208,7 +288,7 @@ class Noise(Strict):
 
 class VectorObservation(Strict):
     """A flat float32 vector made of named blocks, in this order: cue, position, walls, goals,
-    heading (with turns), noise."""
+    heading (with turns), marks (fields), noise."""
 
     cue: bool = Field(default=True, description="One bit per cue value, set while the cue is visible.",
                       examples=[True])
@@ -221,6 +301,8 @@ class VectorObservation(Strict):
                         examples=[True])
     goals: bool = Field(default=False, description="One bit per goal (arm end), set while the agent "
                         "stands on it.", examples=[False])
+    marks: bool = Field(default=True, description="Field layouts with a mark: one bit per cell, set "
+                        "while a feedback mark shows there.", examples=[True])
     noise: Noise | None = Field(default=None, description="Distractor noise bits, or null for none.",
                                 examples=[{"bits": 8, "flip_probability": 0.1}])
 
@@ -307,9 +389,7 @@ class Observation(Strict):
     @model_validator(mode="after")
     def _something(self) -> "Observation":
         if not self.modalities():
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "at least one of vector, grid, pixels, first_person",
-                                       "found": "none"})
+            _refuse("", "at least one of vector, grid, pixels, first_person", "none")
         return self
 
     def modalities(self) -> list[str]:
@@ -331,25 +411,46 @@ class Spec(Strict):
 
     @model_validator(mode="after")
     def _sequences_match(self) -> "Spec":
+        if self.layout.field is not None:
+            return self._field_rules()
         obs = self.observation
         needs_heading = obs.first_person is not None or (obs.grid is not None and obs.grid.frame == "egocentric")
         if needs_heading and self.agent.actions != "turns":
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "agent.actions 'turns' for a first-person or egocentric view",
-                                       "found": repr(self.agent.actions)})
+            _refuse("agent.actions", "agent.actions 'turns' for a first-person or egocentric view",
+                    repr(self.agent.actions))
         goals = self.rewards.per_goal
         if goals is not None and len(goals) != self.cue.values:
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": f"rewards.per_goal with one reward per cue value ({self.cue.values})",
-                                       "found": f"{len(goals)}"})
+            _refuse("rewards.per_goal", f"rewards.per_goal with one reward per cue value ({self.cue.values})",
+                    str(len(goals)))
         if self.cue.sequence_length > 1 and self.decision.rule != "match":
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "decision.rule 'match' with a cue sequence",
-                                       "found": repr(self.decision.rule)})
+            _refuse("decision.rule", "decision.rule 'match' with a cue sequence", repr(self.decision.rule))
         if self.cue.sequence_length > 1 and self.cue.display != "start":
-            raise PydanticCustomError("taskgen_expected", "expected {expected}, got {found}",
-                                      {"expected": "cue.display 'start' with a cue sequence",
-                                       "found": repr(self.cue.display)})
+            _refuse("cue.display", "cue.display 'start' with a cue sequence", repr(self.cue.display))
+        return self
+
+    def _field_rules(self) -> "Spec":
+        """A field has no cue: the hidden path is what is remembered, so cue-only parts are refused."""
+        if self.cue is not None:
+            _refuse("cue", "no cue block with a field layout (the hidden path is what the agent must "
+                    "remember)", "a cue block")
+        if "decision" in self.model_fields_set:
+            _refuse("decision", "no decision block with a field layout (reaching the path's end pays "
+                    "rewards.correct)", "a decision block")
+        for name in ("wrong", "per_goal"):
+            if name in self.rewards.model_fields_set:
+                _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a fall "
+                        "pays rewards.fall)", f"rewards.{name}")
+        obs = self.observation
+        for name in ("grid", "first_person"):
+            if getattr(obs, name) is not None:
+                _refuse(f"observation.{name}", "observation.vector and/or observation.pixels with a field "
+                        "layout", f"observation.{name}")
+        if self.agent.actions != "moves":
+            _refuse("agent.actions", "agent.actions 'moves' with a field layout", repr(self.agent.actions))
+        for name in ("decoy_probability", "lure_probability"):
+            if getattr(obs.distractors, name) > 0:
+                _refuse(f"observation.distractors.{name}", "no decoys or lures with a field layout (there is "
+                        "no cue to imitate)", repr(getattr(obs.distractors, name)))
         return self
 
     format_version: Literal[1] = Field(
@@ -364,7 +465,17 @@ class Spec(Strict):
                              examples=["Two-arm recall after a hall of 6 to 12 steps."])
     layout: Layout = Field(description="The layout family and its parameters.",
                            examples=[{"corridor": {"length": 8}}])
-    cue: Cue = Field(description="The cue to remember.", examples=[{"values": 2, "visible_steps": 1}])
+    cue: Cue | None = Field(default=None, validate_default=True, description="The cue to remember (required by corridor and "
+                            "maze layouts; a field has none).", examples=[{"values": 2, "visible_steps": 1}])
+
+    @field_validator("cue", mode="after")
+    @classmethod
+    def _cue_given(cls, cue: Cue | None, info: ValidationInfo) -> Cue | None:
+        layout = info.data.get("layout")
+        if cue is None and layout is not None and layout.field is None:
+            raise PydanticCustomError("missing", "a corridor or maze needs a cue")
+        return cue
+
     decision: Decision = Field(default_factory=Decision, description="How the cue decides which goal pays.",
                                examples=[{"rule": "non_match", "wrong": "end"}])
     agent: Agent = Field(default_factory=Agent, description="The agent's actions (moves or turns).",

@@ -23,21 +23,38 @@ from PIL import Image, ImageDraw, ImageFont
 from tqdm import tqdm
 
 from ..analysis import best_memoryless, optimal_policy
-from ..envs import TaskEnv, resolve_spec
+from ..analysis.field_policies import Explorer, MemorylessRollout, best_memoryless_paths
+from ..analysis.fields import FieldReport, sample_paths
+from ..envs import FieldEnv, TaskEnv, build_field, resolve_spec
 from ..model import TaskModel, compile_variant
 from ..render import TopDownRenderer, observation_set
+from ..render.field import FieldPictures, marks_seen, view_classes
 from ..render.palette import AGENT, CUE_COLOURS
 from ..spec import Spec
 from ..variant import make_variant
 from .check import check_variant, observation_tables
+from .field_check import FIELD_BASELINES, check_field_variant
 from .output import child_path, write_text_atomic
 
-POLICIES = ("optimal", "random", "chance")
+POLICIES = ("auto", "optimal", "random", "chance", "explorer")
 POLICY_WORDS = {
     "optimal": "the optimal agent, which knows the hidden cue (an analysis policy, not a learner)",
     "random": "uniform-random actions",
     "chance": "the best memoryless policy found (acts on the current observation only)",
 }
+FIELD_POLICY_WORDS = {**POLICY_WORDS,
+                      "optimal": "the optimal agent, which knows the hidden path (an analysis policy, not a learner)",
+                      "explorer": "the explorer, which remembers where it fell but does not know the path"}
+
+
+def resolve_policy(spec: Spec, policy: str) -> str:
+    """'auto' is the optimal agent for cue tasks and the explorer for hidden-path fields (whose
+    optimal agent knows the path and never falls, so its episodes show no marks)."""
+    if policy == "auto":
+        return "explorer" if spec.layout.field is not None else "optimal"
+    if policy == "explorer" and spec.layout.field is None:
+        raise ValueError(f"{spec.name}: the explorer policy plays hidden-path fields only")
+    return policy
 VIEW_HEIGHT = 96
 PER_ROW = 8
 FRAME_MS = 250
@@ -106,8 +123,85 @@ def _agent_view(env: TaskEnv, obs: Any, renderer: TopDownRenderer) -> np.ndarray
     return renderer.frame(int(env.model.obs_key[env._state]))
 
 
+def _frame(agent: Image.Image, truth: Image.Image, text: str, font: ImageFont.ImageFont) -> Image.Image:
+    """One gallery frame: the agent's view, the ground truth beside it, a caption below."""
+    frame = Image.new("RGB", (agent.width + truth.width + 4, VIEW_HEIGHT + 14), (255, 255, 255))
+    frame.paste(agent, (0, 0))
+    frame.paste(truth, (agent.width + 4, 0))
+    ImageDraw.Draw(frame).text((2, VIEW_HEIGHT + 2), text, fill=(0, 0, 0), font=font)
+    return frame
+
+
+def _field_policy(name: str, env: FieldEnv, spec: Spec, variant_seed: int, seed: int):
+    """A function (step, info) → action for the named policy on a field."""
+    model = env.model
+    if name == "optimal":   # knows this episode's path: its table is made at the episode's first step
+        cache: dict[str, Any] = {}
+
+        def act(t: int, info: dict[str, Any]) -> int:
+            if t == 0:
+                known = info["analysis_only"]
+                cache["table"] = optimal_policy(model.path_model(known["path"], known["start"]))
+            return int(cache["table"][min(t, model.horizon - 1), info["analysis_only"]["state"]])
+        return act
+    if name == "explorer":
+        explorer, core = Explorer(model, 1), env.core
+        last: dict[str, Any] = {}
+
+        def act(t: int, info: dict[str, Any]) -> int:
+            if t > 0 and info["analysis_only"]["falls"] > last["falls"]:   # it fell on the last step
+                explorer.on_fall(np.ones(1, dtype=bool), np.array([last["aim"]]))
+            action = int(explorer.act(t, model.state_cell[core.state], None, None)[0])
+            last.update(falls=info["analysis_only"]["falls"], aim=int(model.aim[core.state[0], action]))
+            return action
+        return act
+    if name == "chance":
+        kind, start = sample_paths(model, variant_seed, 64)
+        observations, overlay = env.core.observations, env.core.overlay
+        rollout = MemorylessRollout(model, kind, start, view_classes(observations, overlay), marks_seen(overlay))
+        table, _, _ = best_memoryless_paths(rollout)
+        core = env.core
+        return lambda t, info: int(table[rollout.classify(model.state_cell[core.state],
+                                                          core.until > core.step_count[:, None])[0]])
+    rng = np.random.default_rng(seed)
+    return lambda t, info: int(rng.integers(model.num_actions))
+
+
+def record_field(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) -> Episode:
+    """Play one field episode: the agent's view (never the path) beside the ground truth."""
+    env = FieldEnv(*build_field(spec, variant_seed))
+    model, core = env.model, env.core
+    pictures = FieldPictures(model)
+    choose = _field_policy(policy, env, spec, variant_seed, seed + episode)
+    font = _font()
+    obs, info = env.reset(seed=seed + episode)
+    frames, labels, total, reward, t, done = [], [], 0.0, 0.0, 0, False
+    while True:
+        cell = int(model.state_cell[core.state[0]])
+        marked = core.until[0] > core.step_count[0]
+        parts = obs if isinstance(obs, dict) else {core.observations.names[0]: obs}
+        agent = _scaled(parts["pixels"] if "pixels" in parts else pictures.agent(cell, marked))
+        truth_image = Image.fromarray(pictures.truth(core.kind[0], cell, marked))
+        ImageDraw.Draw(truth_image).text((2, 1), f"falls {int(core.falls[0])}", fill=(0, 0, 0), font=font)
+        action = None if done else choose(t, info)
+        text = f"t={t} " + ("end" if done else model.action_names[action]) + f" r={reward:+.2f}"
+        frames.append(_frame(agent, _scaled(np.asarray(truth_image)), text, font))
+        labels.append(text)
+        if done:
+            break
+        obs, reward, terminated, truncated, info = env.step(action)
+        total += reward
+        t += 1
+        done = terminated or truncated
+    success = bool(model.path_model(core.kind[0], int(core.start[0])).success[core.state[0]])
+    return Episode(episode, frames, labels, total, success)
+
+
 def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) -> Episode:
     """Play one episode with a policy and draw each step's agent and ground-truth views."""
+    policy = resolve_policy(spec, policy)
+    if spec.layout.field is not None:
+        return record_field(spec, variant_seed, policy, episode, seed)
     model = compile_variant(make_variant(spec, variant_seed))
     env = TaskEnv(model, observation_set(model, spec.observation))
     renderer = TopDownRenderer(model, cell_px=12)
@@ -123,11 +217,7 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) 
         shown = bool(model.cue_shown()[env._state])
         text = (f"t={t} " + ("end" if done else model.action_names[action]) +
                 f" r={reward:+.2f} cue {'shown' if shown else 'hidden'}")
-        frame = Image.new("RGB", (agent.width + truth.width + 4, VIEW_HEIGHT + 14), (255, 255, 255))
-        frame.paste(agent, (0, 0))
-        frame.paste(truth, (agent.width + 4, 0))
-        ImageDraw.Draw(frame).text((2, VIEW_HEIGHT + 2), text, fill=(0, 0, 0), font=font)
-        frames.append(frame)
+        frames.append(_frame(agent, truth, text, font))
         labels.append(text)
         if done:
             break
@@ -170,12 +260,14 @@ def _save_gif(path: Path, frames: Sequence[Image.Image]) -> None:
 
 
 def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes: int = 2,
-                 policy: str = "optimal", seed: int = 0, variant_seed: int = 0,
+                 policy: str = "auto", seed: int = 0, variant_seed: int = 0,
                  progress: bool | None = None) -> Path:
     """Write the gallery of one spec into ``out/<spec name>/``; returns its HTML index."""
+    policy = resolve_policy(spec, policy)
     folder = child_path(out, spec.name)
     folder.mkdir(parents=True, exist_ok=True)
-    report = check_variant(spec, variant_seed)
+    report = check_field_variant(spec, variant_seed) if spec.layout.field is not None else \
+        check_variant(spec, variant_seed)
     items = []
     for e in tqdm(range(episodes), desc=f"gallery {spec.name}", unit="episode",
                   disable=None if progress is None else not progress, leave=False):
@@ -193,6 +285,12 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
 
 def _baseline_rows(report: Any) -> list[tuple[str, str, str, str]]:
     rows = []
+    if isinstance(report, FieldReport):   # mean ± standard error over sampled paths
+        for name in FIELD_BASELINES:
+            b = report.baselines[name]
+            rows.append((name, f"{b.success_rate.mean:.4f} ± {b.success_rate.standard_error:.4f}",
+                         f"{b.mean_return.mean:.4f} ± {b.mean_return.standard_error:.4f}", b.method))
+        return rows
     for name in ("optimal", "chance", "cue_blind", "random"):
         b = report.baselines[name].to_dict()
         fmt = (lambda v: "n/a" if v is None else f"{v:.4f}")
@@ -200,12 +298,22 @@ def _baseline_rows(report: Any) -> list[tuple[str, str, str, str]]:
     return rows
 
 
+def _legend(spec: Spec) -> str:
+    if spec.layout.field is not None:
+        return ("Each frame: the agent's view (left: the agent and its marks, never the path) and the "
+                "ground truth (right: the hidden path in green, its end in yellow, marks outlined).")
+    return ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
+            "cue and the goal it names, outlined).")
+
+
+def _policy_words(spec: Spec, policy: str) -> str:
+    return (FIELD_POLICY_WORDS if spec.layout.field is not None else POLICY_WORDS)[policy]
+
+
 def _markdown(spec, text, report, items, policy, variant_seed, seed) -> str:
     lines = [f"# {spec.name}", "", spec.description or "", "",
              f"Variant `{report.variant_id}` (variant seed {variant_seed}); episodes seeded from {seed}; "
-             f"policy: {POLICY_WORDS[policy]}.", "",
-             "Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
-             "cue and the goal it names, outlined).", "",
+             f"policy: {_policy_words(spec, policy)}.", "", _legend(spec), "",
              "| parameter | value |", "| --- | --- |"]
     lines += [f"| {k} | {v} |" for k, v in report.params.items()]
     lines += ["", "| baseline | success | mean return | method |", "| --- | --- | --- | --- |"]
@@ -235,16 +343,15 @@ def _html(spec, text, report, items, policy, variant_seed, seed) -> str:
     return (f"<!DOCTYPE html><html><head><meta charset=\"utf-8\"><title>{e(spec.name)}</title></head><body>"
             f"<h1>{e(spec.name)}</h1><p>{e(spec.description or '')}</p>"
             f"<p>Variant <code>{e(report.variant_id)}</code> (variant seed {variant_seed}); episodes seeded from "
-            f"{seed}; policy: {e(POLICY_WORDS[policy])}.</p>"
-            "<p>Each frame: the agent's view (left) and the ground truth (right: the whole map, the true cue "
-            "and the goal it names, outlined).</p>"
+            f"{seed}; policy: {e(_policy_words(spec, policy))}.</p>"
+            f"<p>{e(_legend(spec))}</p>"
             f"<table><tr><th>parameter</th><th>value</th></tr>{rows}</table>"
             f"<table><tr><th>baseline</th><th>success</th><th>mean return</th><th>method</th></tr>{base}</table>"
             f"<table><tr><th>check</th><th>result</th><th>reason</th></tr>{checks}</table>"
             f"{body}<h2>Spec</h2><pre>{e(text)}</pre></body></html>\n")
 
 
-def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "optimal", seed: int = 0,
+def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
             variant_seed: int = 0) -> list[Path]:
     """Galleries of several specs, plus a top-level index of every spec gallery in ``out``."""
     pages = []

@@ -1,0 +1,189 @@
+"""Hidden paths across an open field, drawn for many episodes at once from uniform numbers.
+
+A path is drawn in a canonical frame of ``depth`` rows (row 0 on the start side, row
+``depth − 1`` on the far side) and ``across`` columns, then mapped onto the field's cells by
+:class:`FieldFrame`. Its centre line alternates runs away from the start side and runs along
+it: with t turns there are t // 2 + 1 forward runs (each at least one row long, together
+``depth − 1`` rows) and (t + 1) // 2 sideways runs, each to a column drawn uniformly among the
+others; an odd t ends with a sideways run along the far side. The path never crosses itself,
+because every sideways run has a row of its own. A path of width w covers, at each centre
+cell, that cell, the w − 1 cells beside it (higher columns) and the w − 1 rows behind it.
+
+Everything is numpy over the episodes, so a batched runtime draws the paths of every resetting
+environment in one call; the single runtime and the analyses call the same function with one.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+OFF, ON, GOAL = 0, 1, 2   # kinds of cell for one path: off the path, on it, its end
+
+
+@dataclass(frozen=True)
+class PathShape:
+    """What every path of a variant shares: the frame's size, turns, width and start rule."""
+
+    depth: int
+    across: int
+    turns: int
+    width: int = 1
+    start: str = "random"     # 'random' or 'middle'
+
+    @property
+    def positions(self) -> int:
+        """Columns the path's left edge can take."""
+        return self.across - self.width + 1
+
+    @property
+    def draws(self) -> int:
+        """Uniform numbers one path needs: its start, one key per row that may hold a turn, one
+        per sideways run."""
+        return 1 + max(self.depth - 2, 0) + (self.turns + 1) // 2
+
+    @property
+    def longest(self) -> int:
+        """Most steps along the centre line from start to end."""
+        return self.depth - 1 + (self.turns + 1) // 2 * (self.positions - 1)
+
+    def problem(self) -> str | None:
+        """Why no path of this shape fits the field (None when one does)."""
+        forward = self.turns // 2 + 1
+        if self.depth < 2:
+            return f"a path needs at least 2 rows from side to side, the field has {self.depth}"
+        if self.positions < 1:
+            return f"a path {self.width} cells wide does not fit in {self.across} columns"
+        if forward > self.depth - 1:
+            return (f"{self.turns} turns need {forward} forward runs of at least one row, but the field "
+                    f"is {self.depth} rows from side to side")
+        if self.turns > 0 and self.positions < 2:
+            return f"a turning path {self.width} wide needs more than {self.across} columns"
+        return None
+
+
+@dataclass(frozen=True)
+class DrawnPaths:
+    """Paths of n episodes in the canonical frame."""
+
+    kind: np.ndarray      # int8[n, depth, across]: OFF, ON or GOAL
+    start: np.ndarray     # int64[n, 2]: (row, column) of each start cell
+    centre: np.ndarray    # int64[n, L, 2]: centre line, padded by repeating its last cell
+    length: np.ndarray    # int64[n]: cells on the centre line
+
+
+def draw_paths(shape: PathShape, u: np.ndarray) -> DrawnPaths:
+    """Draw one path per row of ``u`` (uniforms in [0, 1), shape [n, shape.draws])."""
+    problem = shape.problem()
+    if problem is not None:
+        raise ValueError(problem)
+    u = np.atleast_2d(np.asarray(u, dtype=np.float64))
+    n, D, X, w = u.shape[0], shape.depth, shape.across, shape.width
+    span = shape.positions
+    if shape.start == "middle":
+        x = np.full(n, (span - 1) // 2, dtype=np.int64)
+    else:
+        x = np.minimum((u[:, 0] * span).astype(np.int64), span - 1)
+    start = np.stack([np.zeros(n, dtype=np.int64), x.copy()], axis=1)
+    # rows 1 … D−2 where a forward run ends and a sideways run begins: the turns // 2 rows
+    # with the smallest keys (a uniform choice of that many rows)
+    keys = u[:, 1:1 + max(D - 2, 0)]
+    ranks = np.argsort(np.argsort(keys, axis=1, kind="stable"), axis=1, kind="stable")
+    turn_row = np.zeros((n, D), dtype=bool)
+    turn_row[:, 1:D - 1] = ranks < shape.turns // 2
+    if shape.turns % 2:
+        turn_row[:, D - 1] = True
+    side_draws = u[:, 1 + max(D - 2, 0):]
+    kind = np.zeros((n, D, X), dtype=np.int8)
+    columns = np.arange(X)
+    steps: list[np.ndarray] = []
+    sideways = np.zeros(n, dtype=np.int64)          # sideways runs drawn so far
+    rows = np.arange(n)
+    for d in range(D):
+        behind = slice(max(0, d - w + 1), d + 1)
+        lo = hi = x
+        here = turn_row[:, d]
+        if here.any():
+            draw = side_draws[rows, np.minimum(sideways, side_draws.shape[1] - 1)]
+            new_x = (x + 1 + np.minimum((draw * (span - 1)).astype(np.int64), span - 2)) % span
+            new_x = np.where(here, new_x, x)
+            lo, hi = np.minimum(x, new_x), np.maximum(x, new_x)
+            # the centre line walks the run cell by cell, padded where a run is shorter
+            run = np.abs(new_x - x).max(initial=0)
+            direction = np.sign(new_x - x)
+            for j in range(run + 1):
+                steps.append(np.stack([np.full(n, d), x + direction * np.minimum(j, np.abs(new_x - x))], axis=1))
+            sideways += here
+            x = new_x
+        else:
+            steps.append(np.stack([np.full(n, d), x], axis=1))
+        covered = (columns[None, :] >= lo[:, None]) & (columns[None, :] <= (hi + w - 1)[:, None])
+        kind[:, behind] |= covered[:, None, :].astype(np.int8)
+    end_row = kind[:, D - 1]
+    end_cols = (columns[None, :] >= x[:, None]) & (columns[None, :] < (x + w)[:, None])
+    end_row[end_cols] = GOAL
+    raw = np.stack(steps, axis=1)                      # [n, T, 2], with repeats where padded
+    centre, length = _compact(raw)
+    return DrawnPaths(kind=kind, start=start, centre=centre, length=length)
+
+
+def _compact(raw: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Drop consecutive repeats from each centre line and pad with its last cell."""
+    n, T, _ = raw.shape
+    fresh = np.ones((n, T), dtype=bool)
+    fresh[:, 1:] = (raw[:, 1:] != raw[:, :-1]).any(axis=2)
+    length = fresh.sum(axis=1)
+    order = np.argsort(~fresh, axis=1, kind="stable")          # kept cells first, in order
+    packed = np.take_along_axis(raw, order[:, :, None], axis=1)
+    last = packed[np.arange(n), length - 1]
+    pad = np.arange(T)[None, :] >= length[:, None]
+    packed[pad] = np.broadcast_to(last[:, None, :], packed.shape)[pad]
+    return packed[:, :int(length.max())], length
+
+
+def count_turns(centre: np.ndarray, length: int) -> int:
+    """Direction changes along one centre line (its first ``length`` cells)."""
+    moves = np.diff(centre[:length], axis=0)
+    return int((moves[1:] != moves[:-1]).any(axis=1).sum()) if len(moves) > 1 else 0
+
+
+@dataclass(frozen=True)
+class FieldFrame:
+    """How the canonical frame maps onto a field of ``rows × cols`` cells for a start side."""
+
+    rows: int
+    cols: int
+    start_side: str
+
+    @property
+    def depth(self) -> int:
+        """Rows of the canonical frame (cells from the start side to the far side)."""
+        return self.rows if self.start_side in ("north", "south") else self.cols
+
+    @property
+    def across(self) -> int:
+        """Columns of the canonical frame (cells along the start side)."""
+        return self.cols if self.start_side in ("north", "south") else self.rows
+
+    def cell_index(self) -> np.ndarray:
+        """int64[depth, across]: the field cell (row · cols + column) of each frame position."""
+        d, x = np.meshgrid(np.arange(self.depth), np.arange(self.across), indexing="ij")
+        if self.start_side == "south":
+            r, c = self.rows - 1 - d, x
+        elif self.start_side == "north":
+            r, c = d, x
+        elif self.start_side == "west":
+            r, c = x, d
+        else:
+            r, c = x, self.cols - 1 - d
+        return r * self.cols + c
+
+    def to_field(self, drawn: DrawnPaths) -> tuple[np.ndarray, np.ndarray]:
+        """(kind int8[n, cells] per field cell, start cell int64[n]) of drawn paths."""
+        index = self.cell_index()
+        n = drawn.kind.shape[0]
+        kind = np.zeros((n, self.rows * self.cols), dtype=np.int8)
+        kind[:, index.ravel()] = drawn.kind.reshape(n, -1)
+        start = index[drawn.start[:, 0], drawn.start[:, 1]]
+        return kind, start

@@ -1,0 +1,111 @@
+"""Field analyses: worked examples, the rollout evaluator against exact DP, and the checks."""
+
+from __future__ import annotations
+
+import statistics
+
+import numpy as np
+import pytest
+
+import taskgen
+from taskgen.analysis import at_reset, evaluate
+from taskgen.analysis.fields import MemorylessRollout, PathAverage, sample_paths
+from taskgen.tools.field_check import check_field_variant
+
+from conftest import field_model, field_spec_text
+
+
+def _spec(**fields):
+    return taskgen.load_spec_text(field_spec_text(**fields))
+
+
+def test_a_straight_path_from_a_fixed_start_needs_no_memory():
+    """Worked example: a straight path of 4 steps from a fixed start. The agent that knows the
+    path walks north 4 times, 1 − 4 × 0.01 = 0.96; so does the memoryless 'always north', so
+    the memory gap check fails."""
+    report = check_field_variant(_spec(width=3, height=5, rewards={"step": -0.01}, episode={"max_steps": 20}), 0,
+                                 paths=8)
+    assert report.baselines["optimal"].mean_return.mean == pytest.approx(0.96, abs=1e-12)
+    assert report.baselines["chance"].mean_return.mean == pytest.approx(0.96, abs=1e-12)
+    gap = next(c for c in report.checks if c.name == "memory gap")
+    assert gap.passed is False
+
+
+def test_winding_random_paths_need_memory_and_the_figures_are_ordered():
+    """With a random start and turns, knowing the path beats every memoryless policy found, and
+    the chance level is a lower bound no higher than the optimal agent."""
+    spec = _spec(width=5, height=6, turns=2, start="random", mark={"steps": 2},
+                 rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 60})
+    report = check_field_variant(spec, 0, paths=32)
+    b = report.baselines
+    assert b["optimal"].success_rate.mean == 1.0
+    assert b["chance"].mean_return.mean < b["optimal"].mean_return.mean
+    assert b["random"].falls.mean > 1.0
+    assert report.ok and [c.name for c in report.checks] == ["solvable", "memory gap"]
+
+
+def test_marks_that_never_fade_help_an_agent_without_memory():
+    """A memoryless agent that sees marks which last the whole episode can avoid cells it fell
+    into; hiding the marks from the vector takes that away (common practice: a lasting mark is
+    external memory)."""
+    fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": "episode"},
+                  rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 80})
+    seen = check_field_variant(_spec(**fields), 0, paths=32)
+    hidden = check_field_variant(_spec(observation={"vector": {"marks": False}}, **fields), 0, paths=32)
+    assert seen.baselines["chance"].mean_return.mean > hidden.baselines["chance"].mean_return.mean + 0.3
+
+
+def test_a_step_limit_below_the_crossing_fails_solvability():
+    """Six rows need at least five steps: a limit of 3 fails, naming the path and the numbers."""
+    report = check_field_variant(_spec(width=3, height=6, episode={"max_steps": 3}), 0, paths=4)
+    solvable = report.checks[0]
+    assert solvable.passed is False and "shortest crossing 5 steps exceeds the step limit 3" in solvable.reason
+
+
+def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
+    """Without marks in view a memoryless policy is a policy of the cell, so its rollout return
+    on each path equals dynamic programming's exact value on that path's model."""
+    model = field_model(width=4, height=5, turns=1, start="random", rewards={"step": -0.03, "fall": -0.2},
+                        episode={"max_steps": 15, "discount": 0.9})
+    kind, start = sample_paths(model, 0, 12)
+    rollout = MemorylessRollout(model, kind, start, np.arange(model.num_cells), marks_seen=False)
+    policy = np.random.default_rng(2).integers(4, size=rollout.classes)
+    result = rollout.run(policy)
+    for i in range(12):
+        path = model.path_model(kind[i], int(start[i]))
+        table = np.broadcast_to(policy[path.cell], (path.horizon, path.num_states))
+        assert result.returns[i] == pytest.approx(at_reset(path, evaluate(path, np.ascontiguousarray(table))),
+                                                  abs=1e-12)
+
+
+def test_path_averages_match_the_standard_library():
+    """Mean and standard error (sample standard deviation over √n) equal statistics.mean and
+    statistics.stdev / √n (Python's statistics module)."""
+    values = np.array([0.5, 1.25, -0.75, 2.0, 0.0])
+    a = PathAverage.of(values)
+    assert a.mean == pytest.approx(statistics.mean(values.tolist()))
+    assert a.standard_error == pytest.approx(statistics.stdev(values.tolist()) / np.sqrt(5))
+    assert (a.minimum, a.maximum) == (-0.75, 2.0)
+
+
+def test_the_same_seed_gives_the_same_report():
+    """Paths for the analyses come from the variant seed: two runs agree exactly."""
+    spec = _spec(width=5, height=6, turns=2, start="random")
+    assert check_field_variant(spec, 3, paths=8).to_dict() == check_field_variant(spec, 3, paths=8).to_dict()
+
+
+def test_the_explorer_on_a_one_turn_path_worked_example():
+    """Worked example: 3 columns, 5 rows, start in the middle, one turn at the far side. The
+    explorer walks 4 steps north, then east along the far row: if the path turns east it
+    arrives at step 5, 1 − 5 × 0.01 = 0.95; if west it falls (−0.05), walks back up 4 steps
+    and goes west, arriving at step 10: 1 − 10 × 0.01 − 0.05 = 0.85."""
+    from taskgen.analysis.field_policies import explore
+    from taskgen.generate.paths import GOAL
+    model = field_model(width=3, height=5, turns=1, rewards={"step": -0.01, "fall": -0.05},
+                        episode={"max_steps": 30})
+    kind, start = sample_paths(model, 0, 16)
+    result = explore(model, kind, start)
+    east = np.array([np.flatnonzero(k == GOAL)[0] % 3 == 2 for k in kind])
+    assert 0 < east.sum() < 16
+    assert np.allclose(result.returns, np.where(east, 0.95, 0.85))
+    assert np.array_equal(result.length, np.where(east, 5, 10))

@@ -1,0 +1,88 @@
+"""Hidden paths: connected from start to end, with the requested turns and width, on every side."""
+
+from __future__ import annotations
+
+import networkx as nx
+import numpy as np
+import pytest
+
+from taskgen.generate.paths import GOAL, OFF, FieldFrame, PathShape, count_turns, draw_paths
+
+SHAPES = [PathShape(5, 3, 0, 1, "middle"), PathShape(6, 5, 1), PathShape(6, 5, 2), PathShape(7, 6, 3),
+          PathShape(9, 7, 6), PathShape(8, 7, 4, 2), PathShape(6, 8, 3, 3), PathShape(2, 2, 1)]
+
+
+def _draw(shape: PathShape, n: int = 300, seed: int = 0):
+    return draw_paths(shape, np.random.default_rng(seed).random((n, shape.draws)))
+
+
+@pytest.mark.parametrize("shape", SHAPES, ids=str)
+def test_every_path_joins_start_to_end_on_its_own_cells(shape):
+    """The path's cells, as a subgraph of the 4-connected grid, hold a path from the start cell
+    to every end cell (networkx grid_2d_graph and has_path); the start is on the first row and
+    the end on the last."""
+    drawn = _draw(shape)
+    grid = nx.grid_2d_graph(shape.depth, shape.across)
+    for i in range(drawn.kind.shape[0]):
+        on = nx.subgraph(grid, [tuple(c) for c in np.argwhere(drawn.kind[i] != OFF)])
+        ends = [tuple(c) for c in np.argwhere(drawn.kind[i] == GOAL)]
+        start = tuple(int(v) for v in drawn.start[i])
+        assert start[0] == 0 and drawn.kind[i][start] != OFF
+        assert len(ends) == shape.width and all(e[0] == shape.depth - 1 for e in ends)
+        assert all(nx.has_path(on, start, e) for e in ends), i
+
+
+@pytest.mark.parametrize("shape", SHAPES, ids=str)
+def test_centre_lines_have_the_requested_turns_and_never_cross(shape):
+    """Every centre line changes direction exactly ``turns`` times, moves one cell at a time,
+    visits no cell twice and never moves back toward the start side (common practice)."""
+    drawn = _draw(shape)
+    for i in range(drawn.kind.shape[0]):
+        line = drawn.centre[i, :drawn.length[i]]
+        steps = np.diff(line, axis=0)
+        assert (np.abs(steps).sum(axis=1) == 1).all()
+        assert (steps[:, 0] >= 0).all()
+        assert len({tuple(c) for c in line}) == len(line)
+        assert count_turns(drawn.centre[i], int(drawn.length[i])) == shape.turns
+        assert tuple(line[0]) == tuple(drawn.start[i])
+
+
+def test_width_covers_the_cells_beside_the_centre_line():
+    """A path w wide covers, on every row it crosses, w cells side by side (common practice)."""
+    shape = PathShape(7, 8, 0, 3, "random")
+    drawn = _draw(shape)
+    assert ((drawn.kind != OFF).sum(axis=2) == 3).all()
+
+
+def test_middle_start_and_uniform_random_start():
+    """'middle' always starts in the middle column; 'random' starts in every column about equally
+    often: Pearson's chi-squared against the uniform law stays below 18.47, the 0.999 quantile
+    of chi-squared with 4 degrees of freedom (from memory)."""
+    assert (_draw(PathShape(5, 5, 0, 1, "middle")).start[:, 1] == 2).all()
+    counts = np.bincount(_draw(PathShape(5, 5, 0), n=5000).start[:, 1], minlength=5)
+    chi2 = ((counts - 1000) ** 2 / 1000).sum()
+    assert chi2 < 18.47
+
+
+def test_impossible_shapes_say_why():
+    """A shape that cannot fit its field is refused with the reason."""
+    assert "forward runs" in PathShape(3, 5, 4).problem()
+    assert "2 rows" in PathShape(1, 5, 0).problem()
+    assert "more than 1 columns" in PathShape(5, 1, 1).problem()
+    with pytest.raises(ValueError, match="does not fit"):
+        draw_paths(PathShape(5, 2, 0, 3), np.zeros((1, 5)))
+
+
+@pytest.mark.parametrize("side", ["north", "east", "south", "west"])
+def test_frames_put_the_start_on_the_start_side_and_the_end_opposite(side):
+    """Mapped onto a 4×6 field, starts lie on the named side and ends on the opposite one."""
+    frame = FieldFrame(4, 6, side)
+    shape = PathShape(frame.depth, frame.across, 2)
+    kind, start = frame.to_field(_draw(shape, n=50))
+    rows, cols = np.divmod(start, 6)
+    ends = np.argwhere(kind == GOAL)[:, 1]
+    end_rows, end_cols = np.divmod(ends, 6)
+    expect = {"north": (rows == 0, end_rows == 3), "south": (rows == 3, end_rows == 0),
+              "west": (cols == 0, end_cols == 5), "east": (cols == 5, end_cols == 0)}[side]
+    assert expect[0].all() and expect[1].all()
+    assert sorted(frame.cell_index().ravel()) == list(range(24))
