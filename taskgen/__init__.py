@@ -1,15 +1,17 @@
 """taskgen: compile YAML memory-task specs into seeded, checked Gymnasium environments.
 
-Pipeline: spec text → :class:`Spec` → :class:`Variant` → :class:`TaskModel` → analyses,
-environments and renderers → the ``taskgen`` command line.
+Pipeline: spec text → :class:`Spec` → :class:`Variant` → :class:`TaskModel` (or, for a
+hidden-path field, :class:`FieldModel`) → analyses, environments and renderers → the
+``taskgen`` command line.
 """
 
 from importlib.metadata import PackageNotFoundError, version
 
 from .analysis import VariantReport, analyse
-from .envs import TaskEnv, TaskVectorEnv, build_model, bundled_specs, make, make_vec, register_bundled
+from .envs import (FieldEnv, FieldVectorEnv, TaskEnv, TaskVectorEnv, build_model, bundled_specs, make, make_vec,
+                   register_bundled)
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
-from .model import TaskModel, compile_variant
+from .model import FieldModel, TaskModel, compile_field, compile_variant
 from .spec import Spec, load_spec, load_spec_text
 from .tools import check_variant
 from .variant import Variant, make_variant
@@ -22,8 +24,8 @@ except PackageNotFoundError:  # a source checkout that was never installed
 register_bundled()
 
 __all__ = [
-    "AnalysisError", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
+    "AnalysisError", "FieldEnv", "FieldModel", "FieldVectorEnv", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
     "Variant",
-    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_variant",
+    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_field", "compile_variant",
     "load_spec", "load_spec_text", "make", "make_variant", "make_vec", "register_bundled",
 ]

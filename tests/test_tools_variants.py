@@ -186,3 +186,28 @@ def test_a_manifest_is_not_taken_for_a_spec(tmp_path):
                           str(tmp_path))
     out = _cli("check", path)
     assert out.returncode == 2 and "this is a variant manifest, not a spec" in out.stderr
+
+
+def test_a_field_suite_holds_out_path_turns_and_reloads_its_variants(tmp_path):
+    """A field suite can keep a number of path turns for the test split only; its family is the
+    product of the counts of widths, heights and turns (counting rule; common practice); a
+    listed variant reloads as a FieldEnv with its fingerprint checked, and a whole split cannot
+    be loaded as one env because field variants differ in size."""
+    spec = load_spec_text(yaml.safe_dump({
+        "format_version": 1, "name": "field-suite",
+        "layout": {"field": {"width": {"choice": [4, 5]}, "height": 6, "path": {"turns": {"range": [1, 3]}}}},
+        "episode": {"max_steps": 40}}))
+    request = SuiteRequest(splits=(("train", 6), ("test", 3)), holdout=("layout.field.path.turns", (3,)))
+    manifest = build_suite(spec, request)
+    assert manifest["family_size"] == 2 * 1 * 3
+    turns = {split: {v["params"]["turns"] for v in manifest["variants"] if v["split"] == split}
+             for split in ("train", "test")}
+    assert turns["test"] == {3} and 3 not in turns["train"]
+    assert all({"mean_return", "mean_return_se", "method"} <= set(v["optimal"]) for v in manifest["variants"])
+    path = write_manifest(manifest, str(tmp_path))
+    env = taskgen.make(path, split="test", index=2)
+    assert isinstance(env, taskgen.FieldEnv) and env.model.params["turns"] == 3
+    with pytest.raises(taskgen.envs.split.ManifestError, match="one at a time"):
+        taskgen.make(path, split="train")
+    with pytest.raises(SuiteError, match="has only 6"):
+        build_suite(spec, SuiteRequest(splits=(("train", 7),), disjoint_layouts=True))

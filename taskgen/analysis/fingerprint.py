@@ -14,7 +14,7 @@ import hashlib
 
 import numpy as np
 
-from ..model import TaskModel
+from ..model import FieldModel, TaskModel
 
 
 def canonical_labels(model: TaskModel) -> np.ndarray:
@@ -64,6 +64,23 @@ def fingerprint(model: TaskModel) -> str:
     ]
     h = hashlib.sha256()
     for part in parts:
+        h.update(np.ascontiguousarray(part).tobytes())
+        h.update(b"|")
+    return h.hexdigest()
+
+
+def field_fingerprint(model: FieldModel) -> str:
+    """sha256 (hex) of a field variant: its size and sides, the shape of its paths, and its
+    path-free tables, rewards and limits. Paths are drawn per episode, so two variants with equal
+    fingerprints offer the same paths with the same probabilities."""
+    frame, shape = model.frame, model.shape
+    h = hashlib.sha256()
+    h.update(f"field|{frame.rows}|{frame.cols}|{frame.start_side}|{shape.turns}|{shape.width}|{shape.start}|"
+             f"{model.levels}|{model.to_start}|{model.mark_steps}|{model.horizon}|".encode())
+    for part in (np.asarray([model.step_reward, model.goal_reward, model.fall_reward, model.timeout_reward,
+                             model.discount], dtype="<f8"),
+                 model.aim.astype("<i8"), model.move_next.astype("<i8"), model.fall_next.astype("<i8"),
+                 model.state_out.astype("u1")):
         h.update(np.ascontiguousarray(part).tobytes())
         h.update(b"|")
     return h.hexdigest()

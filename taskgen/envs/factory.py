@@ -96,6 +96,8 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
         if not 0 <= index < len(entries):
             raise ManifestError(f"{manifest_path}: split {split!r} has {len(entries)} variants, no index {index}")
         spec, model = entry_model(manifest, entries[index], manifest_path)
+        if isinstance(model, FieldModel):
+            return FieldEnv(model, *field_observation_set(model, spec.observation), render_mode=render_mode)
         return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
     if split is not None or index is not None:
         raise ManifestError("split= and index= need a manifest written by `taskgen variants`")

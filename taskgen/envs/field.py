@@ -19,8 +19,8 @@ from gymnasium.vector.utils import batch_space
 from ..model import FieldModel
 from ..render.field import FieldPictures, MarkOverlay
 from ..render.observations import ObservationSet, assemble
-from .streams import (add_pixel_noise, episode_keys, flip_threshold, flips, next_episode, noise_init, subkeys,
-                      uniform, vector_reset_keys)
+from .streams import (add_pixel_noise, episode_keys, flip_threshold, flips, next_episode, noise_init, noise_track,
+                      subkeys, uniform, vector_reset_keys)
 
 
 class FieldCore:
@@ -145,6 +145,8 @@ class FieldVectorEnv(VectorEnv):
         self._autoreset = np.zeros(num_envs, dtype=bool)
         self._every = np.ones(num_envs, dtype=bool)
         self._every.flags.writeable = False
+        self._ids = np.full(num_envs, model.variant_id, dtype=object)
+        self._ids.flags.writeable = False    # shared by every info dict: read-only
 
     def reset(self, *, seed: int | Sequence[int | None] | None = None, options: dict[str, Any] | None = None):
         """Reset every environment (a new path each); ``seed`` is None, an int (env i gets seed + i) or a list."""
@@ -178,8 +180,7 @@ class FieldVectorEnv(VectorEnv):
 
     def _infos(self) -> dict[str, Any]:
         every, core = self._every, self.core
-        ids = np.full(self.num_envs, self.model.variant_id, dtype=object)
-        return {"variant_id": ids, "_variant_id": every, "step": core.step_count.copy(), "_step": every,
+        return {"variant_id": self._ids, "_variant_id": every, "step": core.step_count.copy(), "_step": every,
                 "analysis_only": {"path": core.kind.copy(), "_path": every, "start": core.start.copy(),
                                   "_start": every, "state": core.state.copy(), "_state": every,
                                   "falls": core.falls.copy(), "_falls": every},
@@ -194,6 +195,19 @@ class FieldVectorEnv(VectorEnv):
     def ground_truth(self, i: int = 0) -> np.ndarray:
         """The ground-truth picture of environment i, with the path drawn (galleries, debugging)."""
         return self.core.picture(i, truth=True)
+
+    def memory_bytes(self) -> dict[str, int]:
+        """Bytes held per environment (state, path, marks, keys) and shared (tables), for the benchmark."""
+        core = self.core
+        per_env = [core.state, core.step_count, core.kind, core.start, core.until, core.falls, core.noise,
+                   core.flip_keys, core.pixel_keys, self._streams, self._episodes, self._keys, self._seeded,
+                   self._autoreset]
+        m, obs = self.model, core.observations
+        shared = [m.aim, m.move_next, m.fall_next, m.state_cell, m.state_out]
+        shared += [t for t in (obs.vector.table if obs.vector is not None else None, obs.pixels) if t is not None]
+        if core.overlay.tiles is not None:
+            shared.append(core.overlay.tiles)
+        return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
 
 
 class FieldEnv(gym.Env):
@@ -219,30 +233,74 @@ class FieldEnv(gym.Env):
         self.action_space = spaces.Discrete(model.num_actions)
         self._stream: int | None = None
         self._episode = 0
+        vector = observations.vector
+        self._vector_only = observations.names == ("vector",)
+        self._rows = vector.table if vector is not None else None
+        self._mark_block = overlay.block
+        self._noise = np.zeros((model.horizon + 1, self.core.bits), dtype=np.float32)
+        self._state, self._step = 0, 0
+        self._tables: tuple[list, ...] = ()
+        self._num_actions, self._marks = model.num_actions, model.mark_steps > 0
 
     def _observation(self) -> Any:
-        return assemble(self._observations, {k: v[0] for k, v in self.core.observe().items()})
+        core = self.core
+        if not self._vector_only:
+            return assemble(self._observations, {k: v[0] for k, v in core.observe().items()})
+        out = self._rows[self.model.state_cell[self._state]].copy()     # the common case, kept short
+        if self._mark_block is not None:
+            out[self._mark_block] = core.until[0] > self._step
+        if core.bits:
+            out = np.concatenate((out, self._noise[min(self._step, self.model.horizon)]))
+        return out
 
     def _info(self) -> dict[str, Any]:
         core = self.core
-        return {"variant_id": self.model.variant_id, "step": int(core.step_count[0]),
+        return {"variant_id": self.model.variant_id, "step": self._step,
                 "analysis_only": {"path": core.kind[0].copy(), "start": int(core.start[0]),
-                                  "state": int(core.state[0]), "falls": int(core.falls[0])}}
+                                  "state": self._state, "falls": int(core.falls[0])}}
 
     def reset(self, *, seed: int | None = None, options: dict[str, Any] | None = None):
-        """Start an episode on a new path drawn from the episode's key; return the first observation."""
+        """Start an episode on a new path drawn from the episode's key; return the first observation.
+
+        The path's step rule is applied once to every (state, action), so a step is a table
+        lookup (the same rule as the batched runtime's, on all states at once)."""
         super().reset(seed=seed)
         self._stream, self._episode, key = next_episode(self._stream, self._episode, seed is not None,
                                                         self.np_random)
-        self.core.begin(np.zeros(1, dtype=np.int64), key)
+        core, m = self.core, self.model
+        core.begin(np.zeros(1, dtype=np.int64), key)
+        S, A = m.num_states, m.num_actions
+        state, action = np.divmod(np.arange(S * A), A)
+        out = m.outcome(state, action, core.kind, core.start, np.zeros(S * A, dtype=np.int64))
+        self._tables = tuple(a.reshape(S, A).tolist() for a in (out.next_state, out.reward, out.fell, out.aim,
+                                                                 out.terminal))
+        self._state, self._step = int(core.state[0]), 0
+        if core.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
+            self._noise = noise_track(key, core.bits, self.core.vector.flip_probability,
+                                      m.horizon)[0].astype(np.float32)
         return self._observation(), self._info()
 
     def step(self, action: int):
         """Move on the hidden path; truncate at the step limit."""
-        if not (isinstance(action, (int, np.integer)) and 0 <= action < self.model.num_actions):
-            raise ValueError(f"action must be an integer in [0, {self.model.num_actions}), got {action!r}")
-        reward, terminated, truncated = self.core.advance(np.array([int(action)]))
-        return self._observation(), float(reward[0]), bool(terminated[0]), bool(truncated[0]), self._info()
+        if not (isinstance(action, (int, np.integer)) and 0 <= action < self._num_actions):
+            raise ValueError(f"action must be an integer in [0, {self._num_actions}), got {action!r}")
+        nxt, pay, fell, aim, ends = self._tables
+        s, core = self._state, self.core
+        self._state = nxt[s][action]
+        reward = pay[s][action]
+        self._step += 1
+        core.state[0], core.step_count[0] = self._state, self._step
+        if fell[s][action]:
+            core.falls[0] += 1
+            if self._marks:
+                core.until[0, aim[s][action]] = self.model.mark_until(self._step)
+        terminated = ends[s][action]
+        truncated = not terminated and self._step >= self.model.horizon
+        if truncated:
+            reward += self.model.timeout_reward
+        if core.bits and not self._vector_only:
+            core.noise[0] = self._noise[min(self._step, self.model.horizon)] > 0.5
+        return self._observation(), reward, terminated, truncated, self._info()
 
     def render(self) -> np.ndarray | None:
         """A top-down picture as the agent could see it: the agent and its marks, no path."""

@@ -12,7 +12,7 @@ import yaml
 from gymnasium import spaces
 
 from ..errors import TaskgenError
-from ..model import TaskModel, compile_variant
+from ..model import FieldModel, TaskModel, compile_field, compile_variant
 from ..render import observation_set
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, scatter_index
@@ -58,14 +58,22 @@ def split_entries(manifest: dict[str, Any], split: str, source: str = "manifest"
     return entries
 
 
-def entry_model(manifest: dict[str, Any], entry: dict[str, Any], source: str = "manifest") -> tuple[Spec, TaskModel]:
+def entry_model(manifest: dict[str, Any], entry: dict[str, Any],
+                source: str = "manifest") -> tuple[Spec, TaskModel | FieldModel]:
     """Rebuild one listed variant and check that it still has its recorded fingerprint."""
-    from ..analysis.fingerprint import fingerprint
+    from ..analysis.fingerprint import field_fingerprint, fingerprint
 
     overrides = {key.replace(".", "__"): value for key, value in (entry.get("overrides") or {}).items()}
     spec = load_spec_text(yaml.safe_dump(manifest["spec"]), f"{source} (embedded spec)", **overrides)
-    model = compile_variant(make_variant(spec, int(entry["seed"])))
-    if fingerprint(model) != entry["fingerprint"]:
+    variant = make_variant(spec, int(entry["seed"]))
+    model: TaskModel | FieldModel
+    if spec.layout.field is not None:
+        model = compile_field(variant)
+        found = field_fingerprint(model)
+    else:
+        model = compile_variant(variant)
+        found = fingerprint(model)
+    if found != entry["fingerprint"]:
         raise ManifestError(f"{source}: variant {entry['id']} no longer reproduces its fingerprint (the manifest "
                             f"was written by taskgen {manifest.get('taskgen_version')})")
     return spec, model
@@ -134,6 +142,9 @@ class SplitEnv(gym.Env):
 def manifest_variants(path: str | os.PathLike[str], split: str) -> list[tuple[TaskModel, ObservationSet]]:
     """Every variant of a split as (model, vector layout), fingerprints checked."""
     manifest = load_manifest(path)
+    if "field" in (manifest["spec"].get("layout") or {}) and manifest["spec"]["layout"]["field"] is not None:
+        raise ManifestError(f"{path}: a field suite's variants differ in size, so they load one at a time: "
+                            "taskgen.make(manifest, split=..., index=...) (each one draws a new path per episode)")
     out = []
     for entry in split_entries(manifest, split, str(path)):
         spec, model = entry_model(manifest, entry, str(path))

@@ -69,12 +69,14 @@ class DrawnPaths:
 
     kind: np.ndarray      # int8[n, depth, across]: OFF, ON or GOAL
     start: np.ndarray     # int64[n, 2]: (row, column) of each start cell
-    centre: np.ndarray    # int64[n, L, 2]: centre line, padded by repeating its last cell
-    length: np.ndarray    # int64[n]: cells on the centre line
+    centre: np.ndarray    # int64[n, L, 2]: centre line, padded by repeating its last cell (L = 0
+                          # when not traced)
+    length: np.ndarray    # int64[n]: cells on the centre line (0 when not traced)
 
 
-def draw_paths(shape: PathShape, u: np.ndarray) -> DrawnPaths:
-    """Draw one path per row of ``u`` (uniforms in [0, 1), shape [n, shape.draws])."""
+def draw_paths(shape: PathShape, u: np.ndarray, centre: bool = True) -> DrawnPaths:
+    """Draw one path per row of ``u`` (uniforms in [0, 1), shape [n, shape.draws]). The centre
+    lines are traced only with ``centre`` (runtimes need the cells, not the line)."""
     problem = shape.problem()
     if problem is not None:
         raise ValueError(problem)
@@ -109,23 +111,25 @@ def draw_paths(shape: PathShape, u: np.ndarray) -> DrawnPaths:
             new_x = (x + 1 + np.minimum((draw * (span - 1)).astype(np.int64), span - 2)) % span
             new_x = np.where(here, new_x, x)
             lo, hi = np.minimum(x, new_x), np.maximum(x, new_x)
-            # the centre line walks the run cell by cell, padded where a run is shorter
-            run = np.abs(new_x - x).max(initial=0)
-            direction = np.sign(new_x - x)
-            for j in range(run + 1):
-                steps.append(np.stack([np.full(n, d), x + direction * np.minimum(j, np.abs(new_x - x))], axis=1))
+            if centre:   # the centre line walks the run cell by cell, padded where a run is shorter
+                run = np.abs(new_x - x).max(initial=0)
+                direction = np.sign(new_x - x)
+                for j in range(run + 1):
+                    steps.append(np.stack([np.full(n, d), x + direction * np.minimum(j, np.abs(new_x - x))], axis=1))
             sideways += here
             x = new_x
-        else:
+        elif centre:
             steps.append(np.stack([np.full(n, d), x], axis=1))
         covered = (columns[None, :] >= lo[:, None]) & (columns[None, :] <= (hi + w - 1)[:, None])
         kind[:, behind] |= covered[:, None, :].astype(np.int8)
     end_row = kind[:, D - 1]
     end_cols = (columns[None, :] >= x[:, None]) & (columns[None, :] < (x + w)[:, None])
     end_row[end_cols] = GOAL
-    raw = np.stack(steps, axis=1)                      # [n, T, 2], with repeats where padded
-    centre, length = _compact(raw)
-    return DrawnPaths(kind=kind, start=start, centre=centre, length=length)
+    if not centre:
+        return DrawnPaths(kind=kind, start=start, centre=np.zeros((n, 0, 2), dtype=np.int64),
+                          length=np.zeros(n, dtype=np.int64))
+    line, length = _compact(np.stack(steps, axis=1))      # [n, T, 2], with repeats where padded
+    return DrawnPaths(kind=kind, start=start, centre=line, length=length)
 
 
 def _compact(raw: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -83,7 +83,7 @@ class FieldModel:
 
     def draw(self, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Paths from uniforms ``u`` [n, shape.draws]: (kind int8[n, C], start cell int64[n])."""
-        return self.frame.to_field(draw_paths(self.shape, u))
+        return self.frame.to_field(draw_paths(self.shape, u, centre=False))
 
     def outcome(self, state: np.ndarray, action: np.ndarray, kind: np.ndarray, start: np.ndarray,
                 path: np.ndarray | None = None) -> Outcome:
@@ -109,7 +109,11 @@ class FieldModel:
             return
         hit = np.flatnonzero(fell)
         if hit.size:
-            until[rows[hit], aim[hit]] = np.minimum(now[hit] + self.mark_steps, MARK_FOREVER)
+            until[rows[hit], aim[hit]] = self.mark_until(now[hit])
+
+    def mark_until(self, now: Any) -> Any:
+        """The step up to which (excluded) a mark left at step ``now`` shows (scalar or array)."""
+        return np.minimum(now + self.mark_steps, MARK_FOREVER)
 
     def path_model(self, kind: np.ndarray, start: int) -> TaskModel:
         """The finite task of one path (kind int8[C], start cell), for the exact analyses: ends

@@ -28,41 +28,50 @@ class MarkOverlay:
     """Where marks go in each modality: a vector block (one bit per cell) and pixel tiles."""
 
     block: slice | None          # the marks block of the vector, or None
-    tiles: np.ndarray | None     # bool[T, H, W]: the pixels of each tile, per cell (full view)
-                                 # or per window position (window view); None without pixels
+    tiles: np.ndarray | None     # int64[T, P]: flat pixel indices (row · width + column) of each
+                                 # tile, per cell (full view) or per window position (window view),
+                                 # padded by repeating a tile's first pixel; None without pixels
     window: int                  # cells across the window view (0: full view)
     cells: np.ndarray            # int64[C, 2] (row, column) of each cell
+    floor: np.ndarray | None = None   # bool[C, H·W]: the floor pixels of the agent's frame at each
+                                      # cell (marks paint floor only, never walls or the agent)
 
     def apply(self, parts: dict[str, np.ndarray], agent_cell: np.ndarray, marked: np.ndarray) -> None:
-        """Lay the visible marks ``marked`` bool[N, C] over batched observations (in place):
-        one matrix product finds every env's marked pixels, so there is no loop over envs."""
+        """Lay the visible marks ``marked`` bool[N, C] over batched observations (in place): the
+        pixels of every (environment, marked tile) pair are gathered and painted in one go, so
+        there is no loop over environments and the cost grows with the marks shown."""
         if self.block is not None and "vector" in parts:
             parts["vector"][:, self.block] = marked
-        if self.tiles is None or "pixels" not in parts or not marked.any():
+        if self.tiles is None or "pixels" not in parts:
             return
-        n = marked.shape[0]
+        env, cell = np.nonzero(marked)
+        if not env.size:
+            return
         if self.window:
             half = self.window // 2
-            offset = self.cells[None, :, :] - self.cells[agent_cell][:, None, :] + half      # [N, C, 2]
-            inside = ((offset >= 0) & (offset < self.window)).all(axis=2) & marked
-            lit = np.zeros((n, self.window * self.window), dtype=np.float32)
-            env, cell = np.nonzero(inside)
-            lit[env, offset[env, cell, 0] * self.window + offset[env, cell, 1]] = 1.0
+            offset = self.cells[cell] - self.cells[agent_cell[env]] + half
+            inside = ((offset >= 0) & (offset < self.window)).all(axis=1)
+            env, tile = env[inside], offset[inside, 0] * self.window + offset[inside, 1]
         else:
-            lit = marked.astype(np.float32)
-        T, H, W = self.tiles.shape
-        covered = (lit @ self.tiles.reshape(T, H * W).astype(np.float32)).reshape(n, H, W) > 0
-        frame = parts["pixels"]
-        floor = (frame == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3)
-        frame[covered & floor] = np.asarray(MARK, dtype=np.uint8)
+            tile = cell
+        frames = parts["pixels"]
+        n, h, w, _ = frames.shape
+        pixels = self.tiles[tile]                                            # [pairs, P]
+        paint = self.floor[agent_cell[env][:, None], pixels]
+        where = env[:, None] * (h * w) + pixels
+        frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(MARK, dtype=np.uint8)
 
 
-def _tile_masks(boxes: np.ndarray, height: int, width: int) -> np.ndarray:
-    """bool[T, H, W] of pixel boxes (top, bottom, left, right)."""
-    r, c = np.arange(height), np.arange(width)
-    rows = (r[None, :] >= boxes[:, 0:1]) & (r[None, :] < boxes[:, 1:2])
-    cols = (c[None, :] >= boxes[:, 2:3]) & (c[None, :] < boxes[:, 3:4])
-    return rows[:, :, None] & cols[:, None, :]
+def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
+    """int64[T, P]: flat pixel indices of pixel boxes (top, bottom, left, right), padded."""
+    sizes = (boxes[:, 1] - boxes[:, 0]) * (boxes[:, 3] - boxes[:, 2])
+    out = np.zeros((boxes.shape[0], max(int(sizes.max()), 1)), dtype=np.int64)
+    for i, (top, bottom, left, right) in enumerate(boxes):      # once per table, not per step
+        r, c = np.meshgrid(np.arange(top, bottom), np.arange(left, right), indexing="ij")
+        flat = (r * width + c).ravel()
+        out[i] = flat[0] if flat.size else 0
+        out[i, :flat.size] = flat
+    return out
 
 
 def field_observation_set(model: FieldModel, spec: Observation) -> tuple[ObservationSet, MarkOverlay]:
@@ -81,17 +90,18 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
             blocks["noise"] = slice(table.shape[1], table.shape[1] + noise.bits)
         vector = VectorLayout(blocks=blocks, table=table, noise_bits=noise.bits if noise else 0,
                               flip_probability=noise.flip_probability if noise else 0.0)
-    pixels = tiles = None
+    pixels = tiles = floor = None
     window = 0
     if spec.pixels is not None:
         p = spec.pixels
         pixels = pixel_table(view, p.height, p.width, p.view, p.window)
         if model.mark_steps > 0:
-            tiles = _tile_masks(tile_boxes(view, p.height, p.width, p.view, p.window), p.height, p.width)
+            tiles = _tile_pixels(tile_boxes(view, p.height, p.width, p.view, p.window), p.width)
             window = p.window if p.view == "window" else 0
+            floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
     obs = ObservationSet(tuple(spec.modalities()), vector, None, pixels, noise, cue_values=0)
-    return obs, MarkOverlay(block, tiles, window, model.layout.cells)
+    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor)
 
 
 def marks_seen(overlay: MarkOverlay) -> bool:

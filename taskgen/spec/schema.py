@@ -433,11 +433,12 @@ class Spec(Strict):
         if self.cue is not None:
             _refuse("cue", "no cue block with a field layout (the hidden path is what the agent must "
                     "remember)", "a cue block")
-        if "decision" in self.model_fields_set:
-            _refuse("decision", "no decision block with a field layout (reaching the path's end pays "
+        # defaults are allowed (a spec written back out lists them), other values mean nothing here
+        if self.decision != Decision():
+            _refuse("decision", "no decision rule with a field layout (reaching the path's end pays "
                     "rewards.correct)", "a decision block")
-        for name in ("wrong", "per_goal"):
-            if name in self.rewards.model_fields_set:
+        for name, default in (("wrong", 0.0), ("per_goal", None)):
+            if getattr(self.rewards, name) != default:
                 _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a fall "
                         "pays rewards.fall)", f"rewards.{name}")
         obs = self.observation

@@ -102,13 +102,10 @@ def _frame_gather_loop(table: np.ndarray, num_envs: int, rng: np.random.Generato
     return run
 
 
-def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
-              seed: int = 0) -> dict[str, Any]:
-    """Measure every runtime and the references; returns timings, ratios and memory."""
-    rng = np.random.default_rng(seed)
-    sync_envs = sync_envs or num_envs
-    batched = make_vec(spec, num_envs)
-    timings = [
+def _common_timings(spec: Spec, batched: Any, num_envs: int, sync_envs: int, budget: float,
+                    rng: np.random.Generator) -> list[Timing]:
+    """Our single, batched and SyncVectorEnv runs, and FrozenLake's single and SyncVectorEnv runs."""
+    return [
         _timed("taskgen single env", 1, _single_loop(make(spec), rng), budget),
         _timed(f"taskgen batched env ({num_envs})", num_envs, _vector_loop(batched, rng), budget),
         _timed(f"SyncVectorEnv over taskgen env ({sync_envs})", sync_envs,
@@ -118,8 +115,45 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
         _timed(f"SyncVectorEnv over FrozenLake-v1 ({sync_envs})", sync_envs,
                _vector_loop(gym.vector.SyncVectorEnv([lambda: gym.make(**FROZEN_LAKE).unwrapped] * sync_envs),
                             rng), budget),
-        _timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng), budget),
     ]
+
+
+def _field_bench(spec: Spec, num_envs: int, budget: float, sync_envs: int, rng: np.random.Generator) -> dict[str, Any]:
+    """A field's runtimes: a step also draws paths at resets and lays marks over observations."""
+    batched = make_vec(spec, num_envs)
+    timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)
+    pixels = make_vec(spec, num_envs, observation__vector=None, observation__pixels={"height": 64, "width": 64})
+    timings += [
+        _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
+        _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
+               _frame_gather_loop(pixels.core.observations.pixels, num_envs, rng), budget),
+    ]
+    single, vec, sync_ours, fl_single, fl_sync, pix, gather = (t.env_steps_per_s for t in timings)
+    ratios = {
+        "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
+        "single / FrozenLake single": single / fl_single,
+        "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
+        "batched / single": vec / single,
+        "top-down pixels / numpy frame gather": pix / gather,
+    }
+    memory = batched.memory_bytes()
+    bits = batched.core.bits
+    return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(bits),
+            "timings": [t.__dict__ for t in timings], "env_steps_per_s": {t.name: t.env_steps_per_s for t in timings},
+            "ratios": ratios, "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
+
+
+def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
+              seed: int = 0) -> dict[str, Any]:
+    """Measure every runtime and the references; returns timings, ratios and memory."""
+    rng = np.random.default_rng(seed)
+    sync_envs = sync_envs or num_envs
+    if spec.layout.field is not None:
+        return _field_bench(spec, num_envs, budget, sync_envs, rng)
+    batched = make_vec(spec, num_envs)
+    timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)
+    timings.append(_timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng),
+                          budget))
     pixels = make_vec(spec, num_envs, observation__vector=None, observation__grid=None,
                       observation__pixels={"height": 64, "width": 64})
     timings += [

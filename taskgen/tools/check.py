@@ -9,10 +9,12 @@ from typing import Any
 from tqdm import tqdm
 
 from ..analysis import VariantReport, analyse
+from ..analysis.fields import FieldReport
 from ..model import TaskModel, compile_variant
 from ..render import observation_set
 from ..spec import Spec
 from ..variant import make_variant
+from .field_check import check_field_variant
 
 BASELINE_ORDER = ("optimal", "chance", "cue_blind", "random")
 
@@ -22,8 +24,11 @@ def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
     return observation_set(model, spec.observation).tables()
 
 
-def check_variant(spec: Spec, seed: int, min_gap: float = 0.0) -> VariantReport:
-    """Compile one variant and run every analysis on what the agent really observes."""
+def check_variant(spec: Spec, seed: int, min_gap: float = 0.0) -> VariantReport | FieldReport:
+    """Compile one variant and run every analysis on what the agent really observes (a field's
+    report has its figures over sampled paths: see field_check.py)."""
+    if spec.layout.field is not None:
+        return check_field_variant(spec, seed, min_gap=min_gap)
     model = compile_variant(make_variant(spec, seed))
     return analyse(model, observation_tables(model, spec), min_gap=min_gap)
 

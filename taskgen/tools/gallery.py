@@ -33,7 +33,7 @@ from ..render.palette import AGENT, CUE_COLOURS
 from ..spec import Spec
 from ..variant import make_variant
 from .check import check_variant, observation_tables
-from .field_check import FIELD_BASELINES, check_field_variant
+from .field_check import FIELD_BASELINES
 from .output import child_path, write_text_atomic
 
 POLICIES = ("auto", "optimal", "random", "chance", "explorer")
@@ -266,8 +266,7 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
     policy = resolve_policy(spec, policy)
     folder = child_path(out, spec.name)
     folder.mkdir(parents=True, exist_ok=True)
-    report = check_field_variant(spec, variant_seed) if spec.layout.field is not None else \
-        check_variant(spec, variant_seed)
+    report = check_variant(spec, variant_seed)
     items = []
     for e in tqdm(range(episodes), desc=f"gallery {spec.name}", unit="episode",
                   disable=None if progress is None else not progress, leave=False):

@@ -21,14 +21,15 @@ import yaml
 from tqdm import tqdm
 
 from .. import __version__
-from ..analysis.fingerprint import fingerprint
+from ..analysis.fingerprint import field_fingerprint, fingerprint
 from ..envs import resolve_spec
 from ..errors import SpecError, TaskgenError
 from ..generate.maze import count_spanning_trees
-from ..model import compile_variant
+from ..model import compile_field, compile_variant
 from ..spec import Spec
 from ..variant import make_variant
 from .check import check_variant
+from .field_check import check_field_variant
 from .output import write_text_atomic
 
 MANIFEST_FORMAT = 1
@@ -113,7 +114,9 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
 
 def family_size(spec: Spec) -> int | None:
     """How many distinct layouts the spec can produce, where that is countable (else None)."""
-    corridor, maze = spec.layout.corridor, spec.layout.maze
+    corridor, maze, fields = spec.layout.corridor, spec.layout.maze, spec.layout.field
+    if fields is not None:   # a field's layout is its size and path shape (paths are drawn per episode)
+        return _count(fields.width) * _count(fields.height) * _count(fields.path.turns)
     if corridor is not None:
         return _count(corridor.length) * _count(corridor.arm_length)
     if (maze.generator == "uniform" and maze.braid == 0 and maze.width.fixed and maze.height.fixed
@@ -131,13 +134,31 @@ def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
     """Compile one candidate: its fingerprint and parameter values (runs in a worker)."""
     spec, seed = job
     variant = make_variant(spec, seed)
+    if spec.layout.field is not None:
+        field = compile_field(variant)
+        return field_fingerprint(field), dict(field.params)
     model = compile_variant(variant)
     return fingerprint(model), dict(model.params)
+
+
+def _field_figures(spec: Spec, seed: int) -> dict[str, Any]:
+    """A field variant's figures: means over its sampled paths, with their standard errors."""
+    report = check_field_variant(spec, seed)
+    out: dict[str, Any] = {}
+    for name in ("optimal", "chance", "random"):
+        b = report.baselines[name]
+        out[name] = {"success_rate": b.success_rate.mean, "mean_return": b.mean_return.mean,
+                     "mean_return_se": b.mean_return.standard_error, "method": b.method}
+    out["recall_distance"] = {}
+    out["ok"] = report.ok
+    return out
 
 
 def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
     """The analyses of one accepted variant (runs in a worker)."""
     spec, seed = job
+    if spec.layout.field is not None:
+        return _field_figures(spec, seed)
     report = check_variant(spec, seed)
     out = {name: {k: v for k, v in report.baselines[name].to_dict().items() if k in
                   ("success_rate", "mean_return", "method")} for name in ("optimal", "chance", "random")}
@@ -293,6 +314,8 @@ def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteR
 
 def _family_words(spec: Spec) -> str:
     maze = spec.layout.maze
+    if spec.layout.field is not None:
+        return "one per combination of field width, height and path turns; paths are drawn per episode"
     if maze is None:
         return "one per combination of corridor length and arm length"
     return (f"perfect mazes of {maze.width.low}×{maze.height.low} cells with fixed start and goals: the "

@@ -1,0 +1,92 @@
+"""Field observations: marks land on their cell's tile only, the view never depends on the
+path, observation classes follow what the agent sees, and only the ground truth draws the path."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import taskgen
+from taskgen.generate.paths import OFF
+from taskgen.render.field import FieldPictures, field_observation_set, view_classes
+from taskgen.render.palette import MARK, PATH, PATH_END
+from taskgen.render.topdown import tile_boxes
+
+from conftest import field_spec_text
+
+
+def _built(observation, **fields):
+    spec = taskgen.load_spec_text(field_spec_text(observation=observation, **fields))
+    model = taskgen.build_model(spec)
+    obs, overlay = field_observation_set(model, spec.observation)
+    return model, obs, overlay
+
+
+@pytest.mark.parametrize("view", ["full", "window"])
+def test_a_mark_paints_the_floor_of_its_own_tile_only(view):
+    """Marking one cell changes exactly the floor pixels of that cell's tile (its box from
+    tile_boxes), all to the mark colour; in the window view a cell outside the window changes nothing."""
+    model, obs, overlay = _built({"vector": None, "pixels": {"height": 60, "width": 48, "view": view, "window": 3}},
+                                 width=4, height=5)
+    agent = np.array([model.num_cells - 2])                       # bottom row
+    for cell, visible in ((agent[0] - 4, True), (0, view == "full")):
+        frames = {"pixels": obs.pixels[agent].copy()}
+        marked = np.zeros((1, model.num_cells), dtype=bool)
+        marked[0, cell] = True
+        overlay.apply(frames, agent, marked)
+        changed = (frames["pixels"][0] != obs.pixels[agent[0]]).any(axis=2)
+        assert changed.any() == visible
+        if visible:
+            boxes = tile_boxes(model.view_model(), 60, 48, view, 3)
+            dr, dc = model.layout.cells[cell] - model.layout.cells[agent[0]] + 1   # its place in the window
+            top, bottom, left, right = boxes[cell if view == "full" else dr * 3 + dc]
+            inside = np.zeros_like(changed)
+            inside[top:bottom, left:right] = True
+            assert not (changed & ~inside).any()
+            assert (frames["pixels"][0][changed] == MARK).all()
+
+
+def test_the_agent_view_is_rendered_without_the_path():
+    """The view tables come from a model with no path cells, and every path's model gives the
+    agent the same observation classes."""
+    model, obs, overlay = _built({"vector": {"position": "one_hot"}, "pixels": {"height": 32, "width": 32}},
+                                 width=5, height=6, turns=2, start="random")
+    view = model.view_model()
+    assert view.layout.sites["path"].size == 0
+    kind, start = model.draw(np.random.default_rng(0).random((5, model.shape.draws)))
+    for k, s in zip(kind, start):
+        path = model.path_model(k, int(s))
+        assert np.array_equal(path.obs_key, view.obs_key) and path.layout.sites["path"].size > 0
+
+
+def test_observation_classes_follow_what_the_agent_sees():
+    """With one-hot positions every cell is its own class; with neither position nor walls every
+    cell looks the same; with walls only, cells group by which field edges they touch (9 kinds
+    of cell on a field at least 3 × 3: corners, edges, interior; common practice)."""
+    for vector, expect in (({"position": "one_hot"}, 20), ({"position": "none", "walls": False}, 1),
+                           ({"position": "none", "walls": True}, 9)):
+        model, obs, overlay = _built({"vector": vector}, width=4, height=5)
+        assert np.unique(view_classes(obs, overlay)).size == expect
+
+
+def test_only_the_ground_truth_draws_the_path():
+    """The truth picture fills every path cell (its end in the end colour); the agent picture
+    has neither colour; a marked cell shows the mark colour in both."""
+    model, _, _ = _built(None, width=5, height=6, turns=2, start="random")
+    kind, start = model.draw(np.random.default_rng(3).random((1, model.shape.draws)))
+    pictures = FieldPictures(model, cell_px=10)
+    marked = np.zeros(model.num_cells, dtype=bool)
+    off = int(np.flatnonzero(kind[0] == OFF)[0])
+    marked[off] = True
+    truth = pictures.truth(kind[0], int(start[0]), marked)
+    agent = pictures.agent(int(start[0]), marked)
+    for picture, shows in ((truth, True), (agent, False)):
+        assert (picture == PATH).all(axis=2).any() == shows
+        assert (picture == PATH_END).all(axis=2).any() == shows
+        assert (picture == MARK).all(axis=2).any()
+    on_cells = 0
+    for cell in np.flatnonzero(kind[0] != OFF):
+        r, c = model.layout.cells[cell]
+        left, top, right, bottom = pictures.renderer.box(int(r), int(c))
+        on_cells += (truth[top:bottom + 1, left:right + 1] == (PATH_END if kind[0][cell] == 2 else PATH)).all(axis=2).any()
+    assert on_cells == int((kind[0] != OFF).sum())
