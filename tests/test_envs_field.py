@@ -23,6 +23,7 @@ MODALITIES = {
     "pixels": {"vector": None, "pixels": {"height": 40, "width": 32, "noise": {"kind": "gaussian", "amplitude": 0.05}}},
     "window": {"vector": {"position": "coordinates"}, "pixels": {"height": 24, "width": 24, "view": "window",
                                                                  "window": 3}},
+    "grid": {"vector": None, "grid": {"size": 5}},
 }
 
 
@@ -93,7 +94,7 @@ def test_two_different_paths_look_the_same_at_the_start(modality):
     """With the start fixed in the middle, episodes on different paths begin with identical
     observations in every modality (noise aside): the path leaks into no observation."""
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, observation={
-        k: (None if v is None else {**v, "noise": None}) for k, v in MODALITIES[modality].items()}))
+        k: (v if v is None or k == "grid" else {**v, "noise": None}) for k, v in MODALITIES[modality].items()}))
     env = taskgen.make(spec)
     seen = {}
     for seed in range(40):

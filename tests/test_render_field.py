@@ -90,3 +90,19 @@ def test_only_the_ground_truth_draws_the_path():
         left, top, right, bottom = pictures.renderer.box(int(r), int(c))
         on_cells += (truth[top:bottom + 1, left:right + 1] == (PATH_END if kind[0][cell] == 2 else PATH)).all(axis=2).any()
     assert on_cells == int((kind[0] != OFF).sum())
+
+
+def test_the_grid_view_marks_cells_in_its_window_in_the_mark_channel():
+    """A field's grid view has the nine FIELD_GRID_CHANNELS; a marked cell inside the window sets
+    the mark channel at its place, one outside sets nothing, and no goal is ever shown."""
+    from taskgen.render.field import FIELD_GRID_CHANNELS, MARK_CHANNEL
+    model, obs, overlay = _built({"vector": None, "grid": {"size": 3}}, width=4, height=5)
+    assert obs.grid.shape[1:] == (3, 3, len(FIELD_GRID_CHANNELS)) and not obs.grid[..., 5].any()
+    agent = np.array([9])                                  # row 2, column 1
+    marked = np.zeros((1, model.num_cells), dtype=bool)
+    marked[0, [10, 0]] = True                              # east of the agent; far away
+    parts = {"grid": obs.grid[agent].copy()}
+    overlay.apply(parts, agent, marked)
+    expect = np.zeros((3, 3), dtype=np.uint8)
+    expect[1, 2] = 1
+    assert np.array_equal(parts["grid"][0, ..., MARK_CHANNEL], expect)

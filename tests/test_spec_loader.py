@@ -72,9 +72,9 @@ FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\
     (FIELD + "cue: {values: 2}\n",
      "x.yaml:5:6: cue: expected no cue block with a field layout (the hidden path is what the agent must "
      "remember), got a cue block"),
-    (FIELD + "observation: {grid: {size: 3}}\n",
-     "x.yaml:5:21: observation.grid: expected observation.vector and/or observation.pixels with a field "
-     "layout, got observation.grid"),
+    (FIELD + "observation: {first_person: {}}\n",
+     "x.yaml:5:29: observation.first_person: expected observation.vector, grid and/or pixels with a field "
+     "layout (a first-person view needs turns), got observation.first_person"),
     (FIELD + "rewards: {wrong: -1}\n",
      "x.yaml:5:18: rewards.wrong: expected no rewards.wrong or rewards.per_goal with a field layout (a fall "
      "pays rewards.fall), got rewards.wrong"),

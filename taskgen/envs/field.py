@@ -94,6 +94,8 @@ class FieldCore:
             out[:, :width] = self.vector.table[cell]
             out[:, width:] = self.noise
             parts["vector"] = out
+        if self.observations.grid is not None:
+            parts["grid"] = self.observations.grid[cell]
         if self.observations.pixels is not None:
             parts["pixels"] = self.observations.pixels[cell]
         self.overlay.apply(parts, cell, self.until > self.step_count[:, None])

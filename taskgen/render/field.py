@@ -19,8 +19,14 @@ from ..model.field import GOAL, OFF
 from ..spec.schema import Observation
 from .observations import ObservationSet
 from .palette import AGENT, FLOOR, MARK, PATH, PATH_END
+from .grid import GRID_CHANNELS, grid_table
 from .topdown import TopDownRenderer, pixel_table, tile_boxes
 from .vector import VectorLayout, vector_layout
+
+
+#: A field's grid view has one channel more than GRID_CHANNELS: 1 where a mark shows.
+FIELD_GRID_CHANNELS = GRID_CHANNELS + ("mark",)
+MARK_CHANNEL = len(GRID_CHANNELS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -35,6 +41,8 @@ class MarkOverlay:
     cells: np.ndarray            # int64[C, 2] (row, column) of each cell
     floor: np.ndarray | None = None   # bool[C, H·W]: the floor pixels of the agent's frame at each
                                       # cell (marks paint floor only, never walls or the agent)
+    grid: int = 0                # cells across the grid view (0: no grid view)
+    neighbours_seen: bool = False     # some modality shows the cells beside the agent with their marks
 
     def apply(self, parts: dict[str, np.ndarray], agent_cell: np.ndarray, marked: np.ndarray) -> None:
         """Lay the visible marks ``marked`` bool[N, C] over batched observations (in place): the
@@ -42,10 +50,17 @@ class MarkOverlay:
         there is no loop over environments and the cost grows with the marks shown."""
         if self.block is not None and "vector" in parts:
             parts["vector"][:, self.block] = marked
-        if self.tiles is None or "pixels" not in parts:
+        if (self.tiles is None or "pixels" not in parts) and not (self.grid and "grid" in parts):
             return
         env, cell = np.nonzero(marked)
         if not env.size:
+            return
+        if self.grid and "grid" in parts:
+            half = self.grid // 2
+            at = self.cells[cell] - self.cells[agent_cell[env]] + half
+            inside = ((at >= 0) & (at < self.grid)).all(axis=1)
+            parts["grid"][env[inside], at[inside, 0], at[inside, 1], MARK_CHANNEL] = 1
+        if self.tiles is None or "pixels" not in parts:
             return
         if self.window:
             half = self.window // 2
@@ -90,6 +105,10 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
             blocks["noise"] = slice(table.shape[1], table.shape[1] + noise.bits)
         vector = VectorLayout(blocks=blocks, table=table, noise_bits=noise.bits if noise else 0,
                               flip_probability=noise.flip_probability if noise else 0.0)
+    grid = None
+    if spec.grid is not None:   # north-up (fields have no headings), plus the mark channel
+        plain = grid_table(view, spec.grid.size)
+        grid = np.concatenate([plain, np.zeros(plain.shape[:3] + (1,), dtype=np.uint8)], axis=3)
     pixels = tiles = floor = None
     window = 0
     if spec.pixels is not None:
@@ -100,13 +119,17 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
             window = p.window if p.view == "window" else 0
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
-    obs = ObservationSet(tuple(spec.modalities()), vector, None, pixels, noise, cue_values=0)
-    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor)
+    obs = ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0)
+    marks = model.mark_steps > 0
+    beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
+                        or (spec.grid is not None and spec.grid.size >= 3))
+    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor,
+                            spec.grid.size if marks and spec.grid is not None else 0, beside)
 
 
 def marks_seen(overlay: MarkOverlay) -> bool:
-    """True when some modality shows the agent the marks."""
-    return overlay.block is not None or overlay.tiles is not None
+    """True when some modality shows the agent the marks on the cells beside it."""
+    return overlay.neighbours_seen
 
 
 def view_classes(obs: ObservationSet, overlay: MarkOverlay) -> np.ndarray:

@@ -315,7 +315,8 @@ def _odd(value: Any) -> Any:
 
 class GridObservation(Strict):
     """A window of cells centred on the agent: uint8 channels open, wall north / east / south /
-    west, goal (cue value + 1), cue (shown value + 1, at the agent), agent (1, or heading + 1)."""
+    west, goal (cue value + 1), cue (shown value + 1, at the agent), agent (1, or heading + 1);
+    a field adds a ninth channel, mark (1 where a feedback mark shows), and has no goal or cue."""
 
     size: Annotated[int, BeforeValidator(_odd)] = Field(
         default=5, ge=1, le=31, description="Cells across the (square, odd-sided) window.", examples=[5])
@@ -442,10 +443,9 @@ class Spec(Strict):
                 _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a fall "
                         "pays rewards.fall)", f"rewards.{name}")
         obs = self.observation
-        for name in ("grid", "first_person"):
-            if getattr(obs, name) is not None:
-                _refuse(f"observation.{name}", "observation.vector and/or observation.pixels with a field "
-                        "layout", f"observation.{name}")
+        if obs.first_person is not None:
+            _refuse("observation.first_person", "observation.vector, grid and/or pixels with a field layout "
+                    "(a first-person view needs turns)", "observation.first_person")
         if self.agent.actions != "moves":
             _refuse("agent.actions", "agent.actions 'moves' with a field layout", repr(self.agent.actions))
         for name in ("decoy_probability", "lure_probability"):
