@@ -109,14 +109,7 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
     for attempt in range(MAX_LAYOUT_ATTEMPTS):   # redraw the maze until the rules can be met
         layout_rng = variant_rng(seed, _LAYOUT_STREAM, attempt)
         try:
-            if maze.generator == "uniform":
-                passages = wilson_maze(layout_rng, h, w)
-            elif maze.generator == "backtracker":
-                passages = backtracker_maze(layout_rng, h, w)
-            else:
-                passages = rooms_maze(layout_rng, h, w, maze.room_size)
-            if maze.braid > 0:
-                passages = braid(layout_rng, passages, maze.braid)
+            passages = carve(layout_rng, maze.generator, h, w, maze.room_size, maze.braid)
             neighbour = maze_layout(passages, 0, []).neighbour
             start, goals, cue_site = place(variant_rng(seed, _PLACEMENT_STREAM, attempt), neighbour,
                                            (h, w), rules)
@@ -137,7 +130,8 @@ def _maze_variant(spec: Spec, seed: int) -> Variant:
 def field_geometry(params: dict[str, Any]) -> tuple[FieldFrame, PathShape]:
     """The frame and path shape a field variant's parameters give."""
     frame = FieldFrame(params["height"], params["width"], params["start_side"])
-    return frame, PathShape(frame.depth, frame.across, params["turns"], params["path_width"], params["start"])
+    return frame, PathShape(frame.depth, frame.across, params.get("turns", 0), params.get("path_width", 1),
+                            params["start"])
 
 
 def _field_variant(spec: Spec, seed: int) -> Variant:
@@ -146,17 +140,23 @@ def _field_variant(spec: Spec, seed: int) -> Variant:
     what = f"{spec.name}-s{seed}"
     rng = variant_rng(seed, _PARAMS_STREAM)
     params: dict[str, Any] = {"width": field.width.sample(rng), "height": field.height.sample(rng),
-                              "turns": field.path.turns.sample(rng), "path_width": field.path.width,
                               "start_side": field.path.start_side, "start": field.path.start}
+    if field.maze is None:    # with walls the passages decide the path's turns and width
+        params.update(turns=field.path.turns.sample(rng), path_width=field.path.width)
     frame, shape = field_geometry(params)
     problem = shape.problem()
+    if field.maze is not None:
+        problem = None if frame.depth >= 2 else \
+            f"a path needs at least 2 rows from side to side, the field has {frame.depth}"
     if problem is not None:
-        raise LayoutError(f"{what} ({params['width']}×{params['height']} field, {params['turns']} turns, "
+        shape_words = f"{params['turns']} turns" if field.maze is None else f"{field.maze.generator} walls"
+        raise LayoutError(f"{what} ({params['width']}×{params['height']} field, {shape_words}, "
                           f"variant seed {seed}): {problem}")
     rows, cols = params["height"], params["width"]
     horizon = spec.episode.max_steps
-    if horizon == "auto":
-        horizon = int(np.ceil(spec.episode.max_steps_factor * shape.longest))
+    if horizon == "auto":   # a path through walls visits each cell at most once
+        longest = rows * cols - 1 if field.maze is not None else shape.longest
+        horizon = int(np.ceil(spec.episode.max_steps_factor * longest))
     levels = (field.fall.max_falls or 0) + 1
     check_work(what, rows * cols * levels, 4, max(horizon, 1))
     obs = spec.observation
@@ -167,10 +167,32 @@ def _field_variant(spec: Spec, seed: int) -> Variant:
         check_bytes(f"{what}: the pixel table", cells * obs.pixels.height * obs.pixels.width * 3)
     check_bytes(f"{what}: a top-down picture", (rows + 3) * (cols + 2) * 12 * 12 * 3)
     index = frame.cell_index()
-    layout = grid_from_cells((rows, cols), [(r, c) for r in range(rows) for c in range(cols)], (0, 0), {})
+    if field.maze is None:
+        layout = grid_from_cells((rows, cols), [(r, c) for r in range(rows) for c in range(cols)], (0, 0), {})
+    else:
+        try:
+            passages = carve(variant_rng(seed, _LAYOUT_STREAM), field.maze.generator, rows, cols,
+                             field.maze.room_size, field.maze.braid)
+        except ValueError as exc:
+            raise LayoutError(f"{what} ({cols}×{rows} field with {field.maze.generator} walls, variant seed "
+                              f"{seed}): {exc}") from None
+        layout = maze_layout(passages, 0, [])
+        params.update(walls=field.maze.generator, braid=field.maze.braid, dead_ends=int(dead_ends(passages).size))
     sides = {"start_side": index[0], "far_side": index[-1]}
     layout = replace(layout, start=int(index[0, 0]), sites=sides)
     return Variant(spec=spec, seed=seed, params=params, layout=layout)
+
+
+def carve(rng: np.random.Generator, generator: str, height: int, width: int, room_size: int,
+          fraction: float) -> np.ndarray:
+    """Passages of one maze from the named generator, braided by ``fraction``."""
+    if generator == "uniform":
+        passages = wilson_maze(rng, height, width)
+    elif generator == "backtracker":
+        passages = backtracker_maze(rng, height, width)
+    else:
+        passages = rooms_maze(rng, height, width, room_size)
+    return braid(rng, passages, fraction) if fraction > 0 else passages
 
 
 def _check_size(spec: Spec, params: dict[str, Any], what: str) -> None:

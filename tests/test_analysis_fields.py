@@ -109,3 +109,27 @@ def test_the_explorer_on_a_one_turn_path_worked_example():
     assert 0 < east.sum() < 16
     assert np.allclose(result.returns, np.where(east, 0.95, 0.85))
     assert np.array_equal(result.length, np.where(east, 5, 10))
+
+
+@pytest.mark.parametrize("fields", [
+    dict(width=7, height=8, turns=5, start="random"),
+    dict(width=8, height=7, turns=3, start="random", path={"width": 2}),
+    dict(width=6, height=6, turns=4, start="random", fall={"to": "stay"}),
+    dict(width=8, height=8, start="random", maze="backtracker"),
+    dict(width=9, height=6, start="random", maze="rooms"),
+], ids=["winding", "wide", "stay", "backtracker walls", "rooms walls"])
+def test_the_explorer_crosses_every_path_given_time(fields):
+    """The explorer is a depth-first search of the safe cells, so with a generous step limit it
+    reaches the end of every path (depth-first search visits every vertex of a connected graph:
+    Tarjan, SIAM J. Comput. 1972), open field or walls."""
+    from taskgen.analysis.field_policies import explore
+    walls = fields.pop("maze", None)
+    text = field_spec_text(episode={"max_steps": 1500}, **fields)
+    if walls:
+        import yaml
+        doc = yaml.safe_load(text)
+        doc["layout"]["field"]["maze"] = {"generator": walls, "braid": 0.3}
+        text = yaml.safe_dump(doc)
+    model = taskgen.build_model(taskgen.load_spec_text(text))
+    kind, start = sample_paths(model, 1, 300)
+    assert explore(model, kind, start).success.all()

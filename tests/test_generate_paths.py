@@ -86,3 +86,25 @@ def test_frames_put_the_start_on_the_start_side_and_the_end_opposite(side):
               "west": (cols == 0, end_cols == 5), "east": (cols == 5, end_cols == 0)}[side]
     assert expect[0].all() and expect[1].all()
     assert sorted(frame.cell_index().ravel()) == list(range(24))
+
+
+@pytest.mark.parametrize("generator", ["uniform", "backtracker", "rooms"])
+def test_paths_through_walls_are_shortest_ways_along_the_passages(generator):
+    """In a walled field every banked path runs along passages from its start (start side) to
+    its end (far side) and is a shortest way there: its cells − 1 equal networkx's shortest path
+    length in the passage graph (networkx shortest_path_length)."""
+    import yaml
+    import taskgen
+    spec = taskgen.load_spec_text(yaml.safe_dump({"format_version": 1, "name": "walls", "layout": {"field": {
+        "width": 6, "height": 6, "maze": {"generator": generator, "braid": 0.3}}}}))
+    model = taskgen.build_model(spec, seed=2)
+    passages = nx.Graph((c, int(n)) for c, row in enumerate(model.layout.neighbour) for n in row if n >= 0)
+    index = model.frame.cell_index()
+    assert model.bank_kind.shape == (36, 36)
+    for kind, start in zip(model.bank_kind, model.bank_start):
+        end = int(np.flatnonzero(kind == GOAL)[0])
+        cells = np.flatnonzero(kind != OFF)
+        assert start in index[0] and end in index[-1]
+        on = passages.subgraph(cells.tolist() + [int(start)])
+        assert nx.has_path(on, int(start), end)
+        assert cells.size - 1 == nx.shortest_path_length(passages, int(start), end)

@@ -18,7 +18,7 @@ def straight(L: int, **fields):
     """A field three cells wide and L + 1 deep with a straight path up its middle column: the
     path model and the path's cells from start (the south edge) to end."""
     model = field_model(width=3, height=L + 1, turns=0, start="middle", **fields)
-    kind, start = model.draw(np.zeros((1, model.shape.draws)))
+    kind, start = model.draw(np.zeros((1, model.draws)))
     return model, model.path_model(kind[0], int(start[0])), kind[0], int(start[0])
 
 
@@ -108,7 +108,7 @@ def test_one_path_model_agrees_with_the_shared_step_rule():
     says, so the analyses and the runtimes read one rule."""
     model = field_model(width=5, height=6, turns=3, start="random", fall={"max_falls": 3},
                         rewards={"step": -0.02, "fall": -0.3, "correct": 2.0})
-    kind, start = model.draw(np.random.default_rng(4).random((1, model.shape.draws)))
+    kind, start = model.draw(np.random.default_rng(4).random((1, model.draws)))
     path = model.path_model(kind[0], int(start[0]))
     S, A = path.num_states, path.num_actions
     s, a = np.divmod(np.arange(S * A), A)

@@ -53,7 +53,7 @@ def test_the_agent_view_is_rendered_without_the_path():
                                  width=5, height=6, turns=2, start="random")
     view = model.view_model()
     assert view.layout.sites["path"].size == 0
-    kind, start = model.draw(np.random.default_rng(0).random((5, model.shape.draws)))
+    kind, start = model.draw(np.random.default_rng(0).random((5, model.draws)))
     for k, s in zip(kind, start):
         path = model.path_model(k, int(s))
         assert np.array_equal(path.obs_key, view.obs_key) and path.layout.sites["path"].size > 0
@@ -73,7 +73,7 @@ def test_only_the_ground_truth_draws_the_path():
     """The truth picture fills every path cell (its end in the end colour); the agent picture
     has neither colour; a marked cell shows the mark colour in both."""
     model, _, _ = _built(None, width=5, height=6, turns=2, start="random")
-    kind, start = model.draw(np.random.default_rng(3).random((1, model.shape.draws)))
+    kind, start = model.draw(np.random.default_rng(3).random((1, model.draws)))
     pictures = FieldPictures(model, cell_px=10)
     marked = np.zeros(model.num_cells, dtype=bool)
     off = int(np.flatnonzero(kind[0] == OFF)[0])

@@ -82,6 +82,9 @@ FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\
      "x.yaml:4:46: layout.field.mark.steps: expected an integer ≥ 1 or 'episode', got 0"),
     (FIELD.replace("height: 5", "height: 5, path: {width: 9}"),
      "x.yaml:4:46: layout.field.path.width: expected an integer ≤ 4, got 9"),
+    (FIELD.replace("height: 5", "height: 5, maze: {generator: rooms}, path: {turns: 2}"),
+     "x.yaml:4:72: layout.field.path.turns: expected no path.turns with field walls (the passages decide the "
+     "path), got 2"),
     (GOOD + "observation: {first_person: {}}\n",
      "x.yaml:1:1: agent.actions: expected agent.actions 'turns' for a first-person or egocentric view, "
      "got 'moves'"),

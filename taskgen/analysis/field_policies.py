@@ -14,15 +14,16 @@ from typing import Callable
 import numpy as np
 
 from ..model import FieldModel
+from ..model.field import Outcome
 from .leaks import TOLERANCE
 
 SEARCH_EVALUATIONS = 600      # candidate policies the chance search evaluates at most
-EXPLORER_CLASS = ("remembers where it fell (memory, not the path): walks toward the far side where it has "
-                  "not fallen, else along the side it last tried, turning back at an edge or a known fall")
+EXPLORER_CLASS = ("remembers where it fell, where it has been and the moves that took it on (memory, not "
+                  "the path): retraces those moves, else tries forward, sideways and back, new cells first")
 
 
 Act = Callable[[int, np.ndarray, np.ndarray, np.ndarray], np.ndarray]
-OnFall = Callable[[np.ndarray, np.ndarray], None]
+Observe = Callable[[np.ndarray, np.ndarray, Outcome, np.ndarray], None]
 
 
 @dataclass(frozen=True)
@@ -35,12 +36,13 @@ class Rollouts:
     visited: np.ndarray     # bool[classes]: observation classes a memoryless policy met on some path
 
 
-def roll(model: FieldModel, kind: np.ndarray, start: np.ndarray, act: Act, on_fall: OnFall | None = None,
+def roll(model: FieldModel, kind: np.ndarray, start: np.ndarray, act: Act, observe: Observe | None = None,
          visited: np.ndarray | None = None) -> Rollouts:
     """Play a deterministic policy on K paths (``kind`` [K, C], ``start`` [K]) until each ends
     or times out. ``act(t, cell, marked, live)`` gives the K actions at step t from the agents'
-    cells and the marks in view; ``on_fall(fell, aim)`` is told of each step's falls (for a
-    policy with memory). Returns, discounted as the analyses discount, include the timeout."""
+    cells and the marks in view; ``observe(cell, action, outcome, live)`` is told what each
+    step did (for a policy with memory). Returns, discounted as the analyses discount, include
+    the timeout."""
     m, K = model, start.shape[0]
     rows = np.arange(K)
     state = start.copy()
@@ -49,14 +51,16 @@ def roll(model: FieldModel, kind: np.ndarray, start: np.ndarray, act: Act, on_fa
     returns, success = np.zeros(K), np.zeros(K, dtype=bool)
     length = np.zeros(K, dtype=np.int64)
     for t in range(m.horizon):
-        out = m.outcome(state, act(t, m.state_cell[state], until > t, live), kind, start)
+        cell = m.state_cell[state]
+        action = act(t, cell, until > t, live)
+        out = m.outcome(state, action, kind, start)
         gain = out.reward + np.where(~out.terminal & (t == m.horizon - 1), m.timeout_reward, 0.0)
         returns += np.where(live, m.discount ** t * gain, 0.0)
         length += live
         fell = out.fell & live
         m.mark_after(until, fell, out.aim, rows, np.full(K, t + 1))
-        if on_fall is not None:
-            on_fall(fell, out.aim)
+        if observe is not None:
+            observe(cell, action, out, live)
         success |= live & out.success
         state = np.where(live, out.next_state, state)
         live &= ~out.terminal
@@ -165,40 +169,63 @@ def _directions(model: FieldModel) -> tuple[int, int, int]:
 
 
 class Explorer:
-    """A simple agent with memory, for K paths at once: it remembers every cell it fell into,
-    steps toward the far side unless it fell there, else moves along the side in the direction
-    it last went, reversing at the field's edge or a remembered fall; with nothing else left it
-    steps back. A reference for what memory alone buys, below the agent that knows the path."""
+    """A simple agent with memory, for K paths at once: a depth-first search of the safe cells.
+
+    It remembers the cells it fell into, the cells it has stood on, the cells it has searched
+    out (no new safe cell beside them), and, for each cell it left for a new one, the move that
+    took it there. Where it knows such a move and it does not lead to a searched-out cell, it
+    takes it again (so after a fall it walks straight back to where it got to); elsewhere it
+    tries, in this order, forward (toward the far side), sideways in the direction it last went,
+    sideways the other way and back, taking the first move to a cell it has neither stood on nor
+    fallen into. With none left the cell is searched out and it steps back to a safe cell that is
+    not. A reference for what memory alone buys, below the agent that knows the path."""
 
     def __init__(self, model: FieldModel, paths: int) -> None:
         self.model = model
         self.forward, self.plus, self.minus = _directions(model)
         self.back = {0: 2, 2: 0, 1: 3, 3: 1}[self.forward]
-        self.known_off = np.zeros((paths, model.num_cells), dtype=bool)
-        self.side = np.ones(paths, dtype=bool)           # True: along +across
+        C = model.num_cells
+        self.known_off = np.zeros((paths, C), dtype=bool)
+        self.visited = np.zeros((paths, C), dtype=bool)
+        self.route = -np.ones((paths, C), dtype=np.int64)   # the move that left each cell for a new one
+        self.done = np.zeros((paths, C), dtype=bool)         # searched out: no new safe cell beside it
+        self.side = np.ones(paths, dtype=bool)               # True: last went along +across
         self.rows = np.arange(paths)
-        self.aim = model.aim[:model.num_cells]           # where each move from each cell aims
-
-    def _free(self, cell: np.ndarray, action: int | np.ndarray) -> np.ndarray:
-        target = self.aim[cell, action]
-        return (target != cell) & ~self.known_off[self.rows, target]
+        self.aim = model.aim[:C]                             # where each move from each cell aims
 
     def act(self, t: int, cell: np.ndarray, marked: np.ndarray, live: np.ndarray) -> np.ndarray:
         """The K actions at step t (marks are not needed: it remembers its falls itself)."""
+        rows = self.rows
+        self.visited[rows, cell] = True
         along = np.where(self.side, self.plus, self.minus)
-        back = np.where(self.side, self.minus, self.plus)
-        go_on, turn = self._free(cell, along), self._free(cell, back)
-        self.side = np.where(~go_on & turn, ~self.side, self.side)
-        sideways = np.where(go_on, along, back)
-        return np.where(self._free(cell, self.forward), self.forward,
-                        np.where(go_on | turn, sideways, self.back))
+        other = np.where(self.side, self.minus, self.plus)
+        order = np.stack([np.full_like(cell, self.forward), along, other, np.full_like(cell, self.back)], axis=1)
+        target = self.aim[cell[:, None], order]                            # [K, 4]
+        safe = (target != cell[:, None]) & ~self.known_off[rows[:, None], target]
+        fresh = safe & ~self.visited[rows[:, None], target]
+        known = self.route[rows, cell]
+        follow = (known >= 0) & ~self.done[rows, self.aim[cell, np.maximum(known, 0)]]
+        stuck = ~follow & ~fresh.any(axis=1)
+        self.done[rows[stuck], cell[stuck]] = True
+        back = safe & ~self.done[rows[:, None], target]
+        pick = np.where(fresh.any(axis=1), np.argmax(fresh, axis=1),
+                        np.where(back.any(axis=1), np.argmax(back, axis=1), np.argmax(safe, axis=1)))
+        return np.where(follow, known, order[rows, pick])
 
-    def on_fall(self, fell: np.ndarray, aim: np.ndarray) -> None:
-        """Remember the cells just fallen into."""
-        self.known_off[self.rows[fell], aim[fell]] = True
+    def observe(self, cell: np.ndarray, action: np.ndarray, out: Outcome, live: np.ndarray) -> None:
+        """Remember falls, and the move that reached a new cell."""
+        rows = self.rows
+        fell = out.fell & live
+        self.known_off[rows[fell], out.aim[fell]] = True
+        arrived = self.model.state_cell[out.next_state]
+        new = live & ~out.fell & (arrived != cell) & ~self.visited[rows, arrived]
+        self.route[rows[new], cell[new]] = action[new]
+        self.visited[rows[new], arrived[new]] = True
+        sideways = new & ((action == self.plus) | (action == self.minus))
+        self.side = np.where(sideways, action == self.plus, self.side)
 
 
 def explore(model: FieldModel, kind: np.ndarray, start: np.ndarray) -> Rollouts:
     """Exact figures of the :class:`Explorer` on each path."""
     explorer = Explorer(model, start.shape[0])
-    return roll(model, kind, start, explorer.act, explorer.on_fall)
+    return roll(model, kind, start, explorer.act, explorer.observe)

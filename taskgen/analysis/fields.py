@@ -110,7 +110,7 @@ class FieldReport:
 def sample_paths(model: FieldModel, seed: int, count: int) -> tuple[np.ndarray, np.ndarray]:
     """``count`` paths for the analyses, from the variant seed's own stream (same seed, same paths)."""
     rng = np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=(PATHS_STREAM,)))
-    return model.draw(rng.random((count, model.shape.draws)))
+    return model.draw(rng.random((count, model.draws)))
 
 
 def _per_path(models: list[TaskModel], falls: list[np.ndarray]) -> dict[str, FieldBaseline]:

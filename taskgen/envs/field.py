@@ -48,7 +48,7 @@ class FieldCore:
         """Start the episodes of ``rows`` whose keys are ``keys``: a new path for each."""
         if not rows.size:
             return
-        u = uniform(subkeys(keys, "path"), 0, self.model.shape.draws)
+        u = uniform(subkeys(keys, "path"), 0, self.model.draws)
         kind, start = self.model.draw(u)
         self.kind[rows], self.start[rows] = kind, start
         self.state[rows] = start                        # (start cell, no falls)

@@ -191,3 +191,35 @@ class FieldFrame:
         kind[:, index.ravel()] = drawn.kind.reshape(n, -1)
         start = index[drawn.start[:, 0], drawn.start[:, 1]]
         return kind, start
+
+
+def path_bank(neighbour: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Every path through a walled field: for each start cell and each end cell, the shortest way
+    along the passages (``neighbour`` [C, 4], −1 for a wall), ties broken by the first move in
+    action order. Returns (kind int8[S·E, C] with OFF, ON and GOAL at the end; start int64[S·E]),
+    row s·E + e for start s and end e."""
+    C = neighbour.shape[0]
+    kind = np.zeros((starts.size * ends.size, C), dtype=np.int8)
+    for i, s in enumerate(starts):            # once per variant: a breadth-first search per start
+        parent = -np.ones(C, dtype=np.int64)
+        parent[s] = s
+        frontier = [int(s)]
+        while frontier:
+            nxt = []
+            for cell in frontier:
+                for n in neighbour[cell]:
+                    if n >= 0 and parent[n] < 0:
+                        parent[n] = cell
+                        nxt.append(int(n))
+            frontier = nxt
+        for j, e in enumerate(ends):
+            row = kind[i * ends.size + j]
+            if parent[e] < 0:
+                raise ValueError(f"cell {int(e)} cannot be reached from cell {int(s)}")
+            cell = int(e)
+            while cell != s:
+                row[cell] = ON
+                cell = int(parent[cell])
+            row[s] = ON
+            row[e] = GOAL
+    return kind, np.repeat(np.asarray(starts, dtype=np.int64), ends.size)

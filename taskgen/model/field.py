@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 
 from ..generate import MOVE_NAMES, GridLayout
-from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths
+from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths, path_bank
 from ..variant import Variant, field_geometry
 from .tables import TaskModel
 
@@ -65,6 +65,13 @@ class FieldModel:
     state_out: np.ndarray    # bool[S]: the fall limit was reached (a failed end)
     params: dict[str, Any] = field(default_factory=dict)
     action_names: tuple[str, ...] = MOVE_NAMES
+    bank_kind: np.ndarray | None = None   # int8[P, C]: every path of a walled field (row start · E + end)
+    bank_start: np.ndarray | None = None  # int64[P]
+
+    @property
+    def draws(self) -> int:
+        """Uniform numbers one path needs (a walled field: its start and its end)."""
+        return 2 if self.bank_kind is not None else self.shape.draws
 
     @property
     def num_states(self) -> int:
@@ -82,8 +89,18 @@ class FieldModel:
         return self.layout.num_cells
 
     def draw(self, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Paths from uniforms ``u`` [n, shape.draws]: (kind int8[n, C], start cell int64[n])."""
-        return self.frame.to_field(draw_paths(self.shape, u, centre=False))
+        """Paths from uniforms ``u`` [n, draws]: (kind int8[n, C], start cell int64[n]). An open
+        field draws its path's shape; a walled field draws a start (or takes the middle one) and
+        an end along its sides and takes the way between them from its bank."""
+        if self.bank_kind is None:
+            return self.frame.to_field(draw_paths(self.shape, u, centre=False))
+        u = np.atleast_2d(u)
+        across = self.frame.across
+        first = np.full(u.shape[0], (across - 1) // 2) if self.shape.start == "middle" else \
+            np.minimum((u[:, 0] * across).astype(np.int64), across - 1)
+        last = np.minimum((u[:, 1] * across).astype(np.int64), across - 1)
+        rows = first * across + last
+        return self.bank_kind[rows].copy(), self.bank_start[rows].copy()
 
     def outcome(self, state: np.ndarray, action: np.ndarray, kind: np.ndarray, start: np.ndarray,
                 path: np.ndarray | None = None) -> Outcome:
@@ -153,8 +170,11 @@ class FieldModel:
         return self.path_model(np.zeros(self.num_cells, dtype=np.int8), self.layout.start)
 
     def path_falls(self, kind: np.ndarray) -> np.ndarray:
-        """float[S, A]: 1 where the move steps off the path ``kind`` (for expected fall counts)."""
-        return (np.asarray(kind)[self.aim] == OFF).astype(np.float64)
+        """float[S, A]: 1 where the move steps off the path ``kind`` from a state that has not
+        ended (for expected fall counts; ended states absorb and fall no more)."""
+        kind = np.asarray(kind)
+        ended = (kind[self.state_cell] == GOAL) | self.state_out
+        return ((kind[self.aim] == OFF) & ~ended[:, None]).astype(np.float64)
 
 
 def compile_field(variant: Variant) -> FieldModel:
@@ -176,9 +196,15 @@ def compile_field(variant: Variant) -> FieldModel:
     fall_cell = np.zeros_like(cell) if to_start else cell
     fall_next = np.broadcast_to((next_falls * C + fall_cell)[:, None], (S, A)).copy()
     state_out = (falls == levels - 1) if counted else np.zeros(S, dtype=bool)
+    bank_kind = bank_start = None
+    longest = shape.longest
+    if f.maze is not None:
+        index = frame.cell_index()
+        bank_kind, bank_start = path_bank(layout.neighbour, index[0], index[-1])
+        longest = int((bank_kind != OFF).sum(axis=1).max()) - 1
     horizon = spec.episode.max_steps
     if horizon == "auto":
-        horizon = int(np.ceil(spec.episode.max_steps_factor * shape.longest))
+        horizon = int(np.ceil(spec.episode.max_steps_factor * longest))
     mark = f.mark
     mark_steps = 0 if mark is None else MARK_FOREVER if mark.steps == "episode" else int(mark.steps)
     r = spec.rewards
@@ -188,6 +214,7 @@ def compile_field(variant: Variant) -> FieldModel:
         goal_reward=r.correct, fall_reward=r.fall, timeout_reward=r.timeout, horizon=int(horizon),
         discount=spec.episode.discount, aim=aim, move_next=move_next, fall_next=fall_next, state_cell=cell,
         state_out=state_out, params={**variant.params, "max_steps": int(horizon)},
+        bank_kind=bank_kind, bank_start=bank_start,
     )
 
 

@@ -153,8 +153,20 @@ class Mark(Strict):
               "right after the fall included; 'episode': until the episode ends.", examples=[3, "episode"])
 
 
+class FieldMaze(Strict):
+    """Walls laid over a field, drawn per variant: the hidden path then follows the passages."""
+
+    generator: Literal["uniform", "backtracker", "rooms"] = Field(
+        default="uniform", description="As for maze layouts: uniform (Wilson's algorithm), backtracker "
+        "(long winding corridors) or rooms (open square rooms joined by doors).", examples=["uniform"])
+    room_size: int = Field(default=3, ge=1, le=MAX_FIELD_SIDE, description="Side of each room for the rooms "
+                           "generator (width and height must be multiples of it).", examples=[3])
+    braid: float = Field(default=0.0, ge=0.0, le=1.0, description="Fraction of dead ends opened into loops.",
+                         examples=[0.0, 0.3])
+
+
 class FieldLayout(Strict):
-    """An open field of width × height cells with a hidden safe path across it."""
+    """A field of width × height cells, open or with maze walls, with a hidden safe path across it."""
 
     width: int_param(1, MAX_FIELD_SIDE) = Field(  # type: ignore[valid-type]
         description="Cells across (west to east); an integer, {range: [low, high]} or {choice: [...]}, "
@@ -167,6 +179,21 @@ class FieldLayout(Strict):
                        examples=[{"to": "start", "max_falls": None}])
     mark: Mark | None = Field(default_factory=Mark, description="The feedback mark, or null for none.",
                               examples=[{"steps": 4}, None])
+    maze: FieldMaze | None = Field(
+        default=None, description="Walls drawn per variant, or null for an open field. With walls the "
+        "path is the shortest way through the passages from a start cell on the start side to an end "
+        "cell drawn on the far side each episode (path.turns and path.width then do not apply).",
+        examples=[None, {"generator": "rooms", "room_size": 3}])
+
+    @model_validator(mode="after")
+    def _maze_decides_the_path(self) -> "FieldLayout":
+        if self.maze is not None:
+            if self.path.turns != IntParam(0, 0):
+                _refuse("path.turns", "no path.turns with field walls (the passages decide the path)",
+                        repr(self.path.turns.to_yaml()))
+            if self.path.width != 1:
+                _refuse("path.width", "path width 1 with field walls", repr(self.path.width))
+        return self
 
 
 class Layout(Strict):

@@ -146,14 +146,16 @@ def _field_policy(name: str, env: FieldEnv, spec: Spec, variant_seed: int, seed:
         return act
     if name == "explorer":
         explorer, core = Explorer(model, 1), env.core
-        last: dict[str, Any] = {}
+        last: dict[str, np.ndarray] = {}
 
         def act(t: int, info: dict[str, Any]) -> int:
-            if t > 0 and info["analysis_only"]["falls"] > last["falls"]:   # it fell on the last step
-                explorer.on_fall(np.ones(1, dtype=bool), np.array([last["aim"]]))
-            action = int(explorer.act(t, model.state_cell[core.state], None, None)[0])
-            last.update(falls=info["analysis_only"]["falls"], aim=int(model.aim[core.state[0], action]))
-            return action
+            if t > 0:   # tell it what its last move did (the step rule, applied to that one move)
+                out = model.outcome(last["state"], last["action"], core.kind, core.start)
+                explorer.observe(model.state_cell[last["state"]], last["action"], out, np.ones(1, dtype=bool))
+            state = core.state.copy()
+            action = explorer.act(t, model.state_cell[state], core.until > t, np.ones(1, dtype=bool))
+            last.update(state=state, action=action)
+            return int(action[0])
         return act
     if name == "chance":
         kind, start = sample_paths(model, variant_seed, 64)

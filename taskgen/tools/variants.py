@@ -115,7 +115,9 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
 def family_size(spec: Spec) -> int | None:
     """How many distinct layouts the spec can produce, where that is countable (else None)."""
     corridor, maze, fields = spec.layout.corridor, spec.layout.maze, spec.layout.field
-    if fields is not None:   # a field's layout is its size and path shape (paths are drawn per episode)
+    if fields is not None:   # an open field's layout is its size and path shape (paths are drawn per episode)
+        if fields.maze is not None:
+            return None
         return _count(fields.width) * _count(fields.height) * _count(fields.path.turns)
     if corridor is not None:
         return _count(corridor.length) * _count(corridor.arm_length)
