@@ -164,6 +164,14 @@ class VariantReport:
         }
 
 
+def memory_gap_check(gap: float, min_gap: float, remembered: str, over: str = "") -> Check:
+    """Optimal − chance must be positive and at least ``min_gap`` (``over`` says what it averages)."""
+    enough = gap > TOLERANCE and gap >= min_gap - TOLERANCE
+    return Check("memory gap", enough, f"optimal − chance = {gap:.6g}" + (f" ({over})" if over else "")
+                 + (f" (minimum {min_gap:g})" if min_gap else "")
+                 + ("" if enough else f": remembering {remembered} does not pay enough"))
+
+
 def _cue_needed(recall: dict[int, int | None], decided: dict[int, int | None]) -> Check:
     if all(d is None for d in recall.values()):
         return Check("cue needed", False, "the optimal agent's path never depends on a cue it has seen")
@@ -222,10 +230,7 @@ def analyse(model: TaskModel, observations: ObservationTables | None = None,
         checks.append(Check("no carried cue", True, f"no memoryless policy beats the cue-blind agent ({how})"))
 
     gap = baselines["optimal"].mean_return - baselines["chance"].mean_return
-    enough = gap > TOLERANCE and gap >= min_gap - TOLERANCE
-    checks.append(Check("memory gap", enough, f"optimal − chance = {gap:.6g}"
-                        + (f" (minimum {min_gap:g})" if min_gap else "")
-                        + ("" if enough else ": remembering the cue does not pay enough")))
+    checks.append(memory_gap_check(gap, min_gap, "the cue"))
     return VariantReport(
         variant_id=model.variant_id, params=dict(model.params), num_states=model.num_states,
         horizon=model.horizon, shortest=shortest_solutions(model), recall=recall,

@@ -28,10 +28,9 @@ import numpy as np
 
 from ..model import FieldModel, TaskModel, shortest_success_steps
 from .baselines import RANDOM_CLASS, optimal_policy
-from .checks import Check
+from .checks import Check, memory_gap_check
 from .dp import Objective, at_reset, evaluate, uniform_policy
 from .field_policies import EXPLORER_CLASS, MemorylessRollout, best_memoryless_paths, explore
-from .leaks import TOLERANCE
 
 PATHS_STREAM = 3              # the variant seed's stream the analysed paths are drawn from
 FIELD_OPTIMAL_CLASS = "knows the path: walks a shortest safe route (sees position and time)"
@@ -154,10 +153,7 @@ def analyse_field(model: FieldModel, seed: int, view_class: np.ndarray, marks_se
         "exact per path", EXPLORER_CLASS)
     checks = [_solvable(shortest, model.horizon, paths)]
     gap = baselines["optimal"].mean_return.mean - baselines["chance"].mean_return.mean
-    enough = gap > TOLERANCE and gap >= min_gap - TOLERANCE
-    checks.append(Check("memory gap", enough, f"optimal − chance = {gap:.6g} (mean over {paths} paths)"
-                        + (f" (minimum {min_gap:g})" if min_gap else "")
-                        + ("" if enough else ": remembering where it fell does not pay enough")))
+    checks.append(memory_gap_check(gap, min_gap, "where it fell", f"mean over {paths} paths"))
     return FieldReport(
         variant_id=model.variant_id, params=dict(model.params), num_states=model.num_states,
         horizon=model.horizon, paths=paths, shortest=PathAverage.of(np.maximum(shortest, 0)),

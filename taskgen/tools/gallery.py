@@ -169,32 +169,47 @@ def _field_policy(name: str, env: FieldEnv, spec: Spec, variant_seed: int, seed:
     return lambda t, info: int(rng.integers(model.num_actions))
 
 
+def _play(env: Any, seed: int, choose: Any, views: Any, caption: Any, font: ImageFont.ImageFont,
+          ) -> tuple[list[Image.Image], list[str], float]:
+    """Play one episode: at each step (and once after the end) draw ``views(obs)`` (the agent's
+    view and the ground truth) with ``caption(t, action, reward)`` below. Returns the frames,
+    their captions and the return."""
+    obs, info = env.reset(seed=seed)
+    frames, labels, total, reward, t, done = [], [], 0.0, 0.0, 0, False
+    while True:
+        agent, truth = views(obs)
+        action = None if done else choose(t, info)
+        text = caption(t, action, reward)
+        frames.append(_frame(_scaled(agent), _scaled(truth), text, font))
+        labels.append(text)
+        if done:
+            return frames, labels, total
+        obs, reward, terminated, truncated, info = env.step(action)
+        total += reward
+        t += 1
+        done = terminated or truncated
+
+
 def record_field(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) -> Episode:
     """Play one field episode: the agent's view (never the path) beside the ground truth."""
     env = FieldEnv(*build_field(spec, variant_seed))
     model, core = env.model, env.core
     pictures = FieldPictures(model)
-    choose = _field_policy(policy, env, spec, variant_seed, seed + episode)
     font = _font()
-    obs, info = env.reset(seed=seed + episode)
-    frames, labels, total, reward, t, done = [], [], 0.0, 0.0, 0, False
-    while True:
+
+    def views(obs: Any) -> tuple[np.ndarray, np.ndarray]:
         cell = int(model.state_cell[core.state[0]])
         marked = core.until[0] > core.step_count[0]
         parts = obs if isinstance(obs, dict) else {core.observations.names[0]: obs}
-        agent = _scaled(parts["pixels"] if "pixels" in parts else pictures.agent(cell, marked))
-        truth_image = Image.fromarray(pictures.truth(core.kind[0], cell, marked))
-        ImageDraw.Draw(truth_image).text((2, 1), f"falls {int(core.falls[0])}", fill=(0, 0, 0), font=font)
-        action = None if done else choose(t, info)
-        text = f"t={t} " + ("end" if done else model.action_names[action]) + f" r={reward:+.2f}"
-        frames.append(_frame(agent, _scaled(np.asarray(truth_image)), text, font))
-        labels.append(text)
-        if done:
-            break
-        obs, reward, terminated, truncated, info = env.step(action)
-        total += reward
-        t += 1
-        done = terminated or truncated
+        truth = Image.fromarray(pictures.truth(core.kind[0], cell, marked))
+        ImageDraw.Draw(truth).text((2, 1), f"falls {int(core.falls[0])}", fill=(0, 0, 0), font=font)
+        return parts["pixels"] if "pixels" in parts else pictures.agent(cell, marked), np.asarray(truth)
+
+    def caption(t: int, action: int | None, reward: float) -> str:
+        return f"t={t} " + ("end" if action is None else model.action_names[action]) + f" r={reward:+.2f}"
+
+    choose = _field_policy(policy, env, spec, variant_seed, seed + episode)
+    frames, labels, total = _play(env, seed + episode, choose, views, caption, font)
     success = bool(model.path_model(core.kind[0], int(core.start[0])).success[core.state[0]])
     return Episode(episode, frames, labels, total, success)
 
@@ -207,26 +222,19 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) 
     model = compile_variant(make_variant(spec, variant_seed))
     env = TaskEnv(model, observation_set(model, spec.observation))
     renderer = TopDownRenderer(model, cell_px=12)
-    choose = _policy(policy, model, spec, seed + episode)
     font = _font()
-    obs, info = env.reset(seed=seed + episode)
-    frames, labels, total, reward, t = [], [], 0.0, 0.0, 0
-    done = False
-    while True:
-        agent = _scaled(_agent_view(env, obs, renderer))
-        truth = _scaled(np.asarray(_ground_truth(renderer, model, env._state, spec.cue.sequence_length, font)))
-        action = None if done else choose(t, info)
+
+    def views(obs: Any) -> tuple[np.ndarray, np.ndarray]:
+        truth = _ground_truth(renderer, model, env._state, spec.cue.sequence_length, font)
+        return _agent_view(env, obs, renderer), np.asarray(truth)
+
+    def caption(t: int, action: int | None, reward: float) -> str:
         shown = bool(model.cue_shown()[env._state])
-        text = (f"t={t} " + ("end" if done else model.action_names[action]) +
+        return (f"t={t} " + ("end" if action is None else model.action_names[action]) +
                 f" r={reward:+.2f} cue {'shown' if shown else 'hidden'}")
-        frames.append(_frame(agent, truth, text, font))
-        labels.append(text)
-        if done:
-            break
-        obs, reward, terminated, truncated, info = env.step(action)
-        total += reward
-        t += 1
-        done = terminated or truncated
+
+    frames, labels, total = _play(env, seed + episode, _policy(policy, model, spec, seed + episode), views,
+                                  caption, font)
     return Episode(episode, frames, labels, total, bool(model.success[env._state]))
 
 
