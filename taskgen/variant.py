@@ -21,6 +21,7 @@ from .spec import Spec
 _PARAMS_STREAM = 0
 _LAYOUT_STREAM = 1
 _PLACEMENT_STREAM = 2
+# stream 3 is the field analyses' sample of paths (analysis/fields.py, PATHS_STREAM)
 
 
 @dataclass(frozen=True, eq=False)

@@ -133,3 +133,29 @@ def test_the_explorer_crosses_every_path_given_time(fields):
     model = taskgen.build_model(taskgen.load_spec_text(text))
     kind, start = sample_paths(model, 1, 300)
     assert explore(model, kind, start).success.all()
+
+
+def test_pruned_path_models_give_the_same_exact_figures():
+    """Keeping only the states reachable from the start changes no exact figure: optimal and
+    uniform-random returns at reset agree with the full model's to 1e-12 (common practice)."""
+    from taskgen.analysis import optimise, uniform_policy
+    model = field_model(width=5, height=6, turns=2, start="random", fall={"max_falls": 4},
+                        rewards={"step": -0.01, "fall": -0.2}, episode={"max_steps": 40})
+    kind, start = sample_paths(model, 0, 4)
+    for k, s in zip(kind, start):
+        full, pruned = model.path_model(k, int(s)), model.path_model(k, int(s), reachable_only=True)
+        assert pruned.num_states < full.num_states
+        for m in (full, pruned):
+            m.params["value"] = (at_reset(m, optimise(m)[0]), at_reset(m, evaluate(m, uniform_policy(m))))
+        assert np.allclose(full.params["value"], pruned.params["value"], atol=1e-12)
+
+
+def test_analyses_over_the_work_cap_are_refused_with_the_numbers():
+    """When the sampled paths' dynamic programming would exceed the work cap, the check stops
+    before solving and says how to go on (fewer paths, or a higher cap)."""
+    from taskgen import limits
+    spec = _spec(width=6, height=8, turns=2, start="random", fall={"max_falls": 8}, episode={"max_steps": 60})
+    with limits.raised(max_work=400_000), pytest.raises(limits.ResourceLimitError, match="--paths"):
+        check_field_variant(spec, 0, paths=64)
+    with limits.raised(max_work=400_000):
+        assert check_field_variant(spec, 0, paths=2).paths == 2

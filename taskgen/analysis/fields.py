@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from .. import limits
 from ..model import FieldModel, TaskModel, shortest_success_steps
 from .baselines import RANDOM_CLASS, optimal_policy
 from .checks import Check, memory_gap_check
@@ -136,8 +137,9 @@ def analyse_field(model: FieldModel, seed: int, view_class: np.ndarray, marks_se
                   paths: int = 64, min_gap: float = 0.0) -> FieldReport:
     """Every figure and check of a field variant over ``paths`` sampled paths."""
     kind, start = sample_paths(model, seed, paths)
-    models = [model.path_model(kind[i], int(start[i])) for i in range(paths)]
-    falls = [model.path_falls(kind[i]) for i in range(paths)]
+    models = [model.path_model(kind[i], int(start[i]), reachable_only=True) for i in range(paths)]
+    _check_work(model, models)
+    falls = [model.path_falls(kind[i])[m.params["field_states"]] for i, m in enumerate(models)]
     shortest = np.array([shortest_success_steps(m.next_state, m.success, m.initial_states())[0] for m in models])
     cells = np.array([m.params["path_cells"] for m in models])
     baselines = _per_path(models, falls)
@@ -158,6 +160,19 @@ def analyse_field(model: FieldModel, seed: int, view_class: np.ndarray, marks_se
         variant_id=model.variant_id, params=dict(model.params), num_states=model.num_states,
         horizon=model.horizon, paths=paths, shortest=PathAverage.of(np.maximum(shortest, 0)),
         path_cells=PathAverage.of(cells), baselines=baselines, checks=checks)
+
+
+def _check_work(model: FieldModel, models: list[TaskModel]) -> None:
+    """Refuse analyses whose dynamic programming over every sampled path would exceed the work cap."""
+    states = sum(m.num_states for m in models)
+    work = states * model.num_actions * model.horizon
+    cap = limits.current().max_work
+    if work > cap:
+        raise limits.ResourceLimitError(
+            f"{model.variant_id}: {len(models)} sampled paths need {work:.3g} state-action-steps "
+            f"(≈{states:.3g} reachable states over the paths × {model.num_actions} actions × step limit "
+            f"{model.horizon}), over the cap of {cap:.3g}; analyse fewer paths (--paths) or raise the cap "
+            "with --max-work or TASKGEN_MAX_WORK")
 
 
 def _solvable(shortest: np.ndarray, horizon: int, paths: int) -> Check:

@@ -23,6 +23,7 @@ import numpy as np
 from ..generate import MOVE_NAMES, GridLayout
 from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths, path_bank
 from ..variant import Variant, field_geometry
+from .graph import reachable
 from .tables import TaskModel
 
 MARK_FOREVER = np.iinfo(np.int64).max // 2   # a mark that lasts until the episode ends
@@ -132,9 +133,12 @@ class FieldModel:
         """The step up to which (excluded) a mark left at step ``now`` shows (scalar or array)."""
         return np.minimum(now + self.mark_steps, MARK_FOREVER)
 
-    def path_model(self, kind: np.ndarray, start: int) -> TaskModel:
+    def path_model(self, kind: np.ndarray, start: int, reachable_only: bool = False) -> TaskModel:
         """The finite task of one path (kind int8[C], start cell), for the exact analyses: ends
-        absorb for free, the start state is (start, no falls)."""
+        absorb for free, the start state is (start, no falls). States are numbered as in the
+        runtimes (falls · C + cell); with ``reachable_only`` only the states reachable from the
+        start are kept (renumbered in order; ``params["field_states"]`` lists their numbers),
+        which is what the analyses solve."""
         S, A = self.num_states, self.num_actions
         state, action = np.divmod(np.arange(S * A), A)
         kinds, starts = np.asarray(kind)[None, :], np.asarray([start])
@@ -152,16 +156,22 @@ class FieldModel:
         layout = replace(self.layout, start=int(start),
                          sites={**self.layout.sites, "path": path_cells,
                                 "path_end": np.flatnonzero(kinds[0] == GOAL)})
+        keep = np.flatnonzero(reachable(next_state, [start])) if reachable_only else np.arange(S)
+        number = -np.ones(S, dtype=np.int64)
+        number[keep] = np.arange(keep.size)
+        next_state, reward, terminal, success, initial = (number[next_state[keep]], reward[keep], terminal[keep],
+                                                          success[keep], initial[keep])
+        S = keep.size
         zeros = np.zeros(S, dtype=np.int64)
         return TaskModel(
             next_state=next_state, reward=reward, terminal=terminal, success=success, initial=initial,
-            hidden=zeros, blind_state=np.arange(S), cell=self.state_cell.copy(), heading=zeros - 1, timer=zeros,
-            obs_key=self.state_cell.copy(), key_cell=np.arange(C), key_heading=-np.ones(C, dtype=np.int64),
+            hidden=zeros, blind_state=np.arange(S), cell=self.state_cell[keep], heading=zeros - 1, timer=zeros,
+            obs_key=self.state_cell[keep], key_cell=np.arange(C), key_heading=-np.ones(C, dtype=np.int64),
             key_cue=-np.ones(C, dtype=np.int64), hidden_values=1, cue_values=0, hidden_prior=np.ones(1),
             cue_visible_steps=0, cue_window=np.zeros(S, dtype=bool), cue_known=np.ones(S, dtype=bool),
             knowledge=zeros, horizon=self.horizon, discount=self.discount, timeout_reward=self.timeout_reward,
             layout=layout, action_names=self.action_names, variant_id=self.variant_id,
-            params={**self.params, "path_cells": int(path_cells.size)},
+            params={**self.params, "path_cells": int(path_cells.size), "field_states": keep},
         )
 
     def view_model(self) -> TaskModel:
