@@ -82,3 +82,21 @@ def test_schema_and_reference_commands_print_and_write(tmp_path):
     out = _run("reference", "--out", str(target))
     assert out.returncode == 0 and target.read_text() == reference_markdown()
     assert [p.name for p in target.parent.iterdir()] == ["spec-reference.md"]  # no temporary left
+
+
+def test_check_on_a_field_prints_per_path_figures_and_json():
+    """On a field spec, --json gives each variant's baselines as mean, standard error, minimum and
+    maximum over --paths sampled paths, the checks, and the random agent's expected falls."""
+    path = str(taskgen.bundled_specs()["marsh-stones"])
+    out = _run("check", path, "--paths", "8", "--json")
+    assert out.returncode == 0, out.stderr
+    data = json.loads(out.stdout)
+    assert data["kind"] == "field" and data["ok"] is True
+    row = data["variants"][0]
+    assert row["paths"] == 8 and [c["name"] for c in row["checks"]] == ["solvable", "memory gap"]
+    assert set(row["baselines"]) == {"optimal", "explorer", "chance", "random"}
+    figure = row["baselines"]["optimal"]["mean_return"]
+    assert set(figure) == {"mean", "standard_error", "minimum", "maximum"}
+    assert row["baselines"]["random"]["falls"]["mean"] > 0
+    text = _run("check", path, "--paths", "8")
+    assert "± " in text.stdout and "expected falls" in text.stdout and text.stdout.rstrip().endswith("ok")

@@ -51,7 +51,8 @@ def closed_form_crossing(L: int) -> float:
 @pytest.mark.parametrize("L", range(1, 11))
 def test_random_crossing_time_matches_the_closed_form(L):
     """The exact solver's expected crossing steps (no step limit) equal the closed form derived
-    in closed_form_crossing to 1e-9, relative."""
+    in closed_form_crossing to 1e-9 relative (the values grow as (2 + √3)^L: 4, 20, 80, 304, …,
+    826804 steps for L = 10)."""
     _, path, _, start = straight(L)
     steps = hitting_times(path, uniform_policy(path), path.terminal)[start]
     assert steps == pytest.approx(closed_form_crossing(L), rel=1e-9, abs=1e-9)
