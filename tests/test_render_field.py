@@ -106,3 +106,20 @@ def test_the_grid_view_marks_cells_in_its_window_in_the_mark_channel():
     expect = np.zeros((3, 3), dtype=np.uint8)
     expect[1, 2] = 1
     assert np.array_equal(parts["grid"][0, ..., MARK_CHANNEL], expect)
+
+
+def test_a_mark_colour_from_the_spec_is_drawn_and_reserved_colours_are_refused():
+    """mark.colour paints marks in pixels; the floor, wall and agent colours are refused (the
+    schema's list of them equals the palette's)."""
+    from taskgen.render.palette import AGENT, FLOOR, WALL
+    model, obs, overlay = _built({"vector": None, "pixels": {"height": 40, "width": 40}}, width=3, height=4,
+                                 mark={"steps": 2, "colour": [10, 200, 90]})
+    frames = {"pixels": obs.pixels[[10]].copy()}
+    marked = np.zeros((1, model.num_cells), dtype=bool)
+    marked[0, 0] = True
+    overlay.apply(frames, np.array([10]), marked)
+    assert (frames["pixels"][0] == (10, 200, 90)).all(axis=2).any()
+    for colour in (FLOOR, WALL, AGENT):
+        with pytest.raises(taskgen.SpecError, match="a colour other than"):
+            taskgen.load_spec_text(field_spec_text(mark={"colour": list(colour)}))
+    assert taskgen.spec.schema.Mark().colour == list(MARK)

@@ -68,6 +68,7 @@ class FieldModel:
     action_names: tuple[str, ...] = MOVE_NAMES
     bank_kind: np.ndarray | None = None   # int8[P, C]: every path of a walled field (row start · E + end)
     bank_start: np.ndarray | None = None  # int64[P]
+    mark_colour: tuple[int, int, int] = (213, 94, 0)   # of a mark in top-down pixels
 
     @property
     def draws(self) -> int:
@@ -225,6 +226,7 @@ def compile_field(variant: Variant) -> FieldModel:
         discount=spec.episode.discount, aim=aim, move_next=move_next, fall_next=fall_next, state_cell=cell,
         state_out=state_out, params={**variant.params, "max_steps": int(horizon)},
         bank_kind=bank_kind, bank_start=bank_start,
+        mark_colour=tuple(mark.colour) if mark is not None else (213, 94, 0),
     )
 
 

@@ -42,6 +42,7 @@ class MarkOverlay:
     floor: np.ndarray | None = None   # bool[C, H·W]: the floor pixels of the agent's frame at each
                                       # cell (marks paint floor only, never walls or the agent)
     grid: int = 0                # cells across the grid view (0: no grid view)
+    colour: tuple[int, int, int] = MARK   # of a mark in pixels
     neighbours_seen: bool = False     # some modality shows the cells beside the agent with their marks
 
     def apply(self, parts: dict[str, np.ndarray], agent_cell: np.ndarray, marked: np.ndarray) -> None:
@@ -74,7 +75,7 @@ class MarkOverlay:
         pixels = self.tiles[tile]                                            # [pairs, P]
         paint = self.floor[agent_cell[env][:, None], pixels]
         where = env[:, None] * (h * w) + pixels
-        frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(MARK, dtype=np.uint8)
+        frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(self.colour, dtype=np.uint8)
 
 
 def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
@@ -123,8 +124,9 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
     marks = model.mark_steps > 0
     beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
                         or (spec.grid is not None and spec.grid.size >= 3))
-    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor,
-                            spec.grid.size if marks and spec.grid is not None else 0, beside)
+    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
+                            grid=spec.grid.size if marks and spec.grid is not None else 0,
+                            neighbours_seen=beside, colour=model.mark_colour)
 
 
 def marks_seen(overlay: MarkOverlay) -> bool:
@@ -176,8 +178,9 @@ class FieldPictures:
                 draw.rectangle(self._cell_box(int(cell), inset), fill=PATH_END if kind[cell] == GOAL else PATH)
         for cell in np.flatnonzero(marked):
             if kind is None:
-                draw.rectangle(self._cell_box(int(cell), inset), fill=MARK)
+                draw.rectangle(self._cell_box(int(cell), inset), fill=self.model.mark_colour)
             else:   # an outline, so the path under a mark stays visible
-                draw.rectangle(self._cell_box(int(cell), inset), outline=MARK, width=max(1, self.px // 5))
+                draw.rectangle(self._cell_box(int(cell), inset), outline=self.model.mark_colour,
+                               width=max(1, self.px // 5))
         draw.ellipse(self._cell_box(agent_cell, max(1, self.px // 4)), fill=AGENT)
         return np.asarray(image, dtype=np.uint8)

@@ -21,8 +21,10 @@ CUE_COLOURS: tuple[tuple[int, int, int], ...] = (
 FLOOR = (20, 20, 28)
 WALL = (150, 150, 160)
 AGENT = (255, 255, 255)
-# hidden-path fields have no cue colours: a mark is vermillion in the agent's view; the path
-# (bluish green) and its end (yellow) appear only in ground-truth pictures
+# hidden-path fields have no cue colours: a mark is vermillion in the agent's view unless the
+# spec names another colour (layout.field.mark.colour, which may not be FLOOR, WALL or AGENT:
+# spec/schema.py repeats those three, a test keeps them equal); the path (bluish green) and its
+# end (yellow) appear only in ground-truth pictures
 MARK = (213, 94, 0)
 PATH = (0, 158, 115)
 PATH_END = (240, 228, 66)

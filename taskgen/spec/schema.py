@@ -151,6 +151,17 @@ class Mark(Strict):
         WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1}, {"const": "episode"}]}),
     ] = Field(default="episode", description="How many observations the mark is part of, the one "
               "right after the fall included; 'episode': until the episode ends.", examples=[3, "episode"])
+    colour: Annotated[list[Annotated[int, Field(ge=0, le=255)]], Field(min_length=3, max_length=3)] = Field(
+        default=[213, 94, 0], description="The mark's colour in top-down pixels, [red, green, blue] 0–255 "
+        "(default vermillion); it may not be the floor, wall or agent colour.", examples=[[213, 94, 0]])
+
+    @field_validator("colour")
+    @classmethod
+    def _visible(cls, colour: list[int]) -> list[int]:
+        taken = {(20, 20, 28): "the floor", (150, 150, 160): "the walls", (255, 255, 255): "the agent"}
+        if tuple(colour) in taken:
+            raise expected_error(f"a colour other than {taken[tuple(colour)]}'s", str(colour))
+        return colour
 
 
 class FieldMaze(Strict):
