@@ -79,7 +79,10 @@ FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\
      "x.yaml:5:18: rewards.wrong: expected no rewards.wrong or rewards.per_goal with a field layout (a fall "
      "pays rewards.fall), got rewards.wrong"),
     (FIELD.replace("height: 5", "height: 5, mark: {steps: 0}"),
-     "x.yaml:4:46: layout.field.mark.steps: expected an integer ≥ 1 or 'episode', got 0"),
+     "x.yaml:4:46: layout.field.mark.steps: expected an integer in [1, 1000000] or 'episode', got 0"),
+    (FIELD.replace("height: 5", "height: 5, mark: {steps: 9223372036854775808}"),   # found by fuzzing
+     "x.yaml:4:46: layout.field.mark.steps: expected an integer in [1, 1000000] or 'episode', "
+     "got 9223372036854775808"),
     (FIELD.replace("height: 5", "height: 5, path: {width: 9}"),
      "x.yaml:4:46: layout.field.path.width: expected an integer ≤ 4, got 9"),
     (FIELD.replace("height: 5", "height: 5, maze: {generator: rooms}, path: {turns: 2}"),

@@ -136,10 +136,13 @@ class Fall(Strict):
         "(a failure); null: falls never end it.", examples=[None, 5])
 
 
+MAX_MARK_STEPS = 1_000_000   # longer than any step limit taskgen can analyse: the same as 'episode'
+
+
 def _mark_steps(value: Any) -> Any:
-    if value == "episode" or (isinstance(value, int) and not isinstance(value, bool) and value >= 1):
+    if value == "episode" or (isinstance(value, int) and not isinstance(value, bool) and 1 <= value <= MAX_MARK_STEPS):
         return value
-    raise expected_error("an integer ≥ 1 or 'episode'", value)
+    raise expected_error(f"an integer in [1, {MAX_MARK_STEPS}] or 'episode'", value)
 
 
 class Mark(Strict):
@@ -148,7 +151,8 @@ class Mark(Strict):
 
     steps: Annotated[
         Union[int, Literal["episode"]], BeforeValidator(_mark_steps),
-        WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1}, {"const": "episode"}]}),
+        WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1, "maximum": MAX_MARK_STEPS},
+                                  {"const": "episode"}]}),
     ] = Field(default="episode", description="How many observations the mark is part of, the one "
               "right after the fall included; 'episode': until the episode ends.", examples=[3, "episode"])
     colour: Annotated[list[Annotated[int, Field(ge=0, le=255)]], Field(min_length=3, max_length=3)] = Field(
