@@ -108,3 +108,17 @@ def test_paths_through_walls_are_shortest_ways_along_the_passages(generator):
         on = passages.subgraph(cells.tolist() + [int(start)])
         assert nx.has_path(on, int(start), end)
         assert cells.size - 1 == nx.shortest_path_length(passages, int(start), end)
+
+
+@pytest.mark.parametrize("shape", SHAPES, ids=str)
+def test_the_cells_are_the_centre_line_with_its_width(shape):
+    """The path's cells are exactly the centre line's cells widened by the brush (w − 1 columns
+    beside, w − 1 rows behind), so the line the turn counts come from and the cells the agent
+    walks on cannot disagree (common practice)."""
+    drawn = _draw(shape, n=100)
+    w = shape.width
+    for i in range(100):
+        brushed = np.zeros((shape.depth, shape.across), dtype=bool)
+        for r, c in drawn.centre[i, :drawn.length[i]]:
+            brushed[max(0, r - w + 1):r + 1, c:c + w] = True
+        assert np.array_equal(brushed, drawn.kind[i] != OFF), i

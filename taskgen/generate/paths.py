@@ -16,6 +16,7 @@ environment in one call; the single runtime and the analyses call the same funct
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -97,39 +98,44 @@ def draw_paths(shape: PathShape, u: np.ndarray, centre: bool = True) -> DrawnPat
     if shape.turns % 2:
         turn_row[:, D - 1] = True
     side_draws = u[:, 1 + max(D - 2, 0):]
-    kind = np.zeros((n, D, X), dtype=np.int8)
+    # the column after each sideways run: uniform among the other positions (a loop over the
+    # runs, not the rows), then for every row the columns its part of the centre line spans
+    runs = (shape.turns + 1) // 2
+    xs = np.empty((n, runs + 1), dtype=np.int64)
+    xs[:, 0] = x
+    for k in range(runs):
+        shift = 1 + np.minimum((side_draws[:, k] * (span - 1)).astype(np.int64), span - 2)
+        xs[:, k + 1] = (xs[:, k] + shift) % span
+    before = np.cumsum(turn_row, axis=1) - turn_row                  # sideways runs before each row
+    enter = np.take_along_axis(xs, before, axis=1)                   # [n, D]: the column entering a row
+    leave = np.take_along_axis(xs, np.minimum(before + turn_row, runs), axis=1)
+    lo, hi = np.minimum(enter, leave), np.maximum(enter, leave) + w - 1
     columns = np.arange(X)
-    steps: list[np.ndarray] = []
-    sideways = np.zeros(n, dtype=np.int64)          # sideways runs drawn so far
-    rows = np.arange(n)
-    for d in range(D):
-        behind = slice(max(0, d - w + 1), d + 1)
-        lo = hi = x
-        here = turn_row[:, d]
-        if here.any():
-            draw = side_draws[rows, np.minimum(sideways, side_draws.shape[1] - 1)]
-            new_x = (x + 1 + np.minimum((draw * (span - 1)).astype(np.int64), span - 2)) % span
-            new_x = np.where(here, new_x, x)
-            lo, hi = np.minimum(x, new_x), np.maximum(x, new_x)
-            if centre:   # the centre line walks the run cell by cell, padded where a run is shorter
-                run = np.abs(new_x - x).max(initial=0)
-                direction = np.sign(new_x - x)
-                for j in range(run + 1):
-                    steps.append(np.stack([np.full(n, d), x + direction * np.minimum(j, np.abs(new_x - x))], axis=1))
-            sideways += here
-            x = new_x
-        elif centre:
-            steps.append(np.stack([np.full(n, d), x], axis=1))
-        covered = (columns[None, :] >= lo[:, None]) & (columns[None, :] <= (hi + w - 1)[:, None])
-        kind[:, behind] |= covered[:, None, :].astype(np.int8)
-    end_row = kind[:, D - 1]
-    end_cols = (columns[None, :] >= x[:, None]) & (columns[None, :] < (x + w)[:, None])
-    end_row[end_cols] = GOAL
+    covered = (columns >= lo[:, :, None]) & (columns <= hi[:, :, None])     # [n, D, X]
+    kind = covered.astype(np.int8)
+    for j in range(1, w):       # a wide path also covers the rows just behind each centre cell
+        kind[:, :D - j] |= covered[:, j:]
+    last = xs[:, runs]
+    end_cols = (columns[None, :] >= last[:, None]) & (columns[None, :] < (last + w)[:, None])
+    kind[:, D - 1][end_cols] = GOAL
     if not centre:
         return DrawnPaths(kind=kind, start=start, centre=np.zeros((n, 0, 2), dtype=np.int64),
                           length=np.zeros(n, dtype=np.int64))
-    line, length = _compact(np.stack(steps, axis=1))      # [n, T, 2], with repeats where padded
+    line, length = _compact(_trace(enter, leave))
     return DrawnPaths(kind=kind, start=start, centre=line, length=length)
+
+
+def _trace(enter: np.ndarray, leave: np.ndarray) -> np.ndarray:
+    """[n, T, 2] centre lines walked cell by cell: each row from its entering to its leaving
+    column (repeats where one line's run is shorter than another's)."""
+    n, D = enter.shape
+    steps = []
+    for d in range(D):
+        length = np.abs(leave[:, d] - enter[:, d])
+        direction = np.sign(leave[:, d] - enter[:, d])
+        for j in range(int(length.max(initial=0)) + 1):
+            steps.append(np.stack([np.full(n, d), enter[:, d] + direction * np.minimum(j, length)], axis=1))
+    return np.stack(steps, axis=1)
 
 
 def _compact(raw: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -170,8 +176,15 @@ class FieldFrame:
         """Columns of the canonical frame (cells along the start side)."""
         return self.cols if self.start_side in ("north", "south") else self.rows
 
+    @cached_property
+    def _index(self) -> np.ndarray:
+        return self._build_index()
+
     def cell_index(self) -> np.ndarray:
         """int64[depth, across]: the field cell (row · cols + column) of each frame position."""
+        return self._index
+
+    def _build_index(self) -> np.ndarray:
         d, x = np.meshgrid(np.arange(self.depth), np.arange(self.across), indexing="ij")
         if self.start_side == "south":
             r, c = self.rows - 1 - d, x
