@@ -197,7 +197,7 @@ def test_a_field_suite_holds_out_path_turns_and_reloads_its_variants(tmp_path):
         "format_version": 1, "name": "field-suite",
         "layout": {"field": {"width": {"choice": [4, 5]}, "height": 6, "path": {"turns": {"range": [1, 3]}}}},
         "episode": {"max_steps": 40}}))
-    request = SuiteRequest(splits=(("train", 6), ("test", 3)), holdout=("layout.field.path.turns", (3,)))
+    request = SuiteRequest(splits=(("train", 4), ("test", 2)), holdout=("layout.field.path.turns", (3,)))
     manifest = build_suite(spec, request)
     assert manifest["family_size"] == 2 * 1 * 3
     turns = {split: {v["params"]["turns"] for v in manifest["variants"] if v["split"] == split}
@@ -205,7 +205,7 @@ def test_a_field_suite_holds_out_path_turns_and_reloads_its_variants(tmp_path):
     assert turns["test"] == {3} and 3 not in turns["train"]
     assert all({"mean_return", "mean_return_se", "method"} <= set(v["optimal"]) for v in manifest["variants"])
     path = write_manifest(manifest, str(tmp_path))
-    env = taskgen.make(path, split="test", index=2)
+    env = taskgen.make(path, split="test", index=1)
     assert isinstance(env, taskgen.FieldEnv) and env.model.params["turns"] == 3
     with pytest.raises(taskgen.envs.split.ManifestError, match="one at a time"):
         taskgen.make(path, split="train")
