@@ -41,6 +41,20 @@ def test_every_example_spec_validates_against_the_schema():
         validator.validate(yaml.safe_load(path.read_text()))
 
 
+def test_the_schema_knows_which_layouts_need_a_cue():
+    """A corridor without a cue and a field with one fail the schema as they fail the loader
+    (jsonschema's if/then/else), so editors flag both."""
+    validator = jsonschema.Draft202012Validator(json_schema())
+    no_cue = {"format_version": 1, "name": "x", "layout": {"corridor": {"length": 3}}}
+    field_cue = {"format_version": 1, "name": "x", "layout": {"field": {"width": 3, "height": 3}},
+                 "cue": {"values": 2}}
+    for doc in (no_cue, field_cue):
+        assert not validator.is_valid(doc)
+        with pytest.raises(SpecError):
+            load_spec_text(yaml.safe_dump(doc))
+    assert validator.is_valid({"format_version": 1, "name": "x", "layout": {"field": {"width": 3, "height": 3}}})
+
+
 @pytest.mark.parametrize("mutation", [
     {"cue": {"values": "two"}},
     {"cue": {"values": 2, "colour": "red"}},

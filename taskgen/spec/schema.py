@@ -452,6 +452,12 @@ class Agent(Strict):
 class Spec(Strict):
     """A memory-task spec: one YAML document."""
 
+    # editors see the rule "a corridor or maze needs a cue, a field has none" too
+    model_config = ConfigDict(**Strict.model_config, json_schema_extra={"allOf": [{
+        "if": {"properties": {"layout": {"required": ["field"]}}, "required": ["layout"]},
+        "then": {"properties": {"cue": {"type": "null"}}},
+        "else": {"required": ["cue"]}}]})
+
     @model_validator(mode="after")
     def _sequences_match(self) -> "Spec":
         if self.layout.field is not None:
