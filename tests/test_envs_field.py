@@ -24,6 +24,8 @@ MODALITIES = {
     "window": {"vector": {"position": "coordinates"}, "pixels": {"height": 24, "width": 24, "view": "window",
                                                                  "window": 3}},
     "grid": {"vector": None, "grid": {"size": 5}},
+    "decoys": {"vector": {"position": "one_hot"}, "pixels": {"height": 24, "width": 24},
+               "distractors": {"decoy_probability": 0.3}},
 }
 
 
@@ -92,9 +94,10 @@ def test_the_same_seed_gives_the_same_paths_in_a_fresh_process():
 @pytest.mark.parametrize("modality", sorted(MODALITIES))
 def test_two_different_paths_look_the_same_at_the_start(modality):
     """With the start fixed in the middle, episodes on different paths begin with identical
-    observations in every modality (noise aside): the path leaks into no observation."""
+    observations in every modality (noise and decoys aside): the path leaks into no observation."""
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, observation={
-        k: (v if v is None or k == "grid" else {**v, "noise": None}) for k, v in MODALITIES[modality].items()}))
+        k: (v if v is None or k == "grid" else {**v, "noise": None}) for k, v in MODALITIES[modality].items()
+        if k != "distractors"}))
     env = taskgen.make(spec)
     seen = {}
     for seed in range(40):
@@ -213,3 +216,27 @@ def test_a_walled_field_runs_and_batches_like_single_envs():
         o1, r1, t1, u1, i1 = ours.step(a)
         o2, r2, t2, u2, i2 = theirs.step(a)
         assert np.array_equal(r1, r2) and np.array_equal(t1, t2) and np.array_equal(u1, u2)
+
+
+def test_decoy_marks_show_at_their_rate_never_on_the_agent_and_not_in_the_figures():
+    """A decoy mark shows in a share of observations that matches decoy_probability within 4
+    standard errors (binomial; common practice), never on the agent's own cell, and leaves the
+    analyses' figures unchanged (they read noise-free observations)."""
+    from taskgen.tools.field_check import check_field_variant
+    fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": 1}, episode={"max_steps": 40})
+    spec = _spec({"vector": {"position": "one_hot"}, "distractors": {"decoy_probability": 0.25}}, **fields)
+    env = taskgen.make_vec(spec, 32)
+    block = env.observation_blocks["marks"]
+    obs, info = env.reset(seed=4)
+    shown, count = 0, 0
+    for _ in range(400):
+        obs, _, _, _, info = env.step(np.full(32, 2))        # south: bumps at the start, never falls
+        marks = obs[:, block]
+        agent = env.model.state_cell[info["analysis_only"]["state"]]
+        assert not marks[np.arange(32), agent].any()
+        shown += int(marks.any(axis=1).sum())
+        count += 32
+    p = shown / count
+    assert abs(p - 0.25) <= 4 * np.sqrt(0.25 * 0.75 / count)
+    plain = _spec({"vector": {"position": "one_hot"}}, **fields)
+    assert check_field_variant(spec, 0, paths=8).to_dict() == check_field_variant(plain, 0, paths=8).to_dict()

@@ -88,6 +88,12 @@ FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\
     (FIELD.replace("height: 5", "height: 5, maze: {generator: rooms}, path: {turns: 2}"),
      "x.yaml:4:72: layout.field.path.turns: expected no path.turns with field walls (the passages decide the "
      "path), got 2"),
+    (FIELD + "observation: {distractors: {lure_probability: 0.1}}\n",
+     "x.yaml:5:47: observation.distractors.lure_probability: expected no lures with a field layout (there is "
+     "no cue colour to flash; decoy_probability gives decoy marks), got 0.1"),
+    (FIELD.replace("height: 5", "height: 5, mark: null") + "observation: {distractors: {decoy_probability: 0.1}}\n",
+     "x.yaml:5:48: observation.distractors.decoy_probability: expected a mark block (layout.field.mark) for "
+     "decoy marks to imitate, got mark: null"),
     (GOOD + "observation: {first_person: {}}\n",
      "x.yaml:1:1: agent.actions: expected agent.actions 'turns' for a first-person or egocentric view, "
      "got 'moves'"),

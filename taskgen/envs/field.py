@@ -41,6 +41,8 @@ class FieldCore:
         self.noise = np.zeros((n, self.bits), dtype=bool)
         self.flip_keys = np.zeros(n, dtype=np.uint64)
         self.pixel_keys = np.zeros(n, dtype=np.uint64)
+        self.decoy = observations.decoy_probability
+        self.decoy_keys = np.zeros(n, dtype=np.uint64)
         self.rows = np.arange(n)
         self._pictures: FieldPictures | None = None
 
@@ -60,6 +62,22 @@ class FieldCore:
             self.flip_keys[rows] = subkeys(keys, "noise_flip")
         if self.observations.pixel_noise is not None:
             self.pixel_keys[rows] = subkeys(keys, "pixel_noise")
+        if self.decoy > 0:
+            self.decoy_keys[rows] = subkeys(keys, "distractor")
+
+    def shown_marks(self) -> np.ndarray:
+        """bool[N, C]: the marks each agent sees now: its falls' marks and, with decoys, this
+        step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
+        marked = self.until > self.step_count[:, None]
+        if self.decoy > 0:
+            draws = uniform(self.decoy_keys, self.step_count, 2)
+            show = np.flatnonzero(draws[:, 0] < self.decoy)
+            if show.size:
+                C = self.model.num_cells
+                cell = self.model.state_cell[self.state[show]]
+                other = np.minimum((draws[show, 1] * (C - 1)).astype(np.int64), C - 2)
+                marked[show, other + (other >= cell)] = True        # every cell but the agent's
+        return marked
 
     def advance(self, actions: np.ndarray, moving: np.ndarray | None = None):
         """One step of every environment (only ``moving`` ones change): reward, terminated, truncated."""
@@ -98,7 +116,7 @@ class FieldCore:
             parts["grid"] = self.observations.grid[cell]
         if self.observations.pixels is not None:
             parts["pixels"] = self.observations.pixels[cell]
-        self.overlay.apply(parts, cell, self.until > self.step_count[:, None])
+        self.overlay.apply(parts, cell, self.shown_marks())
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
             parts["pixels"] = add_pixel_noise(parts["pixels"], self.pixel_keys, self.step_count, kind, amplitude)
@@ -110,7 +128,7 @@ class FieldCore:
         if self._pictures is None:
             self._pictures = FieldPictures(self.model)
         cell = int(self.model.state_cell[self.state[i]])
-        marked = self.until[i] > self.step_count[i]
+        marked = self.shown_marks()[i]
         if truth:
             return self._pictures.truth(self.kind[i], cell, marked)
         return self._pictures.agent(cell, marked)
@@ -236,7 +254,7 @@ class FieldEnv(gym.Env):
         self._stream: int | None = None
         self._episode = 0
         vector = observations.vector
-        self._vector_only = observations.names == ("vector",)
+        self._vector_only = observations.names == ("vector",) and observations.decoy_probability == 0
         self._rows = vector.table if vector is not None else None
         self._mark_block = overlay.block
         self._noise = np.zeros((model.horizon + 1, self.core.bits), dtype=np.float32)

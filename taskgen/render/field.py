@@ -120,7 +120,8 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
             window = p.window if p.view == "window" else 0
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
-    obs = ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0)
+    obs = ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0,
+                         decoy_probability=spec.distractors.decoy_probability)
     marks = model.mark_steps > 0
     beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
                         or (spec.grid is not None and spec.grid.size >= 3))

@@ -402,12 +402,15 @@ class FirstPersonObservation(Strict):
 
 
 class Distractors(Strict):
-    """Signals that look like the cue but are not it, drawn afresh each step from the episode's stream."""
+    """Signals that look like the cue (or, in a field, a mark) but are not it, drawn afresh each
+    step from the episode's stream."""
 
     decoy_probability: float = Field(
         default=0.0, ge=0.0, le=1.0, description="Chance per step that, while the real cue is not shown, a "
         "decoy cue value (uniform over the values, so it carries nothing about the real one) appears "
-        "wherever the cue would: vector cue bits, grid cue channel, lamp strips.", examples=[0.1])
+        "wherever the cue would: vector cue bits, grid cue channel, lamp strips. In a field: that a "
+        "decoy mark shows on a cell drawn uniformly among those the agent is not on, for that "
+        "observation only (it says nothing about the path).", examples=[0.1])
     lure_probability: float = Field(
         default=0.0, ge=0.0, le=1.0, description="Chance per step that a random floor tile flashes a cue "
         "colour (top-down pixels) or cue value (grid view).", examples=[0.2])
@@ -496,10 +499,13 @@ class Spec(Strict):
                     "(a first-person view needs turns)", "observation.first_person")
         if self.agent.actions != "moves":
             _refuse("agent.actions", "agent.actions 'moves' with a field layout", repr(self.agent.actions))
-        for name in ("decoy_probability", "lure_probability"):
-            if getattr(obs.distractors, name) > 0:
-                _refuse(f"observation.distractors.{name}", "no decoys or lures with a field layout (there is "
-                        "no cue to imitate)", repr(getattr(obs.distractors, name)))
+        if obs.distractors.lure_probability > 0:
+            _refuse("observation.distractors.lure_probability", "no lures with a field layout (there is no "
+                    "cue colour to flash; decoy_probability gives decoy marks)",
+                    repr(obs.distractors.lure_probability))
+        if obs.distractors.decoy_probability > 0 and self.layout.field.mark is None:
+            _refuse("observation.distractors.decoy_probability", "a mark block (layout.field.mark) for decoy "
+                    "marks to imitate", "mark: null")
         return self
 
     format_version: Literal[1] = Field(

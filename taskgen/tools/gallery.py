@@ -163,8 +163,7 @@ def _field_policy(name: str, env: FieldEnv, spec: Spec, variant_seed: int, seed:
         rollout = MemorylessRollout(model, kind, start, view_classes(observations, overlay), marks_seen(overlay))
         table, _, _ = best_memoryless_paths(rollout)
         core = env.core
-        return lambda t, info: int(table[rollout.classify(model.state_cell[core.state],
-                                                          core.until > core.step_count[:, None])[0]])
+        return lambda t, info: int(table[rollout.classify(model.state_cell[core.state], core.shown_marks())[0]])
     rng = np.random.default_rng(seed)
     return lambda t, info: int(rng.integers(model.num_actions))
 
@@ -199,7 +198,7 @@ def record_field(spec: Spec, variant_seed: int, policy: str, episode: int, seed:
 
     def views(obs: Any) -> tuple[np.ndarray, np.ndarray]:
         cell = int(model.state_cell[core.state[0]])
-        marked = core.until[0] > core.step_count[0]
+        marked = core.shown_marks()[0]
         parts = obs if isinstance(obs, dict) else {core.observations.names[0]: obs}
         truth = Image.fromarray(pictures.truth(core.kind[0], cell, marked))
         ImageDraw.Draw(truth).text((2, 1), f"falls {int(core.falls[0])}", fill=(0, 0, 0), font=font)
