@@ -146,8 +146,8 @@ def _mark_steps(value: Any) -> Any:
 
 
 class Mark(Strict):
-    """A feedback mark on the cell where the agent stepped off: a bit of the vector's marks block
-    and a tile in the mark colour in top-down pixels."""
+    """A feedback mark on the cell where the agent stepped off: a bit of the vector's marks block,
+    a tile in the mark colour in top-down pixels and the grid view's mark channel."""
 
     steps: Annotated[
         Union[int, Literal["episode"]], BeforeValidator(_mark_steps),
