@@ -49,8 +49,8 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
 
     Reports solvability, recall distance, cue leaks, carried cues, the memory gap and the
     optimal, chance (best memoryless), cue-blind and random baselines; for a hidden-path field,
-    solvability, the memory gap and the optimal, chance and random baselines (with the random
-    agent's falls) over sampled paths. Exits 0 when every check passes, 1 when one fails, 2 on
+    solvability, the memory gap and the optimal, explorer, chance and random baselines (with the
+    random agent's falls), exact per path and averaged over sampled paths. Exits 0 when every check passes, 1 when one fails, 2 on
     a bad spec.
     """
     with limits.raised(max_work, max_bytes):

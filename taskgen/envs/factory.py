@@ -129,11 +129,6 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     if split is not None:
         raise ManifestError("split= needs a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
-    if spec.layout.field is not None:
-        if variants is not None and len(set(variants)) > 1:
-            raise ValueError("a batch of a field spec holds one variant: give seed=, not several variants")
-        field_seed = variants[0] if variants else (0 if seed is None else seed)
-        return FieldVectorEnv(*build_field(spec, field_seed), num_envs=num_envs, render_mode=render_mode)
     if variants is None:
         variants = [0 if seed is None else seed] * num_envs
     elif seed is not None:
@@ -141,6 +136,11 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     variants = list(variants)
     if len(variants) != num_envs:
         raise ValueError(f"variants must name one variant seed per env: {num_envs} needed, got {len(variants)}")
+    if spec.layout.field is not None:
+        if len(set(variants)) > 1:
+            raise ValueError("a batch of a field spec holds one variant (its paths differ per episode): give "
+                             "seed=, not several variants")
+        return FieldVectorEnv(*build_field(spec, variants[0]), num_envs=num_envs, render_mode=render_mode)
     built: dict[int, tuple[TaskModel, Any]] = {}
     for v in variants:
         if v not in built:
