@@ -103,13 +103,13 @@ class Maze(Strict):
 
 
 MAX_FIELD_SIDE = 31
-SIDES = ("north", "east", "south", "west")
 
 
 class HiddenPath(Strict):
     """The safe path across a field, drawn afresh at every reset from the episode's seed and never
-    shown to the agent. It runs from a cell on ``start_side`` to the opposite side, always
-    moving away from the start side or along it (so it never crosses itself)."""
+    shown to the agent. It runs from a cell on ``start_side`` to the opposite side; in an open
+    field it always moves away from the start side or along it (so it never crosses itself),
+    with walls it is the shortest way along the passages."""
 
     start_side: Literal["north", "east", "south", "west"] = Field(
         default="south", description="The side the path starts on; it ends on the opposite side.",
@@ -219,8 +219,8 @@ class Layout(Strict):
     maze: Maze | None = Field(default=None, description="A procedural maze with one goal per cue value.",
                               examples=[{"width": 7, "height": 7, "goals_in_dead_ends": True}])
     field: FieldLayout | None = Field(
-        default=None, description="An open field crossed on a hidden path (no cue: the path is what "
-        "the agent must learn and remember within an episode).",
+        default=None, description="A field, open or walled, crossed on a hidden path (no cue: the path "
+        "is what the agent must learn and remember within an episode).",
         examples=[{"width": 5, "height": 6, "path": {"turns": 2}}])
 
     @model_validator(mode="after")
