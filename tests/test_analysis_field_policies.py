@@ -16,7 +16,7 @@ from conftest import field_model, field_spec_text
 
 def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
     """Without marks in view a memoryless policy is a policy of the cell, so its rollout return
-    on each path equals dynamic programming's exact value on that path's model."""
+    on each path equals dynamic programming's exact value on that path's model (common practice)."""
     model = field_model(width=4, height=5, turns=1, start="random", rewards={"step": -0.03, "fall": -0.2},
                         episode={"max_steps": 15, "discount": 0.9})
     kind, start = sample_paths(model, 0, 12)

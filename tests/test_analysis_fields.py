@@ -33,7 +33,7 @@ def test_a_straight_path_from_a_fixed_start_needs_no_memory():
 
 def test_winding_random_paths_need_memory_and_the_figures_are_ordered():
     """With a random start and turns, knowing the path beats every memoryless policy found, and
-    the chance level is a lower bound no higher than the optimal agent."""
+    the chance level is a lower bound no higher than the optimal agent (common practice)."""
     spec = _spec(width=5, height=6, turns=2, start="random", mark={"steps": 2},
                  rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 60})
     report = check_field_variant(spec, 0, paths=32)
@@ -56,7 +56,7 @@ def test_marks_that_never_fade_help_an_agent_without_memory():
 
 
 def test_a_step_limit_below_the_crossing_fails_solvability():
-    """Six rows need at least five steps: a limit of 3 fails, naming the path and the numbers."""
+    """Six rows need at least five steps: a limit of 3 fails, naming the path and the numbers (common practice)."""
     report = check_field_variant(_spec(width=3, height=6, episode={"max_steps": 3}), 0, paths=4)
     solvable = report.checks[0]
     assert solvable.passed is False and "shortest crossing 5 steps exceeds the step limit 3" in solvable.reason
@@ -73,7 +73,7 @@ def test_path_averages_match_the_standard_library():
 
 
 def test_the_same_seed_gives_the_same_report():
-    """Paths for the analyses come from the variant seed: two runs agree exactly."""
+    """Paths for the analyses come from the variant seed: two runs agree exactly (common practice)."""
     spec = _spec(width=5, height=6, turns=2, start="random")
     assert check_field_variant(spec, 3, paths=8).to_dict() == check_field_variant(spec, 3, paths=8).to_dict()
 
@@ -88,14 +88,13 @@ def test_pruned_path_models_give_the_same_exact_figures():
     for k, s in zip(kind, start):
         full, pruned = model.path_model(k, int(s)), model.path_model(k, int(s), reachable_only=True)
         assert pruned.num_states < full.num_states
-        for m in (full, pruned):
-            m.params["value"] = (at_reset(m, optimise(m)[0]), at_reset(m, evaluate(m, uniform_policy(m))))
-        assert np.allclose(full.params["value"], pruned.params["value"], atol=1e-12)
+        values = [(at_reset(m, optimise(m)[0]), at_reset(m, evaluate(m, uniform_policy(m)))) for m in (full, pruned)]
+        assert np.allclose(values[0], values[1], atol=1e-12)
 
 
 def test_analyses_over_the_work_cap_are_refused_with_the_numbers():
     """When the sampled paths' dynamic programming would exceed the work cap, the check stops
-    before solving and says how to go on (fewer paths, or a higher cap)."""
+    before solving and says how to go on (fewer paths, or a higher cap) (common practice)."""
     from taskgen import limits
     spec = _spec(width=6, height=8, turns=2, start="random", fall={"max_falls": 8}, episode={"max_steps": 60})
     with limits.raised(max_work=400_000), pytest.raises(limits.ResourceLimitError, match="--paths"):

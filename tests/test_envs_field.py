@@ -94,7 +94,7 @@ def test_the_same_seed_gives_the_same_paths_in_a_fresh_process():
 @pytest.mark.parametrize("modality", sorted(MODALITIES))
 def test_two_different_paths_look_the_same_at_the_start(modality):
     """With the start fixed in the middle, episodes on different paths begin with identical
-    observations in every modality (noise and decoys aside): the path leaks into no observation."""
+    observations in every modality (noise and decoys aside): the path leaks into no observation (common practice)."""
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, observation={
         k: (v if v is None or k == "grid" else {**v, "noise": None}) for k, v in MODALITIES[modality].items()
         if k != "distractors"}))
@@ -115,7 +115,7 @@ def test_two_different_paths_look_the_same_at_the_start(modality):
 @pytest.mark.parametrize("steps", [1, 3, "episode"])
 def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
     """After a fall, the marks block has the aimed cell's bit set in exactly ``steps``
-    observations (the one right after the fall included), or until the episode ends."""
+    observations (the one right after the fall included), or until the episode ends (common practice)."""
     spec = _spec({"vector": {"position": "one_hot", "walls": False}}, width=3, height=6, mark={"steps": steps},
                  episode={"max_steps": 40})
     env = taskgen.make(spec)
@@ -134,7 +134,7 @@ def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
 
 
 def test_no_mark_means_no_marks_block():
-    """mark: null leaves the vector without a marks block."""
+    """mark: null leaves the vector without a marks block (common practice)."""
     env = taskgen.make(_spec(mark=None))
     assert "marks" not in env.observation_blocks
 
@@ -184,7 +184,7 @@ def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
 
 
 def test_render_and_ground_truth_pictures():
-    """render() shows what the agent could see (no path colour); ground_truth() draws the path."""
+    """render() shows what the agent could see (no path colour); ground_truth() draws the path (common practice)."""
     from taskgen.render.palette import PATH
     env = taskgen.make(_spec(width=5, height=6, turns=2), render_mode="rgb_array")
     env.reset(seed=0)

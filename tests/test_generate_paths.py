@@ -65,7 +65,7 @@ def test_middle_start_and_uniform_random_start():
 
 
 def test_impossible_shapes_say_why():
-    """A shape that cannot fit its field is refused with the reason."""
+    """A shape that cannot fit its field is refused with the reason (common practice)."""
     assert "forward runs" in PathShape(3, 5, 4).problem()
     assert "2 rows" in PathShape(1, 5, 0).problem()
     assert "more than 1 columns" in PathShape(5, 1, 1).problem()
@@ -75,7 +75,7 @@ def test_impossible_shapes_say_why():
 
 @pytest.mark.parametrize("side", ["north", "east", "south", "west"])
 def test_frames_put_the_start_on_the_start_side_and_the_end_opposite(side):
-    """Mapped onto a 4×6 field, starts lie on the named side and ends on the opposite one."""
+    """Mapped onto a 4×6 field, starts lie on the named side and ends on the opposite one (common practice)."""
     frame = FieldFrame(4, 6, side)
     shape = PathShape(frame.depth, frame.across, 2)
     kind, start = frame.to_field(_draw(shape, n=50))

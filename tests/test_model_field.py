@@ -52,7 +52,7 @@ def closed_form_crossing(L: int) -> float:
 def test_random_crossing_time_matches_the_closed_form(L):
     """The exact solver's expected crossing steps (no step limit) equal the closed form derived
     in closed_form_crossing to 1e-9 relative (the values grow as (2 + √3)^L: 4, 20, 80, 304, …,
-    826804 steps for L = 10)."""
+    826804 steps for L = 10; source: the derivation in closed_form_crossing's docstring)."""
     _, path, _, start = straight(L)
     steps = hitting_times(path, uniform_policy(path), path.terminal)[start]
     assert steps == pytest.approx(closed_form_crossing(L), rel=1e-9, abs=1e-9)
@@ -79,7 +79,7 @@ def test_crossing_time_matches_the_fundamental_matrix(L):
 
 def test_falls_send_the_agent_back_or_leave_it_in_place():
     """A step off the path pays step + fall and returns the agent to the start cell, or with
-    fall.to 'stay' keeps it where it was; the mark goes on the cell it aimed at."""
+    fall.to 'stay' keeps it where it was; the mark goes on the cell it aimed at (common practice)."""
     rewards = {"step": -0.01, "fall": -0.5, "correct": 1.0}
     for to, expect in (("start", "start"), ("stay", "here")):
         model, path, kind, start = straight(4, fall={"to": to}, rewards=rewards)
@@ -106,7 +106,7 @@ def test_the_fall_limit_ends_the_episode_as_a_failure():
 
 def test_one_path_model_agrees_with_the_shared_step_rule():
     """Every (state, action) of a winding path's model moves and pays as FieldModel.outcome
-    says, so the analyses and the runtimes read one rule."""
+    says, so the analyses and the runtimes read one rule (common practice)."""
     model = field_model(width=5, height=6, turns=3, start="random", fall={"max_falls": 3},
                         rewards={"step": -0.02, "fall": -0.3, "correct": 2.0})
     kind, start = model.draw(np.random.default_rng(4).random((1, model.draws)))

@@ -25,7 +25,8 @@ def _built(observation, **fields):
 @pytest.mark.parametrize("view", ["full", "window"])
 def test_a_mark_paints_the_floor_of_its_own_tile_only(view):
     """Marking one cell changes exactly the floor pixels of that cell's tile (its box from
-    tile_boxes), all to the mark colour; in the window view a cell outside the window changes nothing."""
+    tile_boxes), all to the mark colour; in the window view a cell outside the window changes
+    nothing (common practice)."""
     model, obs, overlay = _built({"vector": None, "pixels": {"height": 60, "width": 48, "view": view, "window": 3}},
                                  width=4, height=5)
     agent = np.array([model.num_cells - 2])                       # bottom row
@@ -48,7 +49,7 @@ def test_a_mark_paints_the_floor_of_its_own_tile_only(view):
 
 def test_the_agent_view_is_rendered_without_the_path():
     """The view tables come from a model with no path cells, and every path's model gives the
-    agent the same observation classes."""
+    agent the same observation classes (common practice)."""
     model, obs, overlay = _built({"vector": {"position": "one_hot"}, "pixels": {"height": 32, "width": 32}},
                                  width=5, height=6, turns=2, start="random")
     view = model.view_model()
@@ -71,7 +72,7 @@ def test_observation_classes_follow_what_the_agent_sees():
 
 def test_only_the_ground_truth_draws_the_path():
     """The truth picture fills every path cell (its end in the end colour); the agent picture
-    has neither colour; a marked cell shows the mark colour in both."""
+    has neither colour; a marked cell shows the mark colour in both (common practice)."""
     model, _, _ = _built(None, width=5, height=6, turns=2, start="random")
     kind, start = model.draw(np.random.default_rng(3).random((1, model.draws)))
     pictures = FieldPictures(model, cell_px=10)
@@ -88,13 +89,14 @@ def test_only_the_ground_truth_draws_the_path():
     for cell in np.flatnonzero(kind[0] != OFF):
         r, c = model.layout.cells[cell]
         left, top, right, bottom = pictures.renderer.box(int(r), int(c))
-        on_cells += (truth[top:bottom + 1, left:right + 1] == (PATH_END if kind[0][cell] == 2 else PATH)).all(axis=2).any()
+        colour = PATH_END if kind[0][cell] == 2 else PATH
+        on_cells += (truth[top:bottom + 1, left:right + 1] == colour).all(axis=2).any()
     assert on_cells == int((kind[0] != OFF).sum())
 
 
 def test_the_grid_view_marks_cells_in_its_window_in_the_mark_channel():
     """A field's grid view has the nine FIELD_GRID_CHANNELS; a marked cell inside the window sets
-    the mark channel at its place, one outside sets nothing, and no goal is ever shown."""
+    the mark channel at its place, one outside sets nothing, and no goal is ever shown (common practice)."""
     from taskgen.render.field import FIELD_GRID_CHANNELS, MARK_CHANNEL
     model, obs, overlay = _built({"vector": None, "grid": {"size": 3}}, width=4, height=5)
     assert obs.grid.shape[1:] == (3, 3, len(FIELD_GRID_CHANNELS)) and not obs.grid[..., 5].any()
@@ -110,7 +112,7 @@ def test_the_grid_view_marks_cells_in_its_window_in_the_mark_channel():
 
 def test_a_mark_colour_from_the_spec_is_drawn_and_reserved_colours_are_refused():
     """mark.colour paints marks in pixels; the floor, wall and agent colours are refused (the
-    schema's list of them equals the palette's)."""
+    schema's list of them equals the palette's) (common practice)."""
     from taskgen.render.palette import AGENT, FLOOR, WALL
     model, obs, overlay = _built({"vector": None, "pixels": {"height": 40, "width": 40}}, width=3, height=4,
                                  mark={"steps": 2, "colour": [10, 200, 90]})

@@ -85,7 +85,7 @@ def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
     for i, (top, bottom, left, right) in enumerate(boxes):      # once per table, not per step
         r, c = np.meshgrid(np.arange(top, bottom), np.arange(left, right), indexing="ij")
         flat = (r * width + c).ravel()
-        out[i] = flat[0] if flat.size else 0
+        out[i] = flat[0] if flat.size else 0   # a tile too small to show: pixel 0, in the lamp strip, never floor
         out[i, :flat.size] = flat
     return out
 

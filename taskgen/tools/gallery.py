@@ -132,7 +132,7 @@ def _frame(agent: Image.Image, truth: Image.Image, text: str, font: ImageFont.Im
     return frame
 
 
-def _field_policy(name: str, env: FieldEnv, spec: Spec, variant_seed: int, seed: int):
+def _field_policy(name: str, env: FieldEnv, variant_seed: int, seed: int):
     """A function (step, info) → action for the named policy on a field."""
     model = env.model
     if name == "optimal":   # knows this episode's path: its table is made at the episode's first step
@@ -207,7 +207,7 @@ def record_field(spec: Spec, variant_seed: int, policy: str, episode: int, seed:
     def caption(t: int, action: int | None, reward: float) -> str:
         return f"t={t} " + ("end" if action is None else model.action_names[action]) + f" r={reward:+.2f}"
 
-    choose = _field_policy(policy, env, spec, variant_seed, seed + episode)
+    choose = _field_policy(policy, env, variant_seed, seed + episode)
     frames, labels, total = _play(env, seed + episode, choose, views, caption, font)
     success = bool(model.path_model(core.kind[0], int(core.start[0])).success[core.state[0]])
     return Episode(episode, frames, labels, total, success)
