@@ -12,7 +12,7 @@ from .envs import (FieldEnv, FieldVectorEnv, TaskEnv, TaskVectorEnv, build_model
                    register_bundled)
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
 from .model import FieldModel, TaskModel, compile_field, compile_variant
-from .spec import Spec, load_spec, load_spec_text
+from .spec import CueTaskSpec, FieldSpec, Spec, load_spec, load_spec_text
 from .tools import check_variant
 from .variant import Variant, make_variant
 
@@ -24,7 +24,7 @@ except PackageNotFoundError:  # a source checkout that was never installed
 register_bundled()
 
 __all__ = [
-    "AnalysisError", "FieldEnv", "FieldModel", "FieldVectorEnv", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
+    "AnalysisError", "CueTaskSpec", "FieldEnv", "FieldModel", "FieldSpec", "FieldVectorEnv", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
     "Variant",
     "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_field", "compile_variant",
     "load_spec", "load_spec_text", "make", "make_variant", "make_vec", "register_bundled",

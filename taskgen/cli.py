@@ -55,14 +55,14 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     """
     with limits.raised(max_work, max_bytes):
         loaded = resolve_spec(spec)
-        if loaded.layout.field is not None:
+        if loaded.layout.family == "field":
             run = run_field_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths)
         else:
             run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap)
     if as_json:
         click.echo(json.dumps(run.to_dict(), indent=2))
     else:
-        click.echo(format_field_text(run) if loaded.layout.field is not None else format_text(run))
+        click.echo(format_field_text(run) if loaded.layout.family == "field" else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
 
 

@@ -53,9 +53,9 @@ def make_variant(spec: Spec, seed: int = 0) -> Variant:
     if not isinstance(seed, (int, np.integer)) or isinstance(seed, bool) or seed < 0:
         raise ValueError(f"variant seed must be an integer ≥ 0, got {seed!r}")
     seed = int(seed)
-    if spec.layout.maze is not None:
+    if spec.layout.family == "maze":
         return _maze_variant(spec, seed)
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return _field_variant(spec, seed)
     rng = variant_rng(seed, _PARAMS_STREAM)
     corridor = spec.layout.corridor

@@ -107,6 +107,26 @@ def test_bad_spec_gives_exact_located_message(text, message):
     assert str(info.value).splitlines()[0] == message
 
 
+def test_the_layout_family_decides_the_spec_type():
+    """A corridor or maze gives a CueTaskSpec with a cue; a field gives a FieldSpec without one; a
+    misspelt family is reported alone with a hint (common practice: did-you-mean)."""
+    from taskgen import CueTaskSpec, FieldSpec
+    assert isinstance(load_spec_text(GOOD), CueTaskSpec)
+    field = load_spec_text(FIELD)
+    assert isinstance(field, FieldSpec) and not hasattr(field, "cue")
+    with pytest.raises(SpecError) as info:
+        load_spec_text(FIELD.replace("field:", "feild:"), "x.yaml")
+    assert str(info.value) == ("x.yaml:4:3: layout.feild: expected a known key (corridor, maze, field), got "
+                               "'feild'; did you mean 'field'?")
+
+
+def test_a_field_spec_written_out_by_an_earlier_version_still_loads():
+    """Earlier versions wrote field specs out with `cue: null` and the default decision block; the
+    format is unchanged, so they load as the same spec (common practice: backward compatibility)."""
+    old = load_spec_text(FIELD + "cue: null\ndecision: {rule: match, wrong: end}\n")
+    assert old == load_spec_text(FIELD)
+
+
 def test_broken_yaml_points_at_the_problem():
     """A YAML syntax error carries the parser's own position (PyYAML marks, 0-based → 1-based)."""
     with pytest.raises(SpecError, match=r"^x\.yaml:2:6: expected valid YAML, got mapping values are not"):

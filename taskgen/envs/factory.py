@@ -14,6 +14,7 @@ from ..render import observation_set
 from ..render.field import MarkOverlay, field_observation_set
 from ..render.observations import ObservationSet
 from ..spec import Spec, load_spec, load_spec_text
+from ..spec.schema import SPEC_TYPES
 from ..variant import make_variant
 from .field import FieldEnv, FieldVectorEnv
 from .single import TaskEnv
@@ -34,7 +35,7 @@ def bundled_specs() -> dict[str, Path]:
 
 def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) -> Spec:
     """A Spec as given, or loaded from a path or a bundled spec's name."""
-    if isinstance(spec_or_path, Spec):
+    if isinstance(spec_or_path, SPEC_TYPES):
         if overrides:  # re-validate with the overrides applied
             return load_spec_text(yaml.safe_dump(spec_or_path.model_dump(mode="json")),
                                   f"<spec {spec_or_path.name}>", **overrides)
@@ -54,7 +55,7 @@ def build_model(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = 
     field spec: its dynamics for every path; ``path_model`` gives one path's TaskModel)."""
     spec = resolve_spec(spec_or_path, **overrides)
     variant = make_variant(spec, 0 if seed is None else seed)
-    return compile_field(variant) if spec.layout.field is not None else compile_variant(variant)
+    return compile_field(variant) if spec.layout.family == "field" else compile_variant(variant)
 
 
 def build_field(spec: Spec, seed: int = 0) -> tuple[FieldModel, ObservationSet, MarkOverlay]:
@@ -102,7 +103,7 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
     if split is not None or index is not None:
         raise ManifestError("split= and index= need a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return FieldEnv(*build_field(spec, 0 if seed is None else seed), render_mode=render_mode)
     model = compile_variant(make_variant(spec, 0 if seed is None else seed))
     return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
@@ -136,7 +137,7 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     variants = list(variants)
     if len(variants) != num_envs:
         raise ValueError(f"variants must name one variant seed per env: {num_envs} needed, got {len(variants)}")
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         if len(set(variants)) > 1:
             raise ValueError("a batch of a field spec holds one variant (its paths differ per episode): give "
                              "seed=, not several variants")

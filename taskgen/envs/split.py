@@ -67,7 +67,7 @@ def entry_model(manifest: dict[str, Any], entry: dict[str, Any],
     spec = load_spec_text(yaml.safe_dump(manifest["spec"]), f"{source} (embedded spec)", **overrides)
     variant = make_variant(spec, int(entry["seed"]))
     model: TaskModel | FieldModel
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         model = compile_field(variant)
         found = field_fingerprint(model)
     else:

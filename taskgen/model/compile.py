@@ -62,7 +62,7 @@ def compile_variant(variant: Variant) -> TaskModel:
     (or, with ``decision.wrong: continue``, leaves p as it is).
     """
     spec, layout = variant.spec, variant.layout
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         raise ValueError(f"{variant.variant_id} is a field variant: compile it with compile_field")
     k = variant.params["cue_values"]
     m = spec.cue.sequence_length

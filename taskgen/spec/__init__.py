@@ -2,6 +2,6 @@
 
 from .loader import load_spec, load_spec_text
 from .params import IntParam
-from .schema import FORMAT_VERSION, Spec
+from .schema import FORMAT_VERSION, CueTaskSpec, FieldSpec, Spec
 
-__all__ = ["FORMAT_VERSION", "IntParam", "Spec", "load_spec", "load_spec_text"]
+__all__ = ["FORMAT_VERSION", "CueTaskSpec", "FieldSpec", "IntParam", "Spec", "load_spec", "load_spec_text"]

@@ -12,7 +12,7 @@ from pydantic import BaseModel, ValidationError
 
 from ..errors import Location, SpecError, SpecErrors
 from .params import describe
-from .schema import Spec
+from .schema import FAMILIES, CueLayout, FieldTaskLayout, Spec, spec_type
 
 PathKey = tuple[Any, ...]
 
@@ -141,9 +141,10 @@ def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
     return data, pos
 
 
-def _model_at(path: PathKey) -> type[BaseModel] | None:
-    """The pydantic model whose fields are valid at ``path`` (for did-you-mean hints)."""
-    model: Any = Spec
+def _model_at(root: type[BaseModel], path: PathKey) -> type[BaseModel] | None:
+    """The pydantic model whose fields are valid at ``path`` of a ``root`` spec type (for did-you-mean
+    hints)."""
+    model: Any = root
     for part in path:
         if isinstance(part, int) or model is None:
             continue
@@ -156,8 +157,14 @@ def _model_at(path: PathKey) -> type[BaseModel] | None:
     return model
 
 
-def _number_word(path: PathKey, fallback: Any) -> str:
-    model = _model_at(path[:-1])
+def _known_keys(root: type[BaseModel], path: PathKey) -> list[str]:
+    """The keys valid at ``path``; a layout block may name any family (the family picks the spec type)."""
+    model = _model_at(root, path) or root
+    return list(FAMILIES) if model in (CueLayout, FieldTaskLayout) else list(model.model_fields)
+
+
+def _number_word(root: type[BaseModel], path: PathKey, fallback: Any) -> str:
+    model = _model_at(root, path[:-1])
     field = model.model_fields.get(path[-1]) if model and path else None
     if field is not None and field.annotation is int:
         return "an integer"
@@ -166,15 +173,15 @@ def _number_word(path: PathKey, fallback: Any) -> str:
     return "an integer" if isinstance(fallback, int) else "a number"
 
 
-def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
-    """One pydantic error dict → one SpecError in taskgen's template."""
+def _translate(err: Mapping[str, Any], pos: _Positions, root: type[BaseModel]) -> SpecError:
+    """One pydantic error dict → one SpecError in taskgen's template (``root``: the spec type validated)."""
     path = tuple(err["loc"])
     kind = err["type"]
     ctx = err.get("ctx") or {}
     value = err.get("input")
     field = _dotted(path)
     if kind == "extra_forbidden":
-        known = list((_model_at(path[:-1]) or Spec).model_fields)
+        known = _known_keys(root, path[:-1])
         found = repr(str(path[-1]))
         hint = difflib.get_close_matches(str(path[-1]), known, n=1)
         if hint:
@@ -191,7 +198,7 @@ def _translate(err: Mapping[str, Any], pos: _Positions) -> SpecError:
     bounds = {"greater_than_equal": "≥", "greater_than": ">", "less_than_equal": "≤", "less_than": "<"}
     if kind in bounds:
         limit = next(iter(ctx.values()))
-        expected = f"expected {_number_word(path, value)} {bounds[kind]} {limit}"
+        expected = f"expected {_number_word(root, path, value)} {bounds[kind]} {limit}"
         return SpecError(pos.locate(path, field), expected, describe(value))
     words = {
         "int_type": "an integer", "int_parsing": "an integer", "int_from_float": "an integer",
@@ -246,10 +253,14 @@ def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any], pos: _P
 
 
 def _explained_by_typo(err: Mapping[str, Any], errors: list[Any]) -> bool:
-    """A missing key whose misspelling sits beside it is reported once, as the unknown key."""
+    """A missing key whose misspelling sits beside it is reported once, as the unknown key; so is a
+    missing cue when the layout names an unknown family (the spec type is then undecided)."""
     if err["type"] != "missing":
         return False
     parent, name = tuple(err["loc"][:-1]), err["loc"][-1]
+    if (parent, name) == ((), "cue") and any(other["type"] == "extra_forbidden" and tuple(other["loc"][:1]) ==
+                                             ("layout",) and len(other["loc"]) == 2 for other in errors):
+        return True
     for other in errors:
         loc = tuple(other["loc"])
         if other["type"] == "extra_forbidden" and loc[:-1] == parent:
@@ -265,11 +276,12 @@ def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | Non
     if overrides:
         data = dict(data)
         _apply_overrides(data, overrides, pos)
+    root = spec_type(data)
     try:
-        return Spec.model_validate(data)
+        return root.model_validate(data)
     except ValidationError as exc:
         raw = exc.errors(include_url=False)
-        errors = [_translate(e, pos) for e in raw if not _explained_by_typo(e, raw)]
+        errors = [_translate(e, pos, root) for e in raw if not _explained_by_typo(e, raw)]
         errors.sort(key=lambda e: (e.location.line or 0, e.location.column or 0))
         raise (errors[0] if len(errors) == 1 else SpecErrors(errors)) from None
 

@@ -6,15 +6,49 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from .schema import FORMAT_VERSION, Spec
+from pydantic.json_schema import models_json_schema
+
+from .schema import FORMAT_VERSION, CueTaskSpec, FieldSpec
 
 DIALECT = "https://json-schema.org/draft/2020-12/schema"
+TOP_LEVELS = ((CueTaskSpec, "cue task (corridor or maze layout)"), (FieldSpec, "field task (field layout)"))
 
 
 def json_schema() -> dict[str, Any]:
-    """The JSON Schema of a spec, with the ``$schema`` key pydantic does not emit."""
-    schema = Spec.model_json_schema()
-    return {"$schema": DIALECT, **schema}
+    """The JSON Schema of a spec: a field spec when the layout names a field, else a cue task. The
+    if/then/else (rather than a oneOf) lets editors check and complete against the one type that applies."""
+    _, top = models_json_schema([(model, "validation") for model, _ in TOP_LEVELS],
+                                ref_template="#/$defs/{model}")
+    return {
+        "$schema": DIALECT, "title": "taskgen spec",
+        "description": "A taskgen memory-task spec, format version 1: a cue task (layout corridor or maze, "
+        "with a cue) or a field task (layout field, no cue); the layout family decides which.",
+        "if": {"properties": {"layout": {"required": ["field"]}}, "required": ["layout"]},
+        "then": {"$ref": "#/$defs/FieldSpec"}, "else": {"$ref": "#/$defs/CueTaskSpec"},
+        "$defs": _reachable(top["$defs"], [model.__name__ for model, _ in TOP_LEVELS]),
+    }
+
+
+def _reachable(defs: dict[str, Any], roots: list[str]) -> dict[str, Any]:
+    """The definitions the roots refer to, directly or not (pydantic also emits ones nothing uses)."""
+    keep: set[str] = set()
+    stack = list(roots)
+    while stack:
+        name = stack.pop()
+        if name in keep:
+            continue
+        keep.add(name)
+        stack += [ref.rsplit("/", 1)[-1] for ref in _refs(defs[name])]
+    return {name: body for name, body in defs.items() if name in keep}
+
+
+def _refs(node: Any) -> list[str]:
+    if isinstance(node, dict):
+        own = [node["$ref"]] if isinstance(node.get("$ref"), str) else []
+        return own + [r for v in node.values() for r in _refs(v)]
+    if isinstance(node, list):
+        return [r for v in node for r in _refs(v)]
+    return []
 
 
 def json_schema_text() -> str:
@@ -86,8 +120,7 @@ def _cell(text: str) -> str:
 
 def reference_markdown() -> str:
     """The spec reference, one section per block, in document order."""
-    schema = json_schema()
-    defs = schema.get("$defs", {})
+    defs = json_schema()["$defs"]
     lines = [
         "# Spec reference",
         "",
@@ -97,29 +130,40 @@ def reference_markdown() -> str:
         "errors; values are never coerced (`\"3\"` is not a number, `1.5` is not an integer). Editors can "
         "complete and check specs with the JSON Schema in `docs/taskgen.schema.json`.",
         "",
+        "There are two kinds of spec, told apart by the layout family: a **cue task** (`layout.corridor` "
+        "or `layout.maze`) has a `cue` and a `decision` rule; a **field task** (`layout.field`) has "
+        "neither, because the hidden path is what the agent must remember. Blocks both share are "
+        "listed once.",
+        "",
     ]
-    queue: list[tuple[str, dict[str, Any]]] = [("(top level)", schema)]
-    while queue:
-        path, block = queue.pop(0)
-        lines += [f"## `{path}`" if path != "(top level)" else "## Top level", "",
-                  block.get("description", ""), "",
-                  "| key | type | default | description | example |", "| --- | --- | --- | --- | --- |"]
-        required = set(block.get("required", []))
-        nested = []
-        for key, prop in block.get("properties", {}).items():
-            model, target = _resolve(prop, defs)
-            default = "required" if key in required else _flow(prop.get("default"))
-            if model is not None and key not in required and "default" not in prop:
-                default = "see block"
-            example = prop.get("examples", [None])[0]
-            type_text = _type_text(prop, defs) if model is None else "mapping"
-            if model is not None and "anyOf" in prop:
-                type_text = "mapping or null"
-            lines.append(f"| `{key}` | {_cell(type_text)} | {_cell(default)} | "
-                         f"{_cell(prop.get('description', ''))} | `{_cell(_flow(example))}` |")
-            if model is not None:
-                child = key if path == "(top level)" else f"{path}.{key}"
-                nested.append((child, target))
-        lines.append("")
-        queue[0:0] = nested
+    documented: dict[str, str] = {}          # block path → the model documented there
+    for model, words in TOP_LEVELS:
+        queue: list[tuple[str, str, dict[str, Any]]] = [("", model.__name__, defs[model.__name__])]
+        while queue:
+            path, name, block = queue.pop(0)
+            if path in documented and documented[path] == name:
+                continue                        # a block both spec types share, documented once
+            title = f"## Top level of a {words}" if not path else f"## `{path}`"
+            if path and path in documented:
+                title += f" ({words.split(' (')[0]})"
+            documented.setdefault(path, name)
+            lines += [title, "", block.get("description", ""), "",
+                      "| key | type | default | description | example |", "| --- | --- | --- | --- | --- |"]
+            required = set(block.get("required", []))
+            nested = []
+            for key, prop in block.get("properties", {}).items():
+                child_model, target = _resolve(prop, defs)
+                default = "required" if key in required else _flow(prop.get("default"))
+                if child_model is not None and key not in required and "default" not in prop:
+                    default = "see block"
+                example = prop.get("examples", [None])[0]
+                type_text = _type_text(prop, defs) if child_model is None else "mapping"
+                if child_model is not None and "anyOf" in prop:
+                    type_text = "mapping or null"
+                lines.append(f"| `{key}` | {_cell(type_text)} | {_cell(default)} | "
+                             f"{_cell(prop.get('description', ''))} | `{_cell(_flow(example))}` |")
+                if child_model is not None:
+                    nested.append((key if not path else f"{path}.{key}", child_model, target))
+            lines.append("")
+            queue[0:0] = nested
     return "\n".join(lines)

@@ -1,6 +1,8 @@
 """The spec language, version 1, as pydantic models: the one place a spec is validated.
 
-Every later stage trusts a validated :class:`Spec`. Field descriptions double as the
+A spec is a :data:`Spec`: a :class:`CueTaskSpec` (corridor or maze, with a cue) or a
+:class:`FieldSpec` (a field crossed on a hidden path, no cue), told apart by the layout family.
+Every later stage trusts a validated spec. Field descriptions double as the
 spec reference, so keep them true when behaviour changes.
 """
 
@@ -8,7 +10,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import (BaseModel, BeforeValidator, ConfigDict, Field, ValidationInfo, WithJsonSchema, field_validator,
+from pydantic import (BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, WithJsonSchema, field_validator,
                       model_validator)
 from pydantic_core import PydanticCustomError
 
@@ -211,29 +213,47 @@ class FieldLayout(Strict):
         return self
 
 
-class Layout(Strict):
-    """Where the agent walks: exactly one layout family."""
+FAMILIES = ("corridor", "maze", "field")   # layout families, one per spec
+
+
+class _OneFamily(Strict):
+    """A layout block: exactly one of the layout families is given (the rule that picks the spec type)."""
+
+    @model_validator(mode="before")
+    @classmethod
+    def _one_family(cls, data: Any) -> Any:
+        if isinstance(data, dict) and set(data) <= set(FAMILIES):   # unknown keys: reported as such
+            given = [name for name in FAMILIES if data.get(name) is not None]
+            if len(given) != 1:
+                _refuse("", "exactly one of corridor, maze, field", " and ".join(given) if given else "neither")
+        return data
+
+
+class CueLayout(_OneFamily):
+    """Where the agent walks in a cue task: a corridor or a maze."""
 
     corridor: Corridor | None = Field(default=None, description="A cue-recall corridor with one arm per "
                                       "cue value.", examples=[{"length": 8, "arm_length": 2}])
     maze: Maze | None = Field(default=None, description="A procedural maze with one goal per cue value.",
                               examples=[{"width": 7, "height": 7, "goals_in_dead_ends": True}])
-    field: FieldLayout | None = Field(
-        default=None, description="A field, open or walled, crossed on a hidden path (no cue: the path "
-        "is what the agent must learn and remember within an episode).",
-        examples=[{"width": 5, "height": 6, "path": {"turns": 2}}])
-
-    @model_validator(mode="after")
-    def _one_family(self) -> "Layout":
-        given = [name for name in ("corridor", "maze", "field") if getattr(self, name) is not None]
-        if len(given) != 1:
-            _refuse("", "exactly one of corridor, maze, field", " and ".join(given) if given else "neither")
-        return self
 
     @property
     def family(self) -> str:
         """The layout family's name."""
-        return "corridor" if self.corridor is not None else "maze" if self.maze is not None else "field"
+        return "corridor" if self.corridor is not None else "maze"
+
+
+class FieldTaskLayout(_OneFamily):
+    """Where the agent walks in a hidden-path task: a field."""
+
+    field: FieldLayout = Field(
+        description="A field, open or walled, crossed on a hidden path (no cue: the path is what the agent "
+        "must learn and remember within an episode).", examples=[{"width": 5, "height": 6, "path": {"turns": 2}}])
+
+    @property
+    def family(self) -> str:
+        """The layout family's name."""
+        return "field"
 
 
 class Decision(Strict):
@@ -452,19 +472,59 @@ class Agent(Strict):
         examples=["moves", "turns"])
 
 
-class Spec(Strict):
-    """A memory-task spec: one YAML document."""
+class _Header(Strict):
+    """The keys every spec starts with."""
 
-    # editors see the rule "a corridor or maze needs a cue, a field has none" too
-    model_config = ConfigDict(**Strict.model_config, json_schema_extra={"allOf": [{
-        "if": {"properties": {"layout": {"required": ["field"]}}, "required": ["layout"]},
-        "then": {"properties": {"cue": {"type": "null"}}},
-        "else": {"required": ["cue"]}}]})
+    format_version: Literal[1] = Field(
+        description="Version of the spec language this file is written in.", examples=[1]
+    )
+    name: str = Field(
+        pattern=r"^[a-z0-9][a-z0-9-]{0,62}$",
+        description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v0.",
+        examples=["orchard-gate"],
+    )
+    description: str = Field(default="", description="What the task tests, in a sentence or two.",
+                             examples=["Two-arm recall after a hall of 6 to 12 steps."])
+
+
+class _Settings(Strict):
+    """The keys every spec ends with: how the agent acts, what it is paid, how long it plays, what it sees."""
+
+    agent: Agent = Field(default_factory=Agent, description="The agent's actions (moves or turns).",
+                         examples=[{"actions": "turns"}])
+    rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.",
+                             examples=[{"correct": 1.0, "wrong": -1.0, "step": -0.01}])
+    episode: Episode = Field(default_factory=Episode, description="Step limit and discount.",
+                             examples=[{"max_steps": "auto", "discount": 0.99}])
+    observation: Observation = Field(default_factory=Observation, description="What the agent sees.",
+                                     examples=[{"vector": {"position": "coordinates"}}])
+
+
+class _CueParts(Strict):
+    """The keys of a cue task between the header and the settings."""
+
+    layout: CueLayout = Field(description="The layout family and its parameters.",
+                              examples=[{"corridor": {"length": 8}}])
+    cue: Cue = Field(description="The cue to remember (required by corridor and maze layouts; a field has "
+                     "none).", examples=[{"values": 2, "visible_steps": 1}])
+    decision: Decision = Field(default_factory=Decision, description="How the cue decides which goal pays.",
+                               examples=[{"rule": "non_match", "wrong": "end"}])
+
+
+class _FieldParts(Strict):
+    """The keys of a hidden-path task between the header and the settings."""
+
+    layout: FieldTaskLayout = Field(description="The layout family and its parameters.",
+                                    examples=[{"field": {"width": 5, "height": 6}}])
+
+
+# Each spec type lists its keys header first, then its own, then the settings: pydantic collects
+# the fields of the bases from the last one to the first.
+class CueTaskSpec(_Settings, _CueParts, _Header):
+    """A memory-task spec with a cue (a corridor or a maze layout): one YAML document."""
 
     @model_validator(mode="after")
-    def _sequences_match(self) -> "Spec":
-        if self.layout.field is not None:
-            return self._field_rules()
+    def _parts_agree(self) -> "CueTaskSpec":
         obs = self.observation
         needs_heading = obs.first_person is not None or (obs.grid is not None and obs.grid.frame == "egocentric")
         if needs_heading and self.agent.actions != "turns":
@@ -480,15 +540,30 @@ class Spec(Strict):
             _refuse("cue.display", "cue.display 'start' with a cue sequence", repr(self.cue.display))
         return self
 
-    def _field_rules(self) -> "Spec":
-        """A field has no cue: the hidden path is what is remembered, so cue-only parts are refused."""
-        if self.cue is not None:
+
+class FieldSpec(_Settings, _FieldParts, _Header):
+    """A hidden-path memory-task spec (a field layout): one YAML document. A field has no cue: the hidden
+    path is what the agent must remember."""
+
+    @model_validator(mode="before")
+    @classmethod
+    def _no_cue_parts(cls, data: Any) -> Any:
+        """A cue or a decision rule means nothing here and is refused; null and the default decision, which
+        specs written out by earlier versions list, are accepted and dropped."""
+        if not isinstance(data, dict) or ("cue" not in data and "decision" not in data):
+            return data
+        data = dict(data)
+        if data.pop("cue", None) is not None:
             _refuse("cue", "no cue block with a field layout (the hidden path is what the agent must "
                     "remember)", "a cue block")
-        # defaults are allowed (a spec written back out lists them), other values mean nothing here
-        if self.decision != Decision():
+        decision = data.pop("decision", None)
+        if decision is not None and not _is_default_decision(decision):
             _refuse("decision", "no decision rule with a field layout (reaching the path's end pays "
                     "rewards.correct)", "a decision block")
+        return data
+
+    @model_validator(mode="after")
+    def _field_rules(self) -> "FieldSpec":
         for name, default in (("wrong", 0.0), ("per_goal", None)):
             if getattr(self.rewards, name) != default:
                 _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a fall "
@@ -508,36 +583,21 @@ class Spec(Strict):
                     "marks to imitate", "mark: null")
         return self
 
-    format_version: Literal[1] = Field(
-        description="Version of the spec language this file is written in.", examples=[1]
-    )
-    name: str = Field(
-        pattern=r"^[a-z0-9][a-z0-9-]{0,62}$",
-        description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v0.",
-        examples=["orchard-gate"],
-    )
-    description: str = Field(default="", description="What the task tests, in a sentence or two.",
-                             examples=["Two-arm recall after a hall of 6 to 12 steps."])
-    layout: Layout = Field(description="The layout family and its parameters.",
-                           examples=[{"corridor": {"length": 8}}])
-    cue: Cue | None = Field(default=None, validate_default=True, description="The cue to remember (required by corridor and "
-                            "maze layouts; a field has none).", examples=[{"values": 2, "visible_steps": 1}])
 
-    @field_validator("cue", mode="after")
-    @classmethod
-    def _cue_given(cls, cue: Cue | None, info: ValidationInfo) -> Cue | None:
-        layout = info.data.get("layout")
-        if cue is None and layout is not None and layout.field is None:
-            raise PydanticCustomError("missing", "a corridor or maze needs a cue")
-        return cue
+def _is_default_decision(data: Any) -> bool:
+    try:
+        return Decision.model_validate(data) == Decision()
+    except ValidationError:
+        return False
 
-    decision: Decision = Field(default_factory=Decision, description="How the cue decides which goal pays.",
-                               examples=[{"rule": "non_match", "wrong": "end"}])
-    agent: Agent = Field(default_factory=Agent, description="The agent's actions (moves or turns).",
-                         examples=[{"actions": "turns"}])
-    rewards: Rewards = Field(default_factory=Rewards, description="Rewards of outcomes and steps.",
-                             examples=[{"correct": 1.0, "wrong": -1.0, "step": -0.01}])
-    episode: Episode = Field(default_factory=Episode, description="Step limit and discount.",
-                             examples=[{"max_steps": "auto", "discount": 0.99}])
-    observation: Observation = Field(default_factory=Observation, description="What the agent sees.",
-                                     examples=[{"vector": {"position": "coordinates"}}])
+
+#: A validated spec: its type says which parts it has (a cue task has a cue, a field has none).
+Spec = Union[CueTaskSpec, FieldSpec]
+SPEC_TYPES: tuple[type[CueTaskSpec], type[FieldSpec]] = (CueTaskSpec, FieldSpec)
+
+
+def spec_type(data: Any) -> type[CueTaskSpec] | type[FieldSpec]:
+    """The spec type raw spec data asks for: a field spec when its layout names a field, else a cue task
+    (whose layout rule then reports a layout that names none, or more than one family)."""
+    layout = data.get("layout") if isinstance(data, dict) else None
+    return FieldSpec if isinstance(layout, dict) and layout.get("field") is not None else CueTaskSpec

@@ -148,7 +148,7 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
     """Measure every runtime and the references; returns timings, ratios and memory."""
     rng = np.random.default_rng(seed)
     sync_envs = sync_envs or num_envs
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return _field_bench(spec, num_envs, budget, sync_envs, rng)
     batched = make_vec(spec, num_envs)
     timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)

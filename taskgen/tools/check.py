@@ -27,7 +27,7 @@ def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
 def check_variant(spec: Spec, seed: int, min_gap: float = 0.0) -> VariantReport | FieldReport:
     """Compile one variant and run every analysis on what the agent really observes (a field's
     report has its figures over sampled paths: see field_check.py)."""
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return check_field_variant(spec, seed, min_gap=min_gap)
     model = compile_variant(make_variant(spec, seed))
     return analyse(model, observation_tables(model, spec), min_gap=min_gap)

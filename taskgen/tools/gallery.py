@@ -51,8 +51,8 @@ def resolve_policy(spec: Spec, policy: str) -> str:
     """'auto' is the optimal agent for cue tasks and the explorer for hidden-path fields (whose
     optimal agent knows the path and never falls, so its episodes show no marks)."""
     if policy == "auto":
-        return "explorer" if spec.layout.field is not None else "optimal"
-    if policy == "explorer" and spec.layout.field is None:
+        return "explorer" if spec.layout.family == "field" else "optimal"
+    if policy == "explorer" and spec.layout.family != "field":
         raise ValueError(f"{spec.name}: the explorer policy plays hidden-path fields only")
     return policy
 VIEW_HEIGHT = 96
@@ -216,7 +216,7 @@ def record_field(spec: Spec, variant_seed: int, policy: str, episode: int, seed:
 def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) -> Episode:
     """Play one episode with a policy and draw each step's agent and ground-truth views."""
     policy = resolve_policy(spec, policy)
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return record_field(spec, variant_seed, policy, episode, seed)
     model = compile_variant(make_variant(spec, variant_seed))
     env = TaskEnv(model, observation_set(model, spec.observation))
@@ -307,7 +307,7 @@ def _baseline_rows(report: Any) -> list[tuple[str, str, str, str]]:
 
 
 def _legend(spec: Spec) -> str:
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return ("Each frame: the agent's view (left: the agent and its marks, never the path) and the "
                 "ground truth (right: the hidden path in green, its end in yellow, marks outlined).")
     return ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
@@ -315,7 +315,7 @@ def _legend(spec: Spec) -> str:
 
 
 def _policy_words(spec: Spec, policy: str) -> str:
-    return (FIELD_POLICY_WORDS if spec.layout.field is not None else POLICY_WORDS)[policy]
+    return (FIELD_POLICY_WORDS if spec.layout.family == "field" else POLICY_WORDS)[policy]
 
 
 def _markdown(spec, text, report, items, policy, variant_seed, seed) -> str:

@@ -114,7 +114,8 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
 
 def family_size(spec: Spec) -> int | None:
     """How many distinct layouts the spec can produce, where that is countable (else None)."""
-    corridor, maze, fields = spec.layout.corridor, spec.layout.maze, spec.layout.field
+    fields = getattr(spec.layout, "field", None)
+    corridor, maze = getattr(spec.layout, "corridor", None), getattr(spec.layout, "maze", None)
     if fields is not None:   # an open field's layout is its size and path shape (paths are drawn per episode)
         if fields.maze is not None:
             return None
@@ -136,7 +137,7 @@ def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
     """Compile one candidate: its fingerprint and parameter values (runs in a worker)."""
     spec, seed = job
     variant = make_variant(spec, seed)
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         field = compile_field(variant)
         return field_fingerprint(field), dict(field.params)
     model = compile_variant(variant)
@@ -159,7 +160,7 @@ def _field_figures(spec: Spec, seed: int) -> dict[str, Any]:
 def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
     """The analyses of one accepted variant (runs in a worker)."""
     spec, seed = job
-    if spec.layout.field is not None:
+    if spec.layout.family == "field":
         return _field_figures(spec, seed)
     report = check_variant(spec, seed)
     out = {name: {k: v for k, v in report.baselines[name].to_dict().items() if k in
@@ -315,8 +316,8 @@ def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteR
 
 
 def _family_words(spec: Spec) -> str:
-    maze = spec.layout.maze
-    if spec.layout.field is not None:
+    maze = getattr(spec.layout, "maze", None)
+    if spec.layout.family == "field":
         return "one per combination of field width, height and path turns; paths are drawn per episode"
     if maze is None:
         return "one per combination of corridor length and arm length"
