@@ -1,20 +1,22 @@
 """taskgen: compile YAML memory-task specs into seeded, checked Gymnasium environments.
 
-Pipeline: spec text → :class:`Spec` → :class:`Variant` → :class:`TaskModel` (or, for a
-hidden-path field, :class:`FieldModel`) → analyses, environments and renderers → the
-``taskgen`` command line.
+Pipeline: spec text → :data:`Spec` → :class:`Variant` → :class:`TaskModel` → analyses,
+environments and renderers → the ``taskgen`` command line. What differs between families of
+tasks (cue corridors and mazes, hidden-path fields) lives in one registered kind each
+(:mod:`taskgen.kinds`).
 """
 
 from importlib.metadata import PackageNotFoundError, version
 
-from .analysis import VariantReport, analyse
-from .envs import (FieldEnv, FieldVectorEnv, TaskEnv, TaskVectorEnv, build_model, bundled_specs, make, make_vec,
-                   register_bundled)
+from .analysis import Report
+from .envs import TaskEnv, TaskVectorEnv
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
-from .model import FieldModel, TaskModel, compile_field, compile_variant
+from .factory import build_model, bundled_specs, make, make_vec, register_bundled
+from .kinds import analyse, compile_variant, kind_of, make_variant, observation_set
+from .model import TaskModel
 from .spec import CueTaskSpec, FieldSpec, Spec, load_spec, load_spec_text
 from .tools import check_variant
-from .variant import Variant, make_variant
+from .variant import Variant
 
 try:
     __version__ = version("taskgen")
@@ -24,8 +26,8 @@ except PackageNotFoundError:  # a source checkout that was never installed
 register_bundled()
 
 __all__ = [
-    "AnalysisError", "CueTaskSpec", "FieldEnv", "FieldModel", "FieldSpec", "FieldVectorEnv", "LayoutError", "Spec", "SpecError", "TaskEnv", "TaskModel", "TaskVectorEnv", "TaskgenError",
-    "Variant",
-    "VariantReport", "__version__", "analyse", "build_model", "bundled_specs", "check_variant", "compile_field", "compile_variant",
-    "load_spec", "load_spec_text", "make", "make_variant", "make_vec", "register_bundled",
+    "AnalysisError", "CueTaskSpec", "FieldSpec", "LayoutError", "Report", "Spec", "SpecError", "TaskEnv",
+    "TaskModel", "TaskVectorEnv", "TaskgenError", "Variant", "__version__", "analyse", "build_model",
+    "bundled_specs", "check_variant", "compile_variant", "kind_of", "load_spec", "load_spec_text", "make",
+    "make_variant", "make_vec", "observation_set", "register_bundled",
 ]

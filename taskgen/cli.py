@@ -11,11 +11,10 @@ import click
 
 from . import limits
 from .errors import TaskgenError
-from .envs import resolve_spec
+from .factory import resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
-from .tools import format_text, run_check
+from .tools import format_text, report_schema, run_check
 from .tools.bench import format_bench, run_bench
-from .tools.field_check import format_field_text, run_field_check
 from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
@@ -41,28 +40,22 @@ def cli() -> None:
 @click.option("--max-bytes", type=float, help="Cap on one table or picture in bytes (default 512 MiB, "
               "or TASKGEN_MAX_BYTES).")
 @click.option("--paths", default=64, show_default=True, type=click.IntRange(min=2),
-              help="Field specs: hidden paths sampled per variant (figures are exact per path, "
-              "averaged with their standard error).")
+              help="Hidden values sampled per variant where there are too many to list (a field's paths): "
+              "figures are exact on each and averaged with their standard error.")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
           max_bytes: float | None, paths: int) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
-    Reports solvability, recall distance, cue leaks, carried cues, the memory gap and the
-    optimal, chance (best memoryless), cue-blind and random baselines; for a hidden-path field,
-    solvability, the memory gap and the optimal, explorer, chance and random baselines (with the
-    random agent's falls), exact per path and averaged over sampled paths. Exits 0 when every check passes, 1 when one fails, 2 on
-    a bad spec.
+    Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
+    baselines for every task; for a cue task also whether the cue is needed, leaks or is carried
+    without memory, the cue-blind baseline and recall distances; for a hidden-path field the
+    explorer baseline and the random agent's falls, exact per sampled path and averaged. Exits 0
+    when every check passes, 1 when one fails, 2 on a bad spec.
     """
     with limits.raised(max_work, max_bytes):
         loaded = resolve_spec(spec)
-        if loaded.layout.family == "field":
-            run = run_field_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths)
-        else:
-            run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap)
-    if as_json:
-        click.echo(json.dumps(run.to_dict(), indent=2))
-    else:
-        click.echo(format_field_text(run) if loaded.layout.family == "field" else format_text(run))
+        run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths)
+    click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
 
 
@@ -153,10 +146,12 @@ def _emit(text: str, out: str | None) -> None:
 
 
 @cli.command()
+@click.option("--report", is_flag=True, help="The schema of `taskgen check --json` instead of the spec language's.")
 @click.option("--out", "-o", type=click.Path(dir_okay=False), help="Write to this file instead of stdout.")
-def schema(out: str | None) -> None:
-    """Print the JSON Schema (draft 2020-12) of the spec language, for editors."""
-    _emit(json_schema_text(), out)
+def schema(report: bool, out: str | None) -> None:
+    """Print the JSON Schema (draft 2020-12) of the spec language, for editors (or, with --report, of
+    the check report)."""
+    _emit(json.dumps(report_schema(), indent=2, ensure_ascii=False) + "\n" if report else json_schema_text(), out)
 
 
 @cli.command()

@@ -58,6 +58,11 @@ class SpecErrors(SpecError):
 class LayoutError(TaskgenError, ValueError):
     """A variant's layout cannot be built from its parameters (names the seed)."""
 
+    @classmethod
+    def for_variant(cls, variant_id: str, layout: str, seed: int, problem: str) -> "LayoutError":
+        """The one message template: ``<variant> (<layout words>, variant seed <seed>): <problem>``."""
+        return cls(f"{variant_id} ({layout}, variant seed {seed}): {problem}")
+
 
 class AnalysisError(TaskgenError, ValueError):
     """An analysis was asked of a model it does not apply to."""

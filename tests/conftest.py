@@ -62,9 +62,15 @@ def field_spec_text(width: Any = 3, height: Any = 4, turns: Any = 0, start: str 
 
 
 def field_model(seed: int = 0, **fields: Any):
-    """Compiled FieldModel of a field spec (see field_spec_text for the fields)."""
-    from taskgen.model import compile_field
-    return compile_field(make_variant(load_spec_text(field_spec_text(**fields)), seed))
+    """The path rule (path-free dynamics) of a field spec's variant (see field_spec_text for the fields)."""
+    from taskgen.kinds.field import compile_rule
+    return compile_rule(make_variant(load_spec_text(field_spec_text(**fields)), seed))
+
+
+def sample_paths(rule, seed: int, count: int):
+    """``count`` paths of a field's sample stream: (kind int8[count, C], start int64[count])."""
+    sample = rule.sample(seed, count)
+    return sample.kind, sample.start
 
 
 @pytest.fixture(params=sorted(bundled_specs()), ids=str)

@@ -6,8 +6,9 @@ import numpy as np
 import pytest
 
 import taskgen
-from taskgen.analysis import (analyse, best_memoryless, cue_blind_baseline, cue_blind_policy, optimal_baseline,
-                              optimal_policy, return_variance, uniform_policy)
+from taskgen import analyse, observation_set
+from taskgen.analysis import (best_memoryless, cue_blind_baseline, cue_blind_policy, optimal_baseline, optimal_policy,
+                              return_variance, uniform_policy)
 from taskgen.tools.check import observation_tables
 
 from conftest import CUE_SPECS, corridor_model, corridor_spec_text
@@ -19,16 +20,16 @@ def test_cue_blind_success_is_one_over_k(k, length):
     """A guess between k arms without the cue succeeds with probability 1/k (common practice for
     delayed-choice tasks); the agent that remembers always succeeds."""
     model = corridor_model(length=length, values=k, rewards={"correct": 1.0, "wrong": 0.0, "step": -0.01})
-    assert cue_blind_baseline(model).success_rate == pytest.approx(1 / k, abs=1e-12)
-    assert optimal_baseline(model).success_rate == pytest.approx(1.0, abs=1e-12)
+    assert cue_blind_baseline(model).success_rate.mean == pytest.approx(1 / k, abs=1e-12)
+    assert optimal_baseline(model).success_rate.mean == pytest.approx(1.0, abs=1e-12)
 
 
 def test_cue_blind_policy_ignores_the_cue():
     """The chance policy takes the same action in states that differ only in the cue."""
     model = corridor_model(length=4, values=3)
     policy = cue_blind_policy(model)
-    for b in np.unique(model.blind_state):
-        members = np.flatnonzero(model.blind_state == b)
+    for b in np.unique(model.cue.blind_state):
+        members = np.flatnonzero(model.cue.blind_state == b)
         assert (policy[:, members] == policy[:, members[:1]]).all()
 
 
@@ -37,7 +38,7 @@ def test_cue_blind_avoids_arms_when_guessing_does_not_pay():
     end (expected guess 1/3·1 + 2/3·(−1) < 0: arithmetic)."""
     model = corridor_model(length=2, values=3, rewards={"correct": 1.0, "wrong": -1.0})
     chance = cue_blind_baseline(model)
-    assert chance.success_rate == 0.0 and chance.mean_return == 0.0
+    assert chance.success_rate.mean == 0.0 and chance.mean_return.mean == 0.0
 
 
 def _rollouts(env, choose, episodes, seed):
@@ -71,7 +72,7 @@ def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     model = env.model
     rng = np.random.default_rng(7)
     spec = taskgen.load_spec(taskgen.bundled_specs()[spec_name])
-    report = analyse(model, observation_tables(model, spec))
+    report = analyse(model, observation_set(model, spec.observation))
     memoryless = best_memoryless(model, observation_tables(model, spec)).state_policy(model.horizon)
     exact = report.baselines
     tables = {"optimal": optimal_policy(model), "chance": memoryless, "random": uniform_policy(model)}
@@ -82,8 +83,8 @@ def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     policies["random"] = lambda t, info: int(rng.integers(model.num_actions))
     for name, choose in policies.items():
         returns, successes = _rollouts(env, choose, episodes=1500 if name == "random" else 600, seed=100)
-        p = exact[name].success_rate
-        assert _within_4_se(returns, exact[name].mean_return, return_variance(model, tables[name])), name
+        p = exact[name].success_rate.mean
+        assert _within_4_se(returns, exact[name].mean_return.mean, return_variance(model, tables[name])), name
         assert _within_4_se(successes, p, p * (1 - p)), name  # Bernoulli variance
 
 
@@ -93,7 +94,7 @@ def test_undiscounted_figures_are_what_rollouts_sum():
     env = taskgen.make(spec)
     p = optimal_policy(env.model)
     returns, _ = _rollouts(env, lambda t, info: p[t, info["analysis_only"]["state"]], 20, seed=0)
-    assert np.allclose(returns, optimal_baseline(env.model).mean_return)
+    assert np.allclose(returns, optimal_baseline(env.model).mean_return.mean)
 
 
 def test_report_flags_a_cue_visible_at_the_decision():

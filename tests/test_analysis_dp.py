@@ -68,7 +68,7 @@ def test_optimal_return_is_discounted_reward(gamma, length, arm_length):
     model = corridor_model(length=length, arm_length=arm_length, episode={"discount": gamma},
                            rewards={"correct": R, "wrong": 0.0, "step": 0.0})
     d = length + 1 + arm_length
-    assert optimal_baseline(model).mean_return == pytest.approx(gamma ** (d - 1) * R, abs=1e-12)
+    assert optimal_baseline(model).mean_return.mean == pytest.approx(gamma ** (d - 1) * R, abs=1e-12)
 
 
 def test_discounted_return_with_step_cost_is_a_geometric_sum():
@@ -79,7 +79,7 @@ def test_discounted_return_with_step_cost_is_a_geometric_sum():
                            rewards={"correct": R, "step": c})
     d = 6
     expected = c * (1 - gamma**d) / (1 - gamma) + gamma ** (d - 1) * R
-    assert optimal_baseline(model).mean_return == pytest.approx(expected, abs=1e-12)
+    assert optimal_baseline(model).mean_return.mean == pytest.approx(expected, abs=1e-12)
 
 
 def test_at_reset_weights_the_cue_prior():

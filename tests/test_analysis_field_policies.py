@@ -8,10 +8,9 @@ import pytest
 
 import taskgen
 from taskgen.analysis import at_reset, evaluate
-from taskgen.analysis.field_policies import MemorylessRollout
-from taskgen.analysis.fields import sample_paths
+from taskgen.analysis.rollouts import MemorylessRollout
 
-from conftest import field_model, field_spec_text
+from conftest import field_model, field_spec_text, sample_paths
 
 
 def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
@@ -35,7 +34,7 @@ def test_the_explorer_on_a_one_turn_path_worked_example():
     explorer walks 4 steps north, then east along the far row: if the path turns east it
     arrives at step 5, 1 − 5 × 0.01 = 0.95; if west it falls (−0.05), walks back up 4 steps
     and goes west, arriving at step 10: 1 − 10 × 0.01 − 0.05 = 0.85."""
-    from taskgen.analysis.field_policies import explore
+    from taskgen.analysis.explorer import explore
     from taskgen.generate.paths import GOAL
     model = field_model(width=3, height=5, turns=1, rewards={"step": -0.01, "fall": -0.05},
                         episode={"max_steps": 30})
@@ -58,7 +57,7 @@ def test_the_explorer_crosses_every_path_given_time(fields):
     """The explorer is a depth-first search of the safe cells, so with a generous step limit it
     reaches the end of every path (depth-first search visits every vertex of a connected graph:
     Tarjan, SIAM J. Comput. 1972), open field or walls."""
-    from taskgen.analysis.field_policies import explore
+    from taskgen.analysis.explorer import explore
     walls = fields.pop("maze", None)
     text = field_spec_text(episode={"max_steps": 1500}, **fields)
     if walls:
@@ -66,6 +65,6 @@ def test_the_explorer_crosses_every_path_given_time(fields):
         doc = yaml.safe_load(text)
         doc["layout"]["field"]["maze"] = {"generator": walls, "braid": 0.3}
         text = yaml.safe_dump(doc)
-    model = taskgen.build_model(taskgen.load_spec_text(text))
+    model = taskgen.build_model(taskgen.load_spec_text(text)).paths
     kind, start = sample_paths(model, 1, 300)
     assert explore(model, kind, start).success.all()

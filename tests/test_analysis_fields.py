@@ -9,10 +9,10 @@ import pytest
 
 import taskgen
 from taskgen.analysis import at_reset, evaluate
-from taskgen.analysis.fields import PathAverage, sample_paths
-from taskgen.tools.field_check import check_field_variant
+from taskgen.analysis import Figure
+from taskgen.tools.check import check_variant
 
-from conftest import field_model, field_spec_text
+from conftest import field_model, field_spec_text, sample_paths
 
 
 def _spec(**fields):
@@ -23,7 +23,7 @@ def test_a_straight_path_from_a_fixed_start_needs_no_memory():
     """Worked example: a straight path of 4 steps from a fixed start. The agent that knows the
     path walks north 4 times, 1 − 4 × 0.01 = 0.96; so does the memoryless 'always north', so
     the memory gap check fails."""
-    report = check_field_variant(_spec(width=3, height=5, rewards={"step": -0.01}, episode={"max_steps": 20}), 0,
+    report = check_variant(_spec(width=3, height=5, rewards={"step": -0.01}, episode={"max_steps": 20}), 0,
                                  paths=8)
     assert report.baselines["optimal"].mean_return.mean == pytest.approx(0.96, abs=1e-12)
     assert report.baselines["chance"].mean_return.mean == pytest.approx(0.96, abs=1e-12)
@@ -36,11 +36,11 @@ def test_winding_random_paths_need_memory_and_the_figures_are_ordered():
     the chance level is a lower bound no higher than the optimal agent (common practice)."""
     spec = _spec(width=5, height=6, turns=2, start="random", mark={"steps": 2},
                  rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 60})
-    report = check_field_variant(spec, 0, paths=32)
+    report = check_variant(spec, 0, paths=32)
     b = report.baselines
     assert b["optimal"].success_rate.mean == 1.0
     assert b["chance"].mean_return.mean < b["optimal"].mean_return.mean
-    assert b["random"].falls.mean > 1.0
+    assert report.details.random_falls.mean > 1.0
     assert report.ok and [c.name for c in report.checks] == ["solvable", "memory gap"]
 
 
@@ -50,14 +50,14 @@ def test_marks_that_never_fade_help_an_agent_without_memory():
     external memory)."""
     fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": "episode"},
                   rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 80})
-    seen = check_field_variant(_spec(**fields), 0, paths=32)
-    hidden = check_field_variant(_spec(observation={"vector": {"marks": False}}, **fields), 0, paths=32)
+    seen = check_variant(_spec(**fields), 0, paths=32)
+    hidden = check_variant(_spec(observation={"vector": {"marks": False}}, **fields), 0, paths=32)
     assert seen.baselines["chance"].mean_return.mean > hidden.baselines["chance"].mean_return.mean + 0.3
 
 
 def test_a_step_limit_below_the_crossing_fails_solvability():
     """Six rows need at least five steps: a limit of 3 fails, naming the path and the numbers (common practice)."""
-    report = check_field_variant(_spec(width=3, height=6, episode={"max_steps": 3}), 0, paths=4)
+    report = check_variant(_spec(width=3, height=6, episode={"max_steps": 3}), 0, paths=4)
     solvable = report.checks[0]
     assert solvable.passed is False and "shortest crossing 5 steps exceeds the step limit 3" in solvable.reason
 
@@ -66,7 +66,7 @@ def test_path_averages_match_the_standard_library():
     """Mean and standard error (sample standard deviation over √n) equal statistics.mean and
     statistics.stdev / √n (Python's statistics module)."""
     values = np.array([0.5, 1.25, -0.75, 2.0, 0.0])
-    a = PathAverage.of(values)
+    a = Figure.sampled(values, "exact per path")
     assert a.mean == pytest.approx(statistics.mean(values.tolist()))
     assert a.standard_error == pytest.approx(statistics.stdev(values.tolist()) / np.sqrt(5))
     assert (a.minimum, a.maximum) == (-0.75, 2.0)
@@ -75,7 +75,7 @@ def test_path_averages_match_the_standard_library():
 def test_the_same_seed_gives_the_same_report():
     """Paths for the analyses come from the variant seed: two runs agree exactly (common practice)."""
     spec = _spec(width=5, height=6, turns=2, start="random")
-    assert check_field_variant(spec, 3, paths=8).to_dict() == check_field_variant(spec, 3, paths=8).to_dict()
+    assert check_variant(spec, 3, paths=8).to_dict() == check_variant(spec, 3, paths=8).to_dict()
 
 
 def test_pruned_path_models_give_the_same_exact_figures():
@@ -98,6 +98,6 @@ def test_analyses_over_the_work_cap_are_refused_with_the_numbers():
     from taskgen import limits
     spec = _spec(width=6, height=8, turns=2, start="random", fall={"max_falls": 8}, episode={"max_steps": 60})
     with limits.raised(max_work=400_000), pytest.raises(limits.ResourceLimitError, match="--paths"):
-        check_field_variant(spec, 0, paths=64)
+        check_variant(spec, 0, paths=64)
     with limits.raised(max_work=400_000):
-        assert check_field_variant(spec, 0, paths=2).paths == 2
+        assert check_variant(spec, 0, paths=2).hidden["count"] == 2

@@ -7,7 +7,8 @@ import dataclasses
 import numpy as np
 
 from taskgen import compile_variant, load_spec_text, make_variant
-from taskgen.analysis import analyse, static_leak
+from taskgen import analyse, observation_set
+from taskgen.analysis import static_leak
 from taskgen.tools.check import observation_tables
 
 from conftest import corridor_spec_text
@@ -23,9 +24,10 @@ def _spec_and_model(text):
 def _cue_left_on_the_wall(model):
     """The same model, but every observation key keeps showing the cue: the bug of a cue panel
     that stays in view after its display window (common practice: the classic leak)."""
-    keys, obs_key = np.unique(np.stack([model.cell, model.hidden], axis=1), axis=0, return_inverse=True)
-    return dataclasses.replace(model, obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(),
-                               key_cue=keys[:, 1].copy())
+    keys, obs_key = np.unique(np.stack([model.cell, model.value], axis=1), axis=0, return_inverse=True)
+    return dataclasses.replace(model, source=dataclasses.replace(model.tables, obs_key=obs_key.ravel()),
+                               key_cell=keys[:, 0].copy(), key_heading=-np.ones(len(keys), dtype=np.int64),
+                               cue=dataclasses.replace(model.cue, key_value=keys[:, 1].copy()))
 
 
 def test_sound_corridor_has_no_leak():
@@ -43,7 +45,7 @@ def test_cue_that_stays_visible_is_a_leak_named_by_step_and_block():
     assert leak is not None
     assert leak.step == 1 and leak.parts == ("vector.cue",)
     assert leak.describe().startswith("step 1: at cell (row 1, col ")
-    report = analyse(leaky, observation_tables(leaky, spec))
+    report = analyse(leaky, observation_set(leaky, spec.observation))
     check = {c.name: c for c in report.checks}["no cue leak"]
     assert check.passed is False and "vector.cue" in check.reason
 
@@ -61,14 +63,14 @@ def test_two_wide_corridor_carries_the_cue_in_the_lane():
     text = corridor_spec_text(length=5, arm_length=1, rewards=SOUND).replace(
         "arm_length: 1", "arm_length: 1\n    width: 2")
     spec, model = _spec_and_model(text)
-    report = analyse(model, observation_tables(model, spec))
+    report = analyse(model, observation_set(model, spec.observation))
     checks = {c.name: c for c in report.checks}
     assert checks["no carried cue"].passed is False
-    assert report.baselines["chance"].success_rate == 1.0
-    rows = [line.split() for line in report.witness.splitlines()[1:] if line.split()[0].isdigit()]
+    assert report.baselines["chance"].success_rate.mean == 1.0
+    rows = [line.split() for line in report.details.witness.splitlines()[1:] if line.split()[0].isdigit()]
     hall = [r for r in rows if r[0] in {"2", "3", "4"}]       # mid-hall steps
     assert {r[1][1] for r in hall} != {r[3][1] for r in hall}   # different lane rows
-    assert "paths part" in report.witness
+    assert "paths part" in report.details.witness
 
 
 def test_carried_cue_check_says_when_it_cannot_run():
@@ -77,10 +79,10 @@ def test_carried_cue_check_says_when_it_cannot_run():
     spec, model = _spec_and_model(corridor_spec_text(length=3, rewards=SOUND))
     # make cue 1's agent unable to move east from the start: the cue now changes transitions
     ns = model.next_state.copy()
-    start1 = model.initial_states()[model.hidden[model.initial_states()] == 1][0]
+    start1 = model.initial_states()[model.value[model.initial_states()] == 1][0]
     ns[start1, 1] = start1
-    broken = dataclasses.replace(model, next_state=ns)
-    report = analyse(broken, observation_tables(broken, spec))
+    broken = dataclasses.replace(model, source=dataclasses.replace(model.tables, next_state=ns))
+    report = analyse(broken, observation_set(broken, spec.observation))
     check = {c.name: c for c in report.checks}["no carried cue"]
     assert check.passed is None and check.reason.startswith("cannot run: no exact cue-blind figure")
     assert report.baselines["cue_blind"].method == "unavailable"

@@ -7,7 +7,8 @@ import itertools
 import numpy as np
 import pytest
 
-from taskgen.analysis import (analyse, best_memoryless, evaluate, evaluate_memoryless, observation_classes)
+from taskgen import analyse, observation_set
+from taskgen.analysis import best_memoryless, evaluate, evaluate_memoryless, observation_classes
 from taskgen.tools.check import observation_tables
 
 from conftest import corridor_spec_text
@@ -15,9 +16,10 @@ from taskgen import compile_variant, load_spec_text, make_variant
 
 
 def _model_and_obs(**fields):
+    """A corridor's model and what its agent sees (the observation set the full analysis reads)."""
     spec = load_spec_text(corridor_spec_text(**fields))
     model = compile_variant(make_variant(spec, 0))
-    return model, observation_tables(model, spec)
+    return model, observation_set(model, spec.observation)
 
 
 SMALL = [
@@ -74,7 +76,7 @@ def test_enumeration_really_is_exhaustive():
 def test_memoryless_values_agree_with_backward_evaluation():
     """The batched memoryless evaluator equals evaluating the same policy as int[H, S]."""
     model, obs = _model_and_obs(length=4, values=3, rewards={"step": -0.05, "wrong": -0.5})
-    result = best_memoryless(model, obs)
+    result = best_memoryless(model, obs.tables())
     from taskgen.analysis import at_reset
     assert at_reset(model, evaluate(model, result.state_policy(model.horizon))) == pytest.approx(result.mean_return)
 
@@ -85,7 +87,7 @@ def test_one_wide_two_cue_corridor_chance_is_a_coin_flip():
     model, obs = _model_and_obs(length=6, arm_length=2,
                                 rewards={"correct": 1.0, "wrong": -1.0, "step": -0.01, "timeout": -1.0})
     report = analyse(model, obs)
-    assert report.baselines["chance"].success_rate == pytest.approx(0.5, abs=1e-12)
+    assert report.baselines["chance"].success_rate.mean == pytest.approx(0.5, abs=1e-12)
     checks = {c.name: c for c in report.checks}
     assert checks["no cue leak"].passed and checks["no carried cue"].passed and report.ok
 
@@ -98,8 +100,8 @@ def test_memory_gap_of_plus_minus_one_corridor(k):
     model, obs = _model_and_obs(length=4, arm_length=1, values=k,
                                 rewards={"correct": 1.0, "wrong": -1.0, "timeout": -1.0})
     report = analyse(model, obs)
-    assert report.baselines["optimal"].mean_return == pytest.approx(1.0)
-    assert report.memory_gap == pytest.approx(2 * (1 - 1 / k), abs=1e-12)
+    assert report.baselines["optimal"].mean_return.mean == pytest.approx(1.0)
+    assert report.memory_gap.mean == pytest.approx(2 * (1 - 1 / k), abs=1e-12)
 
 
 def test_waiting_at_the_start_carries_the_cue_when_a_timeout_is_cheap():
@@ -110,6 +112,6 @@ def test_waiting_at_the_start_carries_the_cue_when_a_timeout_is_cheap():
     report = analyse(model, obs)
     checks = {c.name: c for c in report.checks}
     assert checks["no carried cue"].passed is False
-    assert report.baselines["chance"].success_rate == pytest.approx(0.5)
-    assert report.baselines["chance"].mean_return == pytest.approx(0.5 * 0.91 + 0.5 * -0.18)
-    assert "time out" in report.witness and "success" in report.witness
+    assert report.baselines["chance"].success_rate.mean == pytest.approx(0.5)
+    assert report.baselines["chance"].mean_return.mean == pytest.approx(0.5 * 0.91 + 0.5 * -0.18)
+    assert "time out" in report.details.witness and "success" in report.details.witness

@@ -36,7 +36,7 @@ def test_check_json_has_the_documented_shape():
         assert {"success_rate", "mean_return", "method"} <= set(data["baselines"][name])
         expected = {"exact", "search lower bound"} if name == "chance" else {"exact"}
         assert data["baselines"][name]["method"] in expected
-    assert data["baselines"]["chance"]["success_rate"] == pytest.approx(0.5)
+    assert data["baselines"]["chance"]["success_rate"]["mean"] == pytest.approx(0.5)
 
 
 def test_failed_check_exits_1_and_names_the_variant_and_cue(tmp_path):
@@ -93,10 +93,10 @@ def test_check_on_a_field_prints_per_path_figures_and_json():
     data = json.loads(out.stdout)
     assert data["kind"] == "field" and data["ok"] is True
     row = data["variants"][0]
-    assert row["paths"] == 8 and [c["name"] for c in row["checks"]] == ["solvable", "memory gap"]
+    assert row["hidden"]["count"] == 8 and [c["name"] for c in row["checks"]] == ["solvable", "memory gap"]
     assert set(row["baselines"]) == {"optimal", "explorer", "chance", "random"}
     figure = row["baselines"]["optimal"]["mean_return"]
-    assert set(figure) == {"mean", "standard_error", "minimum", "maximum"}
-    assert row["baselines"]["random"]["falls"]["mean"] > 0
+    assert set(figure) == {"mean", "standard_error", "minimum", "maximum", "method", "policy_class"}
+    assert row["details"]["random_falls"]["mean"] > 0
     text = _run("check", path, "--paths", "8")
     assert "± " in text.stdout and "expected falls" in text.stdout and text.stdout.rstrip().endswith("ok")

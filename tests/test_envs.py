@@ -119,8 +119,8 @@ def test_render_is_an_rgb_picture():
 def test_overrides_and_variant_seeds():
     """make() applies overrides; different variant seeds draw different sampled lengths."""
     env = taskgen.make("lantern-hall", layout__corridor__length=3)
-    assert env.model.params["length"] == 3
-    lengths = {taskgen.make("lantern-hall", seed=s).model.params["length"] for s in range(20)}
+    assert env.model.params.length == 3
+    lengths = {taskgen.make("lantern-hall", seed=s).model.params.length for s in range(20)}
     assert lengths <= set(range(6, 13)) and len(lengths) > 3
     with pytest.raises(SpecError, match="override layout__corridor__length"):
         taskgen.make("lantern-hall", layout__corridor__length=-1)

@@ -168,9 +168,9 @@ def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
         for i in np.flatnonzero(done):
             key = path[i].tobytes() + int(start[i]).to_bytes(4, "little")
             if key not in exact:
-                one = model.path_model(path[i], int(start[i]))
+                one = model.paths.path_model(path[i], int(start[i]))
                 uniform = uniform_policy(one)
-                falls = Objective(model.path_falls(path[i]), 1.0, 0.0)
+                falls = Objective(model.paths.path_falls(path[i]), 1.0, 0.0)
                 exact[key] = (at_reset(one, evaluate(one, uniform)), at_reset(one, evaluate(one, uniform, falls)))
             diffs_g.append(returns[i] - exact[key][0])
             diffs_f.append(info["analysis_only"]["falls"][i] - exact[key][1])
@@ -222,7 +222,7 @@ def test_decoy_marks_show_at_their_rate_never_on_the_agent_and_not_in_the_figure
     """A decoy mark shows in a share of observations that matches decoy_probability within 4
     standard errors (binomial; common practice), never on the agent's own cell, and leaves the
     analyses' figures unchanged (they read noise-free observations)."""
-    from taskgen.tools.field_check import check_field_variant
+    from taskgen.tools.check import check_variant
     fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": 1}, episode={"max_steps": 40})
     spec = _spec({"vector": {"position": "one_hot"}, "distractors": {"decoy_probability": 0.25}}, **fields)
     env = taskgen.make_vec(spec, 32)
@@ -232,11 +232,11 @@ def test_decoy_marks_show_at_their_rate_never_on_the_agent_and_not_in_the_figure
     for _ in range(400):
         obs, _, _, _, info = env.step(np.full(32, 2))        # south: bumps at the start, never falls
         marks = obs[:, block]
-        agent = env.model.state_cell[info["analysis_only"]["state"]]
+        agent = env.model.paths.state_cell[info["analysis_only"]["state"]]
         assert not marks[np.arange(32), agent].any()
         shown += int(marks.any(axis=1).sum())
         count += 32
     p = shown / count
     assert abs(p - 0.25) <= 4 * np.sqrt(0.25 * 0.75 / count)
     plain = _spec({"vector": {"position": "one_hot"}}, **fields)
-    assert check_field_variant(spec, 0, paths=8).to_dict() == check_field_variant(plain, 0, paths=8).to_dict()
+    assert check_variant(spec, 0, paths=8).to_dict() == check_variant(plain, 0, paths=8).to_dict()

@@ -12,7 +12,8 @@ from gymnasium.utils.env_checker import check_env
 
 import taskgen
 from taskgen import LayoutError, compile_variant, load_spec_text, make_variant
-from taskgen.analysis import analyse, shortest_solutions
+from taskgen import analyse, observation_set
+from taskgen.analysis import shortest_solutions
 from taskgen.tools.check import observation_tables
 
 SOUND = {"correct": 1.0, "wrong": -1.0, "step": -0.01, "timeout": -1.0}
@@ -29,7 +30,7 @@ def maze_text(values=2, rule="match", wrong="end", display="start", **maze):
 def _report(seed=0, **kw):
     spec = load_spec_text(maze_text(**kw))
     model = compile_variant(make_variant(spec, seed))
-    return model, analyse(model, observation_tables(model, spec))
+    return model, analyse(model, observation_set(model, spec.observation))
 
 
 @pytest.mark.parametrize("seed", range(4))
@@ -48,9 +49,9 @@ def test_shortest_solutions_match_networkx_on_the_maze(seed):
 def test_match_to_sample_chance_is_one_over_k(k):
     """Delayed match-to-sample with k goals: chance success 1/k (common practice), optimal 1."""
     _, report = _report(values=k, width=7, height=7, min_branch_distance=3)
-    assert report.baselines["optimal"].success_rate == pytest.approx(1.0)
-    assert report.baselines["chance"].success_rate == pytest.approx(1 / k)
-    assert report.baselines["cue_blind"].success_rate == pytest.approx(1 / k)
+    assert report.baselines["optimal"].success_rate.mean == pytest.approx(1.0)
+    assert report.baselines["chance"].success_rate.mean == pytest.approx(1 / k)
+    assert report.baselines["cue_blind"].success_rate.mean == pytest.approx(1 / k)
     assert report.ok
 
 
@@ -59,8 +60,8 @@ def test_non_match_chance_is_k_minus_one_over_k(k):
     """Non-match-to-sample: every goal but the cue's pays, so a guess succeeds (k−1)/k (common
     practice); the cue's own goal is the one to avoid."""
     _, report = _report(values=k, rule="non_match", width=7, height=7, min_branch_distance=3)
-    assert report.baselines["optimal"].success_rate == pytest.approx(1.0)
-    assert report.baselines["cue_blind"].success_rate == pytest.approx((k - 1) / k)
+    assert report.baselines["optimal"].success_rate.mean == pytest.approx(1.0)
+    assert report.baselines["cue_blind"].success_rate.mean == pytest.approx((k - 1) / k)
 
 
 def test_cue_site_shows_the_cue_only_there():
@@ -68,11 +69,11 @@ def test_cue_site_shows_the_cue_only_there():
     check passes and the recall distance counts from the last visit."""
     model, report = _report(display="site", width=7, height=7)
     site = model.layout.sites["cue_site"][0]
-    shown = model.key_cue[model.obs_key] >= 0
+    shown = model.cue.key_value[model.obs_key] >= 0
     assert np.array_equal(shown, model.cell == site)
     checks = {c.name: c for c in report.checks}
     assert checks["no cue leak"].passed
-    assert all(d is None or d >= 0 for d in report.recall.values())
+    assert all(d is None or d >= 0 for d in report.details.recall.values())
 
 
 def test_wrong_goal_that_continues_makes_the_carried_cue_check_say_n_a():
@@ -88,7 +89,7 @@ def test_branch_distance_delays_the_decision():
     than step d, so the recall distance is at least d (one observation shows the cue)."""
     for seed in range(5):
         _, report = _report(seed=seed, values=3, width=8, height=8, min_branch_distance=4)
-        assert min(report.recall.values()) >= 4
+        assert min(report.details.recall.values()) >= 4
 
 
 def test_impossible_rules_name_the_variant_and_seed():
@@ -112,7 +113,7 @@ def _corridor_sequence(k, m, **extra):
            "cue": {"values": k, "sequence_length": m}, "rewards": {**SOUND, "correct": 0.5}, **extra}
     spec = load_spec_text(yaml.safe_dump(doc))
     model = compile_variant(make_variant(spec, 0))
-    return model, analyse(model, observation_tables(model, spec))
+    return model, analyse(model, observation_set(model, spec.observation))
 
 
 @pytest.mark.parametrize("k, m", [(2, 2), (3, 2), (2, 3)])
@@ -121,9 +122,9 @@ def test_sequence_chance_is_one_over_k_to_the_m(k, m):
     the same arm at the junction every time, so it succeeds only on the one constant sequence it
     follows, 1/k^m of them (counting; common practice); perfect memory always succeeds."""
     model, report = _corridor_sequence(k, m)
-    assert model.hidden_values == k ** m
-    assert report.baselines["optimal"].success_rate == pytest.approx(1.0)
-    assert report.baselines["chance"].success_rate == pytest.approx(1 / k ** m)
+    assert model.hidden.count == k ** m
+    assert report.baselines["optimal"].success_rate.mean == pytest.approx(1.0)
+    assert report.baselines["chance"].success_rate.mean == pytest.approx(1 / k ** m)
 
 
 def test_sequence_elements_are_shown_in_turn():
@@ -159,6 +160,6 @@ def test_per_goal_rewards_pay_each_goal_its_own():
            "cue": {"values": 2}, "rewards": {"per_goal": [1.0, 3.0], "step": 0.0}}
     model = compile_variant(make_variant(load_spec_text(yaml.safe_dump(doc)), 0))
     _, report = model, analyse(model)
-    assert report.baselines["optimal"].mean_return == pytest.approx(2.0)
+    assert report.baselines["optimal"].mean_return.mean == pytest.approx(2.0)
     with pytest.raises(taskgen.SpecError, match=r"rewards.per_goal with one reward per cue value \(2\), got 3"):
         load_spec_text(yaml.safe_dump({**doc, "rewards": {"per_goal": [1.0, 2.0, 3.0]}}))

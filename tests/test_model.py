@@ -29,7 +29,7 @@ def test_shortest_solutions_match_networkx(length, arm_length, k, n):
     for s in model.initial_states():
         lengths = nx.single_source_shortest_path_length(g, int(s))
         best = min(d for t, d in lengths.items() if model.success[t])
-        assert ours[int(model.hidden[s])] == best
+        assert ours[int(model.value[s])] == best
         dist = distances_from(model.next_state, int(s))
         assert all(dist[t] == d for t, d in lengths.items())
 
@@ -67,19 +67,19 @@ def test_tables_are_consistent():
     assert not (model.success & ~model.terminal).any()
     assert model.initial.sum() == pytest.approx(1.0)
     assert np.allclose(model.initial[model.initial_states()], 1 / 3)
-    assert (model.hidden[model.success] == np.searchsorted(model.layout.sites["goal"],
+    assert (model.value[model.success] == np.searchsorted(model.layout.sites["goal"],
                                                            model.cell[model.success])).all()
 
 
 def test_observation_keys_hide_the_cue_after_the_window():
     """States past the display window that differ only in the cue share one observation key."""
     model = corridor_model(length=5, values=3, visible_steps=2)
-    late = model.timer >= 2
-    for b in np.unique(model.blind_state[late]):
-        members = np.flatnonzero(model.blind_state == b)
+    late = model.cue.timer >= 2
+    for b in np.unique(model.cue.blind_state[late]):
+        members = np.flatnonzero(model.cue.blind_state == b)
         assert np.unique(model.obs_key[members]).size == 1
-    early = np.flatnonzero(model.timer < 2)
-    assert (model.key_cue[model.obs_key[early]] == model.hidden[early]).all()
+    early = np.flatnonzero(model.cue.timer < 2)
+    assert (model.cue.key_value[model.obs_key[early]] == model.value[early]).all()
 
 
 def test_auto_step_limit_is_factor_times_longest_solution():

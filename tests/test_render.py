@@ -45,7 +45,7 @@ def test_topdown_lamp_shows_the_cue_colour():
     renderer = TopDownRenderer(model, cell_px=10)
     for key in range(model.num_keys):
         frame = renderer.frame(key)
-        cue = model.key_cue[key]
+        cue = model.cue.key_value[key]
         if cue >= 0:
             assert tuple(frame[2, 2]) == CUE_COLOURS[cue]
         else:

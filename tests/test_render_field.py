@@ -8,7 +8,7 @@ import pytest
 
 import taskgen
 from taskgen.generate.paths import OFF
-from taskgen.render.field import FieldPictures, field_observation_set, view_classes
+from taskgen.render import PathPictures, key_classes, path_observation_set
 from taskgen.render.palette import MARK, PATH, PATH_END
 from taskgen.render.topdown import tile_boxes
 
@@ -18,8 +18,8 @@ from conftest import field_spec_text
 def _built(observation, **fields):
     spec = taskgen.load_spec_text(field_spec_text(observation=observation, **fields))
     model = taskgen.build_model(spec)
-    obs, overlay = field_observation_set(model, spec.observation)
-    return model, obs, overlay
+    obs = path_observation_set(model, spec.observation)
+    return model, obs, obs.marks
 
 
 @pytest.mark.parametrize("view", ["full", "window"])
@@ -29,16 +29,16 @@ def test_a_mark_paints_the_floor_of_its_own_tile_only(view):
     nothing (common practice)."""
     model, obs, overlay = _built({"vector": None, "pixels": {"height": 60, "width": 48, "view": view, "window": 3}},
                                  width=4, height=5)
-    agent = np.array([model.num_cells - 2])                       # bottom row
+    agent = np.array([model.paths.num_cells - 2])                 # bottom row
     for cell, visible in ((agent[0] - 4, True), (0, view == "full")):
         frames = {"pixels": obs.pixels[agent].copy()}
-        marked = np.zeros((1, model.num_cells), dtype=bool)
+        marked = np.zeros((1, model.paths.num_cells), dtype=bool)
         marked[0, cell] = True
         overlay.apply(frames, agent, marked)
         changed = (frames["pixels"][0] != obs.pixels[agent[0]]).any(axis=2)
         assert changed.any() == visible
         if visible:
-            boxes = tile_boxes(model.view_model(), 60, 48, view, 3)
+            boxes = tile_boxes(model, 60, 48, view, 3)
             dr, dc = model.layout.cells[cell] - model.layout.cells[agent[0]] + 1   # its place in the window
             top, bottom, left, right = boxes[cell if view == "full" else dr * 3 + dc]
             inside = np.zeros_like(changed)
@@ -48,16 +48,18 @@ def test_a_mark_paints_the_floor_of_its_own_tile_only(view):
 
 
 def test_the_agent_view_is_rendered_without_the_path():
-    """The view tables come from a model with no path cells, and every path's model gives the
-    agent the same observation classes (common practice)."""
+    """The view tables come from a model whose layout and observation keys hold no path (a key is a
+    cell), and every path's model gives the agent the same observation keys in the same states
+    (common practice)."""
     model, obs, overlay = _built({"vector": {"position": "one_hot"}, "pixels": {"height": 32, "width": 32}},
                                  width=5, height=6, turns=2, start="random")
-    view = model.view_model()
-    assert view.layout.sites["path"].size == 0
-    kind, start = model.draw(np.random.default_rng(0).random((5, model.draws)))
+    rule = model.paths
+    assert not {"path", "path_end"} & set(model.layout.sites)
+    assert np.array_equal(model.key_cell, np.arange(rule.num_cells))
+    kind, start = rule.draw(np.random.default_rng(0).random((5, rule.draws)))
     for k, s in zip(kind, start):
-        path = model.path_model(k, int(s))
-        assert np.array_equal(path.obs_key, view.obs_key) and path.layout.sites["path"].size > 0
+        path = rule.path_model(k, int(s))
+        assert np.array_equal(path.obs_key, rule.state_cell) and (k != OFF).any()
 
 
 def test_observation_classes_follow_what_the_agent_sees():
@@ -67,16 +69,16 @@ def test_observation_classes_follow_what_the_agent_sees():
     for vector, expect in (({"position": "one_hot"}, 20), ({"position": "none", "walls": False}, 1),
                            ({"position": "none", "walls": True}, 9)):
         model, obs, overlay = _built({"vector": vector}, width=4, height=5)
-        assert np.unique(view_classes(obs, overlay)).size == expect
+        assert np.unique(key_classes(obs)).size == expect
 
 
 def test_only_the_ground_truth_draws_the_path():
     """The truth picture fills every path cell (its end in the end colour); the agent picture
     has neither colour; a marked cell shows the mark colour in both (common practice)."""
     model, _, _ = _built(None, width=5, height=6, turns=2, start="random")
-    kind, start = model.draw(np.random.default_rng(3).random((1, model.draws)))
-    pictures = FieldPictures(model, cell_px=10)
-    marked = np.zeros(model.num_cells, dtype=bool)
+    kind, start = model.paths.draw(np.random.default_rng(3).random((1, model.paths.draws)))
+    pictures = PathPictures(model, cell_px=10)
+    marked = np.zeros(model.paths.num_cells, dtype=bool)
     off = int(np.flatnonzero(kind[0] == OFF)[0])
     marked[off] = True
     truth = pictures.truth(kind[0], int(start[0]), marked)
@@ -97,11 +99,11 @@ def test_only_the_ground_truth_draws_the_path():
 def test_the_grid_view_marks_cells_in_its_window_in_the_mark_channel():
     """A field's grid view has the nine FIELD_GRID_CHANNELS; a marked cell inside the window sets
     the mark channel at its place, one outside sets nothing, and no goal is ever shown (common practice)."""
-    from taskgen.render.field import FIELD_GRID_CHANNELS, MARK_CHANNEL
+    from taskgen.render.marks import FIELD_GRID_CHANNELS, MARK_CHANNEL
     model, obs, overlay = _built({"vector": None, "grid": {"size": 3}}, width=4, height=5)
     assert obs.grid.shape[1:] == (3, 3, len(FIELD_GRID_CHANNELS)) and not obs.grid[..., 5].any()
     agent = np.array([9])                                  # row 2, column 1
-    marked = np.zeros((1, model.num_cells), dtype=bool)
+    marked = np.zeros((1, model.paths.num_cells), dtype=bool)
     marked[0, [10, 0]] = True                              # east of the agent; far away
     parts = {"grid": obs.grid[agent].copy()}
     overlay.apply(parts, agent, marked)
@@ -117,7 +119,7 @@ def test_a_mark_colour_from_the_spec_is_drawn_and_reserved_colours_are_refused()
     model, obs, overlay = _built({"vector": None, "pixels": {"height": 40, "width": 40}}, width=3, height=4,
                                  mark={"steps": 2, "colour": [10, 200, 90]})
     frames = {"pixels": obs.pixels[[10]].copy()}
-    marked = np.zeros((1, model.num_cells), dtype=bool)
+    marked = np.zeros((1, model.paths.num_cells), dtype=bool)
     marked[0, 0] = True
     overlay.apply(frames, np.array([10]), marked)
     assert (frames["pixels"][0] == (10, 200, 90)).all(axis=2).any()

@@ -40,7 +40,7 @@ def test_wall_height_is_h_over_d_without_fisheye(column):
     distance, _, _ = cast(model, np.array([model.layout.start]), np.array([1]), 64, 66.0)
     assert np.allclose(distance[0, 16:48], d)
     frames = first_person_table(model, H, 64, 66.0)
-    key = np.flatnonzero((model.key_cell == model.layout.start) & (model.key_heading == 1) & (model.key_cue < 0))[0]
+    key = np.flatnonzero((model.key_cell == model.layout.start) & (model.key_heading == 1) & (model.cue.key_value < 0))[0]
     centre = frames[key][:, 32]
     wall = [r for r in range(H) if tuple(centre[r]) not in ((8, 8, 12), (20, 20, 28))]   # not sky, not floor
     assert abs(len(wall) - min(H, H / d)) <= 1

@@ -9,7 +9,8 @@ import pytest
 from gymnasium.utils.env_checker import check_env
 
 import taskgen
-from taskgen.analysis import analyse, static_leak
+from taskgen import analyse, observation_set
+from taskgen.analysis import static_leak
 from taskgen.render.grid import GRID_CHANNELS
 from taskgen.render.palette import AGENT, CUE_COLOURS, FLOOR, WALL, contrast_ratio, relative_luminance
 from taskgen.tools.check import observation_tables
@@ -61,14 +62,14 @@ def _wall_pixels(kind, amplitude, steps=60):
                        observation__pixels={"height": 32, "width": 32,
                                             "noise": {"kind": kind, "amplitude": amplitude}})
     clean = env.observations.pixels
-    obs, _ = env.reset(seed=5)
+    obs, info = env.reset(seed=5)
     values, flags = [], []
     for _ in range(steps):
-        key = env.model.obs_key[env._state]
+        key = env.model.obs_key[info["analysis_only"]["state"]]
         wall = (clean[key] == WALL).all(axis=2)
         values.append(obs[wall].astype(float) - np.asarray(WALL, dtype=float))
         flags.append(obs[wall])
-        obs, *_ = env.step(0)      # a wall: the episode goes on
+        obs, _, _, _, info = env.step(0)      # a wall: the episode goes on
     return np.concatenate(values), np.concatenate(flags)
 
 
@@ -127,11 +128,12 @@ def test_leak_check_reads_the_pixels():
 
     env = taskgen.make("lantern-hall", observation__vector=None, observation__pixels={"height": 20, "width": 40})
     model = env.model
-    keys, obs_key = np.unique(np.stack([model.cell, model.hidden], axis=1), axis=0, return_inverse=True)
-    leaky = dataclasses.replace(model, obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(),
-                                key_cue=keys[:, 1].copy())
+    keys, obs_key = np.unique(np.stack([model.cell, model.value], axis=1), axis=0, return_inverse=True)
+    leaky = dataclasses.replace(model, source=dataclasses.replace(model.tables, obs_key=obs_key.ravel()),
+                                key_cell=keys[:, 0].copy(), key_heading=-np.ones(len(keys), dtype=np.int64),
+                                cue=dataclasses.replace(model.cue, key_value=keys[:, 1].copy()))
     spec = taskgen.load_spec_text(open(taskgen.bundled_specs()["lantern-hall"]).read(), observation__vector=None,
                                   observation__pixels={"height": 20, "width": 40})
     leak = static_leak(leaky, observation_tables(leaky, spec))
     assert leak is not None and leak.parts == ("pixels.pixels",) and leak.step == 1
-    assert analyse(model, observation_tables(model, spec)).ok
+    assert analyse(model, observation_set(model, spec.observation)).ok

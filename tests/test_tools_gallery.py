@@ -116,8 +116,9 @@ def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
                                                   observation=observation, rewards={"fall": -0.1}))
     episode = gallery_module.record(spec, 0, "explorer", 0, 3)
     first = np.asarray(episode.frames[0])
-    truth_width = np.asarray(gallery_module._scaled(gallery_module.FieldPictures(
-        taskgen.build_model(spec)).agent(0, np.zeros(30, dtype=bool)))).shape[1]
+    from taskgen.render import PathPictures
+    from taskgen.tools.playback import scaled
+    truth_width = np.asarray(scaled(PathPictures(taskgen.build_model(spec)).agent(0, np.zeros(30, dtype=bool)))).shape[1]
     split = first.shape[1] - truth_width - 4
     marked = 0
     for frame in episode.frames:

@@ -17,6 +17,7 @@ from taskgen import compile_variant, load_spec_text, make_variant
 from taskgen.analysis.fingerprint import fingerprint
 from taskgen.generate.maze import maze_layout
 from taskgen.tools.variants import SuiteError, SuiteRequest, build_suite, manifest_text, write_manifest
+from taskgen.kinds.cue import MazeParams
 from taskgen.variant import Variant
 
 LANTERN = str(taskgen.bundled_specs()["lantern-hall"])
@@ -34,10 +35,13 @@ def _permuted(model, rng):
     """The same model with its states renumbered at random."""
     perm = rng.permutation(model.num_states)          # new index of old state s is perm[s]
     inverse = np.argsort(perm)
-    fields = {name: getattr(model, name)[inverse] for name in
-              ("reward", "terminal", "success", "initial", "hidden", "blind_state", "cell", "timer",
-               "obs_key", "cue_window", "cue_known", "knowledge")}
-    return dataclasses.replace(model, next_state=perm[model.next_state[inverse]], **fields)
+    tables = dataclasses.replace(model.tables, next_state=perm[model.next_state[inverse]],
+                                 **{name: getattr(model.tables, name)[inverse] for name in
+                                    ("reward", "terminal", "success", "initial", "value", "local", "cell", "heading",
+                                     "obs_key")})
+    cue = dataclasses.replace(model.cue, **{name: getattr(model.cue, name)[inverse] for name in
+                                            ("window", "known", "knowledge", "blind_state", "timer")})
+    return dataclasses.replace(model, source=tables, cue=cue)
 
 
 def test_fingerprint_ignores_state_numbering():
@@ -70,7 +74,9 @@ def test_every_3x3_maze_has_its_own_fingerprint():
                 d = {(-1, 0): 0, (0, 1): 1, (1, 0): 2, (0, -1): 3}[(rb - ra, cb - ca)]
                 passages[ra, ca, d] = True
         layout = maze_layout(passages, 0, [8, 2])
-        variant = Variant(spec=spec, seed=0, params={"cue_values": 2, "visible_steps": 1}, layout=layout)
+        params = MazeParams(width=3, height=3, generator="uniform", braid=0.0, cue_values=2, visible_steps=1,
+                            layout_attempt=0, dead_ends=0)
+        variant = Variant(spec=spec, seed=0, params=params, layout=layout)
         prints.add(fingerprint(compile_variant(variant)))
     assert len(prints) == 192
 
@@ -175,8 +181,8 @@ def test_manifest_records_what_it_promises():
     manifest = build_suite(taskgen.load_spec(LANTERN), SuiteRequest(splits=(("train", 3),)))
     assert manifest["taskgen_version"] == taskgen.__version__ and len(manifest["spec_sha256"]) == 64
     for v in manifest["variants"]:
-        assert {"id", "split", "seed", "params", "fingerprint", "optimal", "chance", "random",
-                "recall_distance"} <= set(v)
+        assert {"id", "split", "seed", "params", "fingerprint", "baselines", "details"} <= set(v)
+        assert {"optimal", "chance", "random"} <= set(v["baselines"]) and "recall_distance" in v["details"]
     assert manifest_text(manifest).startswith("taskgen_manifest: 1\n")
 
 
@@ -203,11 +209,12 @@ def test_a_field_suite_holds_out_path_turns_and_reloads_its_variants(tmp_path):
     turns = {split: {v["params"]["turns"] for v in manifest["variants"] if v["split"] == split}
              for split in ("train", "test")}
     assert turns["test"] == {3} and 3 not in turns["train"]
-    assert all({"mean_return", "mean_return_se", "method"} <= set(v["optimal"]) for v in manifest["variants"])
+    assert all({"mean", "standard_error", "method"} <= set(v["baselines"]["optimal"]["mean_return"])
+               for v in manifest["variants"])
     path = write_manifest(manifest, str(tmp_path))
     env = taskgen.make(path, split="test", index=1)
-    assert isinstance(env, taskgen.FieldEnv) and env.model.params["turns"] == 3
-    with pytest.raises(taskgen.envs.split.ManifestError, match="one at a time"):
+    assert env.model.kind == "field" and env.model.params.turns == 3
+    with pytest.raises(taskgen.manifest.ManifestError, match="one at a time"):
         taskgen.make(path, split="train")
     with pytest.raises(SuiteError, match="has only 6"):
         build_suite(spec, SuiteRequest(splits=(("train", 7),), disjoint_layouts=True))

@@ -23,7 +23,7 @@ def test_range_draws_are_uniform():
     (binomial proportion; common practice)."""
     spec = load_spec_text(corridor_spec_text(length={"range": [2, 5]}))
     n = 2000
-    draws = np.array([make_variant(spec, s).params["length"] for s in range(n)])
+    draws = np.array([make_variant(spec, s).params.length for s in range(n)])
     assert set(draws) == {2, 3, 4, 5}
     for v in range(2, 6):
         assert abs((draws == v).mean() - 0.25) <= 4 * np.sqrt(0.25 * 0.75 / n)
@@ -32,7 +32,7 @@ def test_range_draws_are_uniform():
 def test_choice_draws_only_listed_values():
     """{choice: [...]} never produces an unlisted value and reaches every listed one."""
     spec = load_spec_text(corridor_spec_text(length={"choice": [3, 7, 11]}))
-    draws = {make_variant(spec, s).params["length"] for s in range(200)}
+    draws = {make_variant(spec, s).params.length for s in range(200)}
     assert draws == {3, 7, 11}
 
 

@@ -14,14 +14,15 @@ import hashlib
 
 import numpy as np
 
-from ..model import FieldModel, TaskModel
+from ..errors import AnalysisError
+from ..model import TaskModel
 
 
 def canonical_labels(model: TaskModel) -> np.ndarray:
     """int[S]: each state's canonical number (unreachable states, if any, get −1)."""
     label = -np.ones(model.num_states, dtype=np.int64)
     roots = model.initial_states()
-    roots = roots[np.lexsort((roots, model.hidden[roots]))]
+    roots = roots[np.lexsort((roots, model.value[roots]))]
     label[roots] = np.arange(roots.size)
     count, frontier = roots.size, roots
     while frontier.size:
@@ -36,7 +37,12 @@ def canonical_labels(model: TaskModel) -> np.ndarray:
 
 
 def fingerprint(model: TaskModel) -> str:
-    """sha256 (hex) of the model in canonical state order."""
+    """sha256 (hex) of a cue task's model in canonical state order (a field's variant is its path
+    rule's :meth:`~taskgen.model.PathRule.digest`: its paths are drawn per episode)."""
+    if model.cue is None:
+        raise AnalysisError(f"{model.variant_id}: only a model with every hidden value in its tables has a "
+                            "canonical fingerprint")
+    cue = model.cue
     label = canonical_labels(model)
     order = np.argsort(label)[np.sort(label) >= 0]
     cells = model.layout.cells[model.key_cell[model.obs_key[order]]]
@@ -50,37 +56,20 @@ def fingerprint(model: TaskModel) -> str:
     parts = [
         np.asarray(model.layout.shape, dtype="<i8"),
         layout.cells[by_place].astype("<i8"), moves.astype("<i8"), *sites,
-        np.asarray([model.horizon, model.num_actions, model.hidden_values], dtype="<i8"),
+        np.asarray([model.horizon, model.num_actions, model.hidden.count], dtype="<i8"),
         np.asarray([model.discount, model.timeout_reward], dtype="<f8"),
         label[model.next_state[order]].astype("<i8"),
         model.reward[order].astype("<f8"),
         model.terminal[order].astype("u1"),
         model.success[order].astype("u1"),
         model.initial[order].astype("<f8"),
-        model.hidden[order].astype("<i8"),
+        model.value[order].astype("<i8"),
         cells.astype("<i8"),
-        model.key_cue[model.obs_key[order]].astype("<i8"),
-        model.cue_window[order].astype("u1"),
+        cue.key_value[model.obs_key[order]].astype("<i8"),
+        cue.window[order].astype("u1"),
     ]
     h = hashlib.sha256()
     for part in parts:
-        h.update(np.ascontiguousarray(part).tobytes())
-        h.update(b"|")
-    return h.hexdigest()
-
-
-def field_fingerprint(model: FieldModel) -> str:
-    """sha256 (hex) of a field variant: its size and sides, the shape of its paths, and its
-    path-free tables, rewards and limits. Paths are drawn per episode, so two variants with equal
-    fingerprints offer the same paths with the same probabilities."""
-    frame, shape = model.frame, model.shape
-    h = hashlib.sha256()
-    h.update(f"field|{frame.rows}|{frame.cols}|{frame.start_side}|{shape.turns}|{shape.width}|{shape.start}|"
-             f"{model.levels}|{model.to_start}|{model.mark_steps}|{model.horizon}|".encode())
-    for part in (np.asarray([model.step_reward, model.goal_reward, model.fall_reward, model.timeout_reward,
-                             model.discount], dtype="<f8"),
-                 model.aim.astype("<i8"), model.move_next.astype("<i8"), model.fall_next.astype("<i8"),
-                 model.state_out.astype("u1")):
         h.update(np.ascontiguousarray(part).tobytes())
         h.update(b"|")
     return h.hexdigest()

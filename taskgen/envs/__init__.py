@@ -1,9 +1,9 @@
-"""Stage 5b of the pipeline: Gymnasium runtimes over the compiled model."""
+"""Stage 5b of the pipeline: Gymnasium runtimes: one shell of each kind over a task kind's core."""
 
-from .field import FieldEnv, FieldVectorEnv
-from .factory import build_field, build_model, bundled_specs, make, make_vec, register_bundled, resolve_spec
+from .core import Core
+from .paths import PathCore
 from .single import TaskEnv
+from .tables import TableCore
 from .vector import TaskVectorEnv
 
-__all__ = ["FieldEnv", "FieldVectorEnv", "TaskEnv", "build_field", "TaskVectorEnv", "build_model", "bundled_specs", "make", "make_vec", "register_bundled",
-           "resolve_spec"]
+__all__ = ["Core", "PathCore", "TableCore", "TaskEnv", "TaskVectorEnv"]

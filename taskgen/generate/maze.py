@@ -196,3 +196,15 @@ def count_spanning_trees(height: int, width: int) -> int:
                 m[i][j] = (m[i][j] * m[k][k] - m[i][k] * m[k][j]) // previous
         previous = m[k][k]
     return sign * m[size - 1][size - 1]
+
+
+def carve(rng: np.random.Generator, generator: str, height: int, width: int, room_size: int,
+          fraction: float) -> np.ndarray:
+    """Passages of one maze from the named generator (uniform, backtracker or rooms), braided by ``fraction``."""
+    if generator == "uniform":
+        passages = wilson_maze(rng, height, width)
+    elif generator == "backtracker":
+        passages = backtracker_maze(rng, height, width)
+    else:
+        passages = rooms_maze(rng, height, width, room_size)
+    return braid(rng, passages, fraction) if fraction > 0 else passages

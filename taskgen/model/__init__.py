@@ -1,8 +1,10 @@
 """Stage 4 of the pipeline: the compiled finite task model that every later stage reads."""
 
-from .compile import compile_variant, shortest_success_steps
-from .field import FieldModel, compile_field
-from .graph import distances_from, reachable
-from .tables import TaskModel
+from .cue import compile_cue
+from .graph import distances_from, reachable, shortest_success_steps
+from .hidden import EnumeratedSet, HiddenSet, SampledSet
+from .paths import PathRule, PathSample
+from .tables import CueStructure, Tables, TaskModel
 
-__all__ = ["FieldModel", "TaskModel", "compile_field", "compile_variant", "distances_from", "reachable", "shortest_success_steps"]
+__all__ = ["CueStructure", "EnumeratedSet", "HiddenSet", "PathRule", "PathSample", "SampledSet", "Tables",
+           "TaskModel", "compile_cue", "distances_from", "reachable", "shortest_success_steps"]

@@ -29,3 +29,13 @@ def distances_from(next_state: np.ndarray, source: int) -> np.ndarray:
         frontier = successors[dist[successors] < 0]
         dist[frontier] = step
     return dist
+
+
+def shortest_success_steps(next_state: np.ndarray, success: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """Fewest steps from each start state to a success state (−1 where none is reachable)."""
+    out = []
+    for s in starts:
+        dist = distances_from(next_state, int(s))
+        hits = dist[success & (dist >= 0)]
+        out.append(int(hits.min()) if hits.size else -1)
+    return np.asarray(out, dtype=np.int64)

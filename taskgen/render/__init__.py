@@ -1,7 +1,10 @@
-"""Stage 5c of the pipeline: observation keys → arrays (vectors, pictures)."""
+"""Stage 5c of the pipeline: observation keys → arrays (vectors, pictures), and pictures for people."""
 
+from .marks import MarkOverlay, path_observation_set
+from .observations import ObservationSet, key_classes, observation_set
+from .pictures import PathPictures, cue_truth
 from .topdown import TopDownRenderer
-from .observations import ObservationSet, observation_set
 from .vector import VectorLayout, vector_layout
 
-__all__ = ["ObservationSet", "TopDownRenderer", "VectorLayout", "observation_set", "vector_layout"]
+__all__ = ["MarkOverlay", "ObservationSet", "PathPictures", "TopDownRenderer", "VectorLayout", "cue_truth",
+           "key_classes", "observation_set", "path_observation_set", "vector_layout"]

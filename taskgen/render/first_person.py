@@ -95,6 +95,7 @@ def first_person_table(model: TaskModel, height: int, width: int, fov: float) ->
     frames[:, height // 2:] = np.asarray(FLOOR, dtype=np.uint8)
     frames[is_wall] = np.broadcast_to(wall[:, None, :, :], (K, height, width, 3))[is_wall]
     lamp = lamp_rows(height)
-    shown = np.flatnonzero(model.key_cue >= 0)
-    frames[shown, :lamp] = np.asarray(CUE_COLOURS, dtype=np.uint8)[model.key_cue[shown]][:, None, None, :]
+    key_cue = model.shown_cue()
+    shown = np.flatnonzero(key_cue >= 0)
+    frames[shown, :lamp] = np.asarray(CUE_COLOURS, dtype=np.uint8)[key_cue[shown]][:, None, None, :]
     return frames

@@ -33,7 +33,8 @@ def grid_table(model: TaskModel, size: int, egocentric: bool = False) -> np.ndar
     c = cells[:, 1, None, None] + half + offsets[None, None, :]
     window = index[r, c]                                         # [K, size, size]
     out = per_cell[window]                                       # −1 picks the "outside" row
-    out[:, half, half, 6] = np.where(model.key_cue >= 0, model.key_cue + 1, 0)
+    key_cue = model.shown_cue()
+    out[:, half, half, 6] = np.where(key_cue >= 0, key_cue + 1, 0)
     out[:, half, half, 7] = np.where(model.key_heading >= 0, model.key_heading + 1, 1)   # heading + 1
     if egocentric:   # turn each window so the agent's heading is up, wall bits turning with it
         for heading in range(4):

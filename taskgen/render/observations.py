@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from gymnasium import spaces
@@ -15,6 +15,9 @@ from .first_person import first_person_table
 from .grid import GRID_CHANNELS, grid_table
 from .topdown import pixel_table, tile_boxes
 from .vector import VectorLayout, vector_layout
+
+if TYPE_CHECKING:   # marks.py builds observation sets, so the overlay is imported for types only
+    from .marks import MarkOverlay
 
 
 @dataclass(frozen=True, eq=False)
@@ -35,6 +38,7 @@ class ObservationSet:
     lure_probability: float = 0.0
     lure_tiles: np.ndarray | None = None     # int[T, 4] pixel boxes a lure may light (top-down)
     cue_values: int = 2
+    marks: MarkOverlay | None = None         # where a field's feedback marks are laid over, per step
 
     @property
     def single(self) -> bool:
@@ -100,7 +104,20 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
         tiles = tile_boxes(model, spec.pixels.height, spec.pixels.width, spec.pixels.view, spec.pixels.window)
     return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, first_person,
                           spec.distractors.decoy_probability, spec.distractors.lure_probability, tiles,
-                          model.cue_values)
+                          model.cue.values if model.cue is not None else 0)
+
+
+def key_classes(obs: ObservationSet) -> np.ndarray:
+    """int[K]: observation keys numbered by what the agent sees there, marks and noise excluded (equal
+    numbers: the agent cannot tell the keys apart)."""
+    rows = []
+    for name, (table, _) in obs.tables().items():
+        keep = np.ones(table.shape[1], dtype=bool)
+        if name == "vector" and obs.marks is not None and obs.marks.block is not None:
+            keep[obs.marks.block] = False
+        rows.append(np.asarray(table, dtype=np.float64)[:, keep])
+    _, classes = np.unique(np.concatenate(rows, axis=1), axis=0, return_inverse=True)
+    return classes.ravel()
 
 
 def assemble(obs: ObservationSet, parts: dict[str, Any]) -> Any:

@@ -41,13 +41,14 @@ class TopDownRenderer:
             r, c = layout.cells[cell]
             left, top, right, bottom = self.box(r, c)
             draw.rectangle((left + wall, top + wall, right - wall, bottom - wall), fill=CUE_COLOURS[value])
-        for cell in layout.sites.get("cue_site", []) if model.cue_visible_steps == 0 else []:
+        for cell in layout.sites.get("cue_site", []) if model.cue is not None and model.cue.by_site else []:
             r, c = layout.cells[cell]
             left, top, right, bottom = self.box(r, c)
             mid_x, mid_y, half = (left + right) // 2, (top + bottom) // 2, max(2, cell_px // 4)
             draw.polygon([(mid_x, mid_y - half), (mid_x + half, mid_y), (mid_x, mid_y + half),
                           (mid_x - half, mid_y)], outline=AGENT)
         self.background = np.asarray(image, dtype=np.uint8)
+        self.key_cue = model.shown_cue()
 
     def box(self, row: int, col: int) -> tuple[int, int, int, int]:
         """Pixel box (left, top, right, bottom) of a grid cell in the full picture."""
@@ -59,7 +60,7 @@ class TopDownRenderer:
         """uint8[H, W, 3] picture of observation key ``key``."""
         image = Image.fromarray(self.background.copy())
         draw = ImageDraw.Draw(image)
-        cue = int(self.model.key_cue[key])
+        cue = int(self.key_cue[key])
         if cue >= 0:
             draw.rectangle((0, 0, image.width - 1, self.lamp_rows * self.px - 1), fill=CUE_COLOURS[cue])
         r, c = self.model.layout.cells[self.model.key_cell[key]]
@@ -157,7 +158,8 @@ def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", w
             centre_c[np.argmin(np.abs(ci - (half * px + px // 2)))] = True
         frames[:, lamp:][:, centre_r[:, None] & centre_c[None, :]] = AGENT
     frames[:, :lamp] = WALL
-    shown = np.flatnonzero(model.key_cue >= 0)
+    key_cue = model.shown_cue()
+    shown = np.flatnonzero(key_cue >= 0)
     colours = np.asarray(CUE_COLOURS, dtype=np.uint8)
-    frames[shown, :lamp] = colours[model.key_cue[shown]][:, None, None, :]
+    frames[shown, :lamp] = colours[key_cue[shown]][:, None, None, :]
     return frames

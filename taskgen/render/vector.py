@@ -30,10 +30,11 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
     """Build every key's vector once; the runtime then only gathers rows and appends noise."""
     parts: list[tuple[str, np.ndarray]] = []
     K = model.num_keys
-    if spec.cue:
-        cue = np.zeros((K, model.cue_values), dtype=np.float32)
-        shown = model.key_cue >= 0
-        cue[np.flatnonzero(shown), model.key_cue[shown]] = 1.0
+    if spec.cue and model.cue is not None:     # a task without a cue has no cue block
+        key_cue = model.cue.key_value
+        cue = np.zeros((K, model.cue.values), dtype=np.float32)
+        shown = key_cue >= 0
+        cue[np.flatnonzero(shown), key_cue[shown]] = 1.0
         parts.append(("cue", cue))
     layout = model.layout
     if spec.position == "one_hot":
@@ -43,9 +44,9 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
         parts.append(("position", (layout.cells[model.key_cell] / scale).astype(np.float32)))
     if spec.walls:
         parts.append(("walls", layout.walls()[model.key_cell].astype(np.float32)))
-    if spec.goals:
+    goals = layout.sites.get("goal", np.array([], dtype=np.int64))
+    if spec.goals and goals.size:            # a layout without goals has no goals block
         goal_of = -np.ones(layout.num_cells, dtype=np.int64)
-        goals = layout.sites.get("goal", np.array([], dtype=np.int64))
         goal_of[goals] = np.arange(goals.size)
         flags = np.zeros((K, goals.size), dtype=np.float32)
         on = goal_of[model.key_cell] >= 0

@@ -14,7 +14,8 @@ from typing import Any, Callable
 import gymnasium as gym
 import numpy as np
 
-from ..envs import make, make_vec
+from ..factory import make, make_vec
+from ..kinds import kind_of
 from ..spec import Spec
 
 FROZEN_LAKE = dict(id="FrozenLake-v1", map_name="8x8", is_slippery=False)
@@ -69,10 +70,13 @@ def _vector_loop(env: gym.vector.VectorEnv, rng: np.random.Generator) -> Callabl
 
 
 def _raw_numpy_loop(vec: Any, num_envs: int, rng: np.random.Generator) -> Callable[[int], None]:
-    """The floor of a table step: gathers of next state, reward and observation, and noise bits."""
-    next_state, reward, keys, table = vec._next, vec._reward, vec._obs_key, vec._table
-    bits, width = vec._bits, table.shape[1]
-    p = float(vec._flip[0]) if bits else 0.0
+    """The floor of a table step: gathers of next state, reward and observation, and noise bits, on the
+    model's tables (a field's: over its sampled paths)."""
+    model, vector = vec.model, vec.core.observations.vector
+    next_state, reward, keys = model.next_state, model.reward, model.obs_key
+    table = vector.table if vector is not None else np.zeros((model.num_keys, 0), dtype=np.float32)
+    bits, width = (vector.noise_bits if vector is not None else 0), table.shape[1]
+    p = vector.flip_probability if vector is not None else 0.0
     state = np.zeros(num_envs, dtype=np.int64)
     obs = np.zeros((num_envs, width + bits), dtype=np.float32)
 
@@ -118,38 +122,11 @@ def _common_timings(spec: Spec, batched: Any, num_envs: int, sync_envs: int, bud
     ]
 
 
-def _field_bench(spec: Spec, num_envs: int, budget: float, sync_envs: int, rng: np.random.Generator) -> dict[str, Any]:
-    """A field's runtimes: a step also draws paths at resets and lays marks over observations."""
-    batched = make_vec(spec, num_envs)
-    timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)
-    pixels = make_vec(spec, num_envs, observation__vector=None, observation__pixels={"height": 64, "width": 64})
-    timings += [
-        _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
-        _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
-               _frame_gather_loop(pixels.core.observations.pixels, num_envs, rng), budget),
-    ]
-    single, vec, sync_ours, fl_single, fl_sync, pix, gather = (t.env_steps_per_s for t in timings)
-    ratios = {
-        "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
-        "single / FrozenLake single": single / fl_single,
-        "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
-        "batched / single": vec / single,
-        "top-down pixels / numpy frame gather": pix / gather,
-    }
-    memory = batched.memory_bytes()
-    bits = batched.core.bits
-    return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(bits),
-            "timings": [t.__dict__ for t in timings], "env_steps_per_s": {t.name: t.env_steps_per_s for t in timings},
-            "ratios": ratios, "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
-
-
 def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
               seed: int = 0) -> dict[str, Any]:
     """Measure every runtime and the references; returns timings, ratios and memory."""
     rng = np.random.default_rng(seed)
     sync_envs = sync_envs or num_envs
-    if spec.layout.family == "field":
-        return _field_bench(spec, num_envs, budget, sync_envs, rng)
     batched = make_vec(spec, num_envs)
     timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)
     timings.append(_timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng),
@@ -159,15 +136,15 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
     timings += [
         _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
         _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
-               _frame_gather_loop(pixels._pixels, num_envs, rng), budget),
+               _frame_gather_loop(pixels.core.observations.pixels, num_envs, rng), budget),
     ]
-    first_person = make_vec(spec, num_envs, agent__actions="turns", observation__vector=None,
-                            observation__grid=None, observation__pixels=None,
-                            observation__first_person={"height": 64, "width": 64})
-    timings.append(_timed(f"taskgen batched first-person 64×64 ({num_envs})", num_envs,
-                          _vector_loop(first_person, rng), budget))
-    by = {t.name: t.env_steps_per_s for t in timings}
-    single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather, fp = (t.env_steps_per_s for t in timings)
+    if "first_person" in kind_of(spec).modalities:
+        first_person = make_vec(spec, num_envs, agent__actions="turns", observation__vector=None,
+                                observation__grid=None, observation__pixels=None,
+                                observation__first_person={"height": 64, "width": 64})
+        timings.append(_timed(f"taskgen batched first-person 64×64 ({num_envs})", num_envs,
+                              _vector_loop(first_person, rng), budget))
+    single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather = (t.env_steps_per_s for t in timings[:8])
     ratios = {
         "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
         "batched / raw numpy table step": vec / raw,
@@ -175,12 +152,14 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
         "batched / SyncVectorEnv(taskgen env)": vec / sync_ours,
         "batched / single": vec / single,
         "top-down pixels / numpy frame gather": pix / gather,
-        "first-person / SyncVectorEnv(FrozenLake)": fp / fl_sync,
     }
+    if len(timings) > 8:
+        ratios["first-person / SyncVectorEnv(FrozenLake)"] = timings[8].env_steps_per_s / fl_sync
     memory = batched.memory_bytes()
-    return {"spec": spec.name, "num_envs": num_envs, "noise_bits": int(batched._bits),
-            "timings": [t.__dict__ for t in timings], "env_steps_per_s": by, "ratios": ratios,
-            "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
+    vector = batched.core.observations.vector
+    return {"spec": spec.name, "num_envs": num_envs, "noise_bits": vector.noise_bits if vector is not None else 0,
+            "timings": [t.__dict__ for t in timings], "env_steps_per_s": {t.name: t.env_steps_per_s for t in timings},
+            "ratios": ratios, "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
 
 
 def format_bench(result: dict[str, Any]) -> str:

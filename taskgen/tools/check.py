@@ -1,22 +1,22 @@
-"""`taskgen check`: compile N variants of a spec, analyse each, and summarise."""
+"""`taskgen check`: compile N variants of a spec, analyse each, and summarise — one contract for every kind."""
 
 from __future__ import annotations
 
+import math
 import statistics
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypedDict
 
+from pydantic import ConfigDict, TypeAdapter, with_config
 from tqdm import tqdm
 
-from ..analysis import VariantReport, analyse
-from ..analysis.fields import FieldReport
-from ..model import TaskModel, compile_variant
-from ..render import observation_set
+from ..analysis import Baseline, Figure, Report
+from ..analysis.report import BaselineJSON, VariantJSON
+from ..kinds import SAMPLES, compile_variant, kind_of, make_variant, observation_set
+from ..model import TaskModel
 from ..spec import Spec
-from ..variant import make_variant
-from .field_check import check_field_variant
 
-BASELINE_ORDER = ("optimal", "chance", "cue_blind", "random")
+DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 
 def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
@@ -24,13 +24,70 @@ def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
     return observation_set(model, spec.observation).tables()
 
 
-def check_variant(spec: Spec, seed: int, min_gap: float = 0.0) -> VariantReport | FieldReport:
-    """Compile one variant and run every analysis on what the agent really observes (a field's
-    report has its figures over sampled paths: see field_check.py)."""
-    if spec.layout.family == "field":
-        return check_field_variant(spec, seed, min_gap=min_gap)
-    model = compile_variant(make_variant(spec, seed))
-    return analyse(model, observation_tables(model, spec), min_gap=min_gap)
+def check_variant(spec: Spec, seed: int, min_gap: float = 0.0, paths: int = SAMPLES) -> Report:
+    """Compile one variant and run every analysis on what its agent really observes (``paths``: the
+    hidden values sampled where they cannot all be listed, as for a field's paths)."""
+    kind = kind_of(spec)
+    model = compile_variant(make_variant(spec, seed), paths)
+    return kind.analyse(model, kind.observations(model, spec.observation), min_gap)
+
+
+@with_config(ConfigDict(extra="forbid"))
+class SpreadJSON(TypedDict):
+    """The smallest, median and largest of a number over the variants."""
+
+    min: float
+    median: float
+    max: float
+
+
+@with_config(ConfigDict(extra="forbid"))
+class GapJSON(TypedDict):
+    """The memory gap over the variants."""
+
+    mean: float
+    min: float
+    median: float
+    max: float
+
+
+@with_config(ConfigDict(extra="forbid"))
+class StatisticsJSON(TypedDict):
+    """Numbers every kind summarises over its variants."""
+
+    memory_gap: GapJSON
+    step_limit_slack: SpreadJSON
+
+
+@with_config(ConfigDict(extra="forbid"))
+class RunJSON(TypedDict):
+    """`taskgen check --json`: the same keys for every kind; what only one kind has sits under details."""
+
+    kind: str
+    ok: bool
+    spec: str
+    source: str
+    min_gap: float
+    baselines: dict[str, BaselineJSON]
+    statistics: StatisticsJSON
+    details: dict[str, SpreadJSON | None]
+    variants: list[VariantJSON]
+
+
+def _spread(values: list[float]) -> SpreadJSON | None:
+    if not values:
+        return None
+    return {"min": min(values), "median": statistics.median(values), "max": max(values)}
+
+
+def _mean_figure(figures: list[Figure]) -> Figure:
+    """The mean of the variants' figures (variants weigh equally), the standard error of that mean from
+    theirs (0 when every hidden value was covered), and the smallest and largest variant's mean."""
+    n = len(figures)
+    methods = sorted({f.method for f in figures})
+    return Figure(sum(f.mean for f in figures) / n, math.sqrt(sum(f.standard_error ** 2 for f in figures)) / n,
+                  min(f.mean for f in figures), max(f.mean for f in figures), " + ".join(methods),
+                  figures[0].policy_class)
 
 
 @dataclass
@@ -39,7 +96,7 @@ class CheckRun:
 
     source: str
     spec: Spec
-    reports: list[VariantReport]
+    reports: list[Report]
     min_gap: float = 0.0
 
     @property
@@ -47,64 +104,71 @@ class CheckRun:
         """True when no check of any variant failed."""
         return all(r.ok for r in self.reports)
 
-    def summary(self) -> dict[str, dict[str, Any]]:
-        """Each baseline averaged over the variants (variants weigh equally)."""
+    def summary(self) -> dict[str, Baseline]:
+        """Each baseline averaged over the variants where it could be computed."""
         out = {}
-        for name in BASELINE_ORDER:
-            figures = [r.baselines[name] for r in self.reports]
-            methods = sorted({b.method for b in figures})
-            known = [b for b in figures if b.method != "unavailable"]
-            out[name] = {
-                "success_rate": _mean([b.success_rate for b in known]),
-                "mean_return": _mean([b.mean_return for b in known]),
-                "method": methods[0] if len(methods) == 1 else " + ".join(methods),
-                "policy_class": figures[0].policy_class,
-            }
+        for name, first in self.reports[0].baselines.items():
+            baselines = [r.baselines[name] for r in self.reports]
+            known = [b for b in baselines if b.available]
+            methods = sorted({b.method for b in baselines})
+            method = methods[0] if len(methods) == 1 else " + ".join(methods)
+            if not known:
+                out[name] = Baseline(None, None, None, method, first.policy_class, first.method_detail)
+                continue
+            figures = [[f for f in (b.success_rate, b.mean_return, b.mean_length) if f is not None] for b in known]
+            success, returns, length = (_mean_figure([row[i] for row in figures]) for i in range(3))
+            out[name] = Baseline(success, returns, length, method, first.policy_class, first.method_detail)
         return out
 
-    def statistics(self) -> dict[str, Any]:
-        """Memory gap, recall distance and step-limit slack over the variants."""
-        recall = [d for r in self.reports for d in r.recall.values() if d is not None]
-        gaps = [r.memory_gap for r in self.reports]
-        slack = [r.slack for r in self.reports]
+    def statistics(self) -> StatisticsJSON:
+        """Memory gap and step-limit slack over the variants."""
+        gaps = [r.memory_gap.mean for r in self.reports]
+        gap = _spread(gaps)
+        slack = _spread([float(r.slack) for r in self.reports])
+        assert gap is not None and slack is not None
+        return {"memory_gap": {"mean": sum(gaps) / len(gaps), **gap}, "step_limit_slack": slack}
 
-        def spread(values: list[float]) -> dict[str, float] | None:
-            if not values:
-                return None
-            return {"min": min(values), "median": statistics.median(values), "max": max(values)}
+    def details(self) -> dict[str, SpreadJSON | None]:
+        """What only this kind summarises over its variants (a cue task: the recall distance)."""
+        values: dict[str, list[float]] = {}
+        for r in self.reports:
+            for name, numbers in (r.details.spreads() if r.details is not None else {}).items():
+                values.setdefault(name, []).extend(numbers)
+        return {name: _spread(numbers) for name, numbers in values.items()}
 
-        return {"memory_gap": {"mean": sum(gaps) / len(gaps), **spread(gaps)},
-                "recall_distance": spread(recall), "step_limit_slack": spread(slack)}
-
-    def to_dict(self) -> dict[str, Any]:
-        """The `--json` object: ok, averaged baselines, statistics and a row per variant."""
-        return {"ok": self.ok, "spec": self.spec.name, "source": self.source, "min_gap": self.min_gap,
-                "baselines": self.summary(), "statistics": self.statistics(),
+    def to_dict(self) -> RunJSON:
+        """The `--json` object: the same keys for every kind (see :func:`report_schema`)."""
+        return {"kind": kind_of(self.spec).name, "ok": self.ok, "spec": self.spec.name, "source": self.source,
+                "min_gap": self.min_gap, "baselines": {k: b.to_dict() for k, b in self.summary().items()},
+                "statistics": self.statistics(), "details": self.details(),
                 "variants": [r.to_dict() for r in self.reports]}
 
 
-def _mean(values: list[float]) -> float | None:
-    """The mean, or None when no variant has the figure."""
-    return sum(values) / len(values) if values else None
+def report_schema() -> dict[str, Any]:
+    """The JSON Schema (draft 2020-12) of `taskgen check --json`; its ``$defs`` also describe the
+    baselines and figures that manifests record."""
+    schema = TypeAdapter(RunJSON).json_schema(ref_template="#/$defs/{model}")
+    return {"$schema": DIALECT, "title": "taskgen check report",
+            "description": "The output of `taskgen check --json`: one object per run, the same keys for every "
+            "task kind; kind-only data sits under `details`.", **schema}
 
 
-def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0) -> CheckRun:
+def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0,
+              paths: int = SAMPLES) -> CheckRun:
     """Compile and analyse variants ``seed … seed+variants−1``."""
-    reports = []
-    for s in tqdm(range(seed, seed + variants), desc=f"checking {spec.name}", unit="variant",
-                  disable=None if variants > 1 else True, leave=False):
-        reports.append(check_variant(spec, s, min_gap))
+    reports = [check_variant(spec, s, min_gap, paths)
+               for s in tqdm(range(seed, seed + variants), desc=f"checking {spec.name}", unit="variant",
+                             disable=None if variants > 1 else True, leave=False)]
     return CheckRun(source=source, spec=spec, reports=reports, min_gap=min_gap)
 
 
-def _baseline_rows(baselines: dict[str, dict[str, Any]]) -> list[str]:
-    rows = [f"    {'baseline':<10} {'success':>8} {'return':>9}  method"]
-    for name in BASELINE_ORDER:
-        b = baselines[name]
-        if b["success_rate"] is None:
-            rows.append(f"    {name:<10} {'n/a':>8} {'n/a':>9}  {b['method']}")
+def _baseline_rows(baselines: dict[str, Baseline]) -> list[str]:
+    rows = [f"    {'baseline':<10} {'success':>15} {'return':>17}  method"]
+    for name, b in baselines.items():
+        if b.success_rate is None or b.mean_return is None:
+            rows.append(f"    {name:<10} {'n/a':>15} {'n/a':>17}  {b.method}")
         else:
-            rows.append(f"    {name:<10} {b['success_rate']:>8.3f} {b['mean_return']:>9.4f}  {b['method']}")
+            rows.append(f"    {name:<10} {b.success_rate.text(3):>15} {b.mean_return.text(4):>17}  {b.method}")
     return rows
 
 
@@ -112,34 +176,44 @@ def _status(passed: bool | None) -> str:
     return {True: "pass", False: "FAIL", None: "n/a "}[passed]
 
 
+def _hidden_words(report: Report) -> str:
+    hidden = report.hidden
+    if hidden["kind"] == "enumerated":
+        return f"{hidden['count']} {hidden['name']} values, all enumerated: figures are exact expectations"
+    return (f"{hidden['count']} {hidden['name']}s drawn from variant seed {hidden['seed']}: figures are exact on "
+            "each and shown as mean ± standard error")
+
+
 def format_text(run: CheckRun) -> str:
     """A readable table per variant, then the summary and the verdict."""
     lines = [f"{run.source}: {run.spec.name}, {len(run.reports)} variant(s)"]
     for r in run.reports:
         params = " ".join(f"{k}={v}" for k, v in r.params.items())
-        lines += ["", f"  {r.variant_id}  {params}  states={r.num_states}  slack={r.slack}"]
         lay = r.layout
-        lines.append(f"    layout: {lay['cells']} cells, {lay['dead_ends']} dead ends, {lay['loops']} loops, "
-                     f"start to goals {', '.join(map(str, lay['start_to_goal']))} steps")
-        for c in r.checks:
-            lines.append(f"    {_status(c.passed)}  {c.name:<14} {c.reason}")
-        if r.witness:
-            lines += ["    witness: the best memoryless policy's paths for two cue values", r.witness]
-        lines += _baseline_rows({k: b.to_dict() for k, b in r.baselines.items()})
-    summary, stats = run.summary(), run.statistics()
+        goals = f", start to goals {', '.join(map(str, lay['start_to_goal']))} steps" if lay["start_to_goal"] else ""
+        lines += ["", f"  {r.variant_id}  {params}  states={r.num_states}  slack={r.slack}",
+                  f"    layout: {lay['cells']} cells, {lay['dead_ends']} dead ends, {lay['loops']} loops{goals}",
+                  f"    hidden: {_hidden_words(r)}"]
+        lines += [f"    {_status(c.passed)}  {c.name:<14} {c.reason}" for c in r.checks]
+        lines += r.details.text_lines() if r.details is not None else []
+        lines += _baseline_rows(r.baselines)
+    summary, stats, details = run.summary(), run.statistics(), run.details()
     failed = [r.variant_id for r in run.reports if not r.ok]
     lines += ["", f"summary over {len(run.reports)} variant(s) (mean of each variant's figure):"]
     lines += _baseline_rows(summary)
     gap = stats["memory_gap"]
     lines.append(f"    memory gap (optimal − chance): mean {gap['mean']:.4f}, min {gap['min']:.4f}, "
                  f"max {gap['max']:.4f}")
-    for key, label in (("recall_distance", "recall distance"), ("step_limit_slack", "step-limit slack")):
-        s = stats[key]
+    spreads: dict[str, SpreadJSON | None] = {**details, "step_limit_slack": stats["step_limit_slack"]}
+    for key, s in spreads.items():
         if s is not None:
-            lines.append(f"    {label}: min {s['min']}, median {s['median']}, max {s['max']} steps")
-    lines += ["", "  chance    = " + summary["chance"]["policy_class"],
-              "  cue_blind = " + summary["cue_blind"]["policy_class"],
-              "  methods: exact = computed on the compiled model; search lower bound = the best of a "
-              "policy search, each candidate evaluated exactly",
+            lines.append(f"    {key.replace('step_limit', 'step-limit').replace('_', ' ')}: min {s['min']:g}, "
+                         f"median {s['median']:g}, max {s['max']:g} steps")
+    width = max(len(name) for name in summary)
+    lines += [""] + [f"  {name:<{width}} = {b.policy_class}" + (f"; {b.method_detail}" if b.method_detail and
+                                                              b.method != "exact" else "")
+                     for name, b in summary.items()]
+    lines += ["  methods: exact = computed on the compiled model; per path = on each sampled path's model; "
+              "search lower bound = the best of a policy search, each candidate evaluated exactly",
               "", "ok" if run.ok else f"FAILED: {', '.join(failed)}"]
     return "\n".join(lines)

@@ -9,6 +9,12 @@ from pathlib import Path
 
 def write_text_atomic(path: str | os.PathLike[str], text: str) -> Path:
     """Write ``text`` to ``path`` so that readers see the old file or the whole new one, never a part."""
+    return write_bytes_atomic(path, text.encode("utf-8"))
+
+
+def write_bytes_atomic(path: str | os.PathLike[str], data: bytes) -> Path:
+    """Write ``data`` to ``path`` through a temporary file beside it, renamed into place: readers see
+    the old file or the whole new one, never a part (an error or Ctrl-C leaves no temporary file)."""
     target = Path(path)
     target.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
@@ -16,8 +22,8 @@ def write_text_atomic(path: str | os.PathLike[str], text: str) -> Path:
     os.umask(umask)
     try:
         os.chmod(tmp, 0o666 & ~umask)   # an ordinary file, not mkstemp's private 0600
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as handle:
-            handle.write(text)
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
         os.replace(tmp, target)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -21,18 +21,14 @@ import yaml
 from tqdm import tqdm
 
 from .. import __version__
-from ..analysis.fingerprint import field_fingerprint, fingerprint
-from ..envs import resolve_spec
 from ..errors import SpecError, TaskgenError
-from ..generate.maze import count_spanning_trees
-from ..model import compile_field, compile_variant
+from ..factory import resolve_spec
+from ..kinds import compile_variant, kind_of, make_variant
+from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, manifest_text
 from ..spec import Spec
-from ..variant import make_variant
 from .check import check_variant
-from .field_check import check_field_variant
 from .output import write_text_atomic
 
-MANIFEST_FORMAT = 1
 CHUNK = 256              # candidates drawn per round, whatever the worker count
 MAX_REFUSALS = 20        # give up after this many refused candidates per requested variant (plus 1000)
 
@@ -113,61 +109,24 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
 
 
 def family_size(spec: Spec) -> int | None:
-    """How many distinct layouts the spec can produce, where that is countable (else None)."""
-    fields = getattr(spec.layout, "field", None)
-    corridor, maze = getattr(spec.layout, "corridor", None), getattr(spec.layout, "maze", None)
-    if fields is not None:   # an open field's layout is its size and path shape (paths are drawn per episode)
-        if fields.maze is not None:
-            return None
-        return _count(fields.width) * _count(fields.height) * _count(fields.path.turns)
-    if corridor is not None:
-        return _count(corridor.length) * _count(corridor.arm_length)
-    if (maze.generator == "uniform" and maze.braid == 0 and maze.width.fixed and maze.height.fixed
-            and maze.start_cell is not None and maze.goal_cells is not None
-            and not (spec.cue.display == "site" and maze.cue_site == "random")):
-        return count_spanning_trees(maze.height.low, maze.width.low)
-    return None
-
-
-def _count(param: Any) -> int:
-    return len(set(param.choices)) if param.choices is not None else param.high - param.low + 1
+    """How many distinct variants the spec can produce, where that is countable (else None)."""
+    return kind_of(spec).family_size(spec)
 
 
 def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
     """Compile one candidate: its fingerprint and parameter values (runs in a worker)."""
     spec, seed = job
-    variant = make_variant(spec, seed)
-    if spec.layout.family == "field":
-        field = compile_field(variant)
-        return field_fingerprint(field), dict(field.params)
-    model = compile_variant(variant)
-    return fingerprint(model), dict(model.params)
-
-
-def _field_figures(spec: Spec, seed: int) -> dict[str, Any]:
-    """A field variant's figures: means over its sampled paths, with their standard errors."""
-    report = check_field_variant(spec, seed)
-    out: dict[str, Any] = {}
-    for name in ("optimal", "chance", "random"):
-        b = report.baselines[name]
-        out[name] = {"success_rate": b.success_rate.mean, "mean_return": b.mean_return.mean,
-                     "mean_return_se": b.mean_return.standard_error, "method": b.method}
-    out["recall_distance"] = {}
-    out["ok"] = report.ok
-    return out
+    model = compile_variant(make_variant(spec, seed))
+    return kind_of(spec).fingerprint(model), model.param_dict()
 
 
 def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
-    """The analyses of one accepted variant (runs in a worker)."""
+    """The analyses of one accepted variant, in the report's contract (runs in a worker)."""
     spec, seed = job
-    if spec.layout.family == "field":
-        return _field_figures(spec, seed)
     report = check_variant(spec, seed)
-    out = {name: {k: v for k, v in report.baselines[name].to_dict().items() if k in
-                  ("success_rate", "mean_return", "method")} for name in ("optimal", "chance", "random")}
-    out["recall_distance"] = {int(k): v for k, v in report.recall.items()}
-    out["ok"] = report.ok
-    return out
+    return {"baselines": {name: report.baselines[name].to_dict() for name in ("optimal", "chance", "random")},
+            "memory_gap": report.memory_gap.to_dict(), "checks_ok": report.ok,
+            "details": report.details.to_dict() if report.details is not None else {}}
 
 
 @dataclass
@@ -260,12 +219,10 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
         figures = cache[v["fingerprint"]]
         variants.append({"id": f"{spec.name}-s{v['seed']}", "split": slot.split, "index": index,
                          "seed": v["seed"], "overrides": slot.overrides, "params": v["params"],
-                         "fingerprint": v["fingerprint"], "optimal": figures["optimal"],
-                         "chance": figures["chance"], "random": figures["random"],
-                         "recall_distance": figures["recall_distance"], "checks_ok": figures["ok"]})
+                         "fingerprint": v["fingerprint"], **figures})
     spec_data = spec.model_dump(mode="json")
     return {
-        "taskgen_manifest": MANIFEST_FORMAT,
+        MANIFEST_KEY: MANIFEST_FORMAT,
         "taskgen_version": __version__,
         "spec_sha256": spec_hash(spec),
         "spec": spec_data,
@@ -312,29 +269,7 @@ def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteR
         size = family_size(_apply(spec, point, "sweep point"))
         if size is not None and wanted > size:
             raise SuiteError(f"asked for {wanted} unique layouts, but this family has only {size:,} "
-                             f"({_family_words(spec)})")
-
-
-def _family_words(spec: Spec) -> str:
-    maze = getattr(spec.layout, "maze", None)
-    if spec.layout.family == "field":
-        return "one per combination of field width, height and path turns; paths are drawn per episode"
-    if maze is None:
-        return "one per combination of corridor length and arm length"
-    return (f"perfect mazes of {maze.width.low}×{maze.height.low} cells with fixed start and goals: the "
-            "spanning trees of the grid, by the matrix-tree theorem")
-
-
-class _PlainDumper(yaml.SafeDumper):
-    """Writes repeated values in full instead of as YAML anchors and aliases."""
-
-    def ignore_aliases(self, data: Any) -> bool:
-        return True
-
-
-def manifest_text(manifest: dict[str, Any]) -> str:
-    """The manifest as YAML, deterministic for equal content."""
-    return yaml.dump(manifest, Dumper=_PlainDumper, sort_keys=False, allow_unicode=True, width=100)
+                             f"({kind_of(spec).family_words(spec)})")
 
 
 def write_manifest(manifest: dict[str, Any], out_dir: str) -> str:

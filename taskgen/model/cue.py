@@ -1,53 +1,19 @@
-"""Stage 4 of the pipeline: a variant → its finite task model (tables)."""
+"""Compiling a cue task (corridor or maze): every cue value folded into the tables' states."""
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
-from ..generate import MOVE_NAMES
-from ..generate.grid import GridLayout
-
-TURN_NAMES = ("turn_left", "turn_right", "forward")
-HEADING_NAMES = ("north", "east", "south", "west")
-
-
-def poses(layout: GridLayout, turns: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
-    """The agent's poses and how actions move between them.
-
-    Returns (cell of each pose, heading of each pose (−1 without headings), next pose per
-    action [P, A], start pose). With moves a pose is a cell and the actions are the four moves;
-    with turns a pose is (cell, heading), and the actions turn left, turn right or step forward.
-    The start heading is the first open direction of east, south, west, north.
-    """
-    C = layout.num_cells
-    stay = np.arange(C)[:, None]
-    moved = np.where(layout.neighbour >= 0, layout.neighbour, stay)          # [C, 4]
-    if not turns:
-        return np.arange(C), -np.ones(C, dtype=np.int64), moved, layout.start
-    cell, heading = np.divmod(np.arange(4 * C), 4)
-    next_pose = np.stack([cell * 4 + (heading + 3) % 4, cell * 4 + (heading + 1) % 4,
-                          moved[cell, heading] * 4 + heading], axis=1)
-    facing = next((d for d in (1, 2, 3, 0) if layout.neighbour[layout.start, d] >= 0), 1)
-    return cell, heading, next_pose, layout.start * 4 + facing
-from ..variant import Variant
-from .graph import distances_from, reachable
-from .tables import TaskModel
+from ..spec import CueTaskSpec
+from ..variant import Variant, horizon
+from .graph import reachable, shortest_success_steps
+from .hidden import EnumeratedSet
+from .poses import action_names, poses
+from .tables import CueStructure, Tables, TaskModel
 
 
-def shortest_success_steps(next_state: np.ndarray, success: np.ndarray, starts: np.ndarray) -> np.ndarray:
-    """Fewest steps from each start state to a success state (−1 where none is reachable)."""
-    out = []
-    for s in starts:
-        dist = distances_from(next_state, int(s))
-        hits = dist[success & (dist >= 0)]
-        out.append(int(hits.min()) if hits.size else -1)
-    return np.asarray(out, dtype=np.int64)
-
-
-def compile_variant(variant: Variant) -> TaskModel:
-    """Compile a variant into tables over states (cell, timer, progress, cue), keeping the
+def compile_cue(variant: Variant) -> TaskModel:
+    """Compile a cue variant into tables over states (pose, timer, progress, cue), keeping the
     reachable ones.
 
     The hidden variable is the cue: one value, or a sequence of m values (numbered h = Σ v_j·k^j).
@@ -62,26 +28,28 @@ def compile_variant(variant: Variant) -> TaskModel:
     (or, with ``decision.wrong: continue``, leaves p as it is).
     """
     spec, layout = variant.spec, variant.layout
-    if spec.layout.family == "field":
-        raise ValueError(f"{variant.variant_id} is a field variant: compile it with compile_field")
-    k = variant.params["cue_values"]
-    m = spec.cue.sequence_length
+    if not isinstance(spec, CueTaskSpec):
+        raise ValueError(f"{variant.variant_id} is not a cue task")
+    k, m = spec.cue.values, spec.cue.sequence_length
     by_site = spec.cue.display == "site"
-    n = 0 if by_site else variant.params["visible_steps"]
+    n = 0 if by_site else spec.cue.visible_steps
     turns = spec.agent.actions == "turns"
     cell_of, heading_of, pose_next, start_pose = poses(layout, turns)
     C = cell_of.size
     T = 2 if by_site else m * n + 1
     P, K = m + 2, k ** m
     done, failed = m, m + 1
-    site = layout.sites["cue_site"][0] if by_site else -1
+    site = int(layout.sites["cue_site"][0]) if by_site else -1
     goals = layout.sites["goal"]
     rewards, decision = spec.rewards, spec.decision
     digits = (np.arange(K)[:, None] // k ** np.arange(m)[None, :]) % k      # [K, m] sequence of each h
 
     q, t, p, h = (a.ravel() for a in np.meshgrid(np.arange(C), np.arange(T), np.arange(P), np.arange(K),
                                                  indexing="ij"))
-    index = lambda q_, t_, p_, h_: ((q_ * T + t_) * P + p_) * K + h_  # noqa: E731
+
+    def index(q_: np.ndarray, t_: np.ndarray, p_: np.ndarray, h_: np.ndarray) -> np.ndarray:
+        return ((q_ * T + t_) * P + p_) * K + h_
+
     full = index(q, t, p, h)
     c = cell_of[q]
     ends_here = p >= done
@@ -105,7 +73,8 @@ def compile_variant(variant: Variant) -> TaskModel:
     reward = np.where(ends_here[:, None], 0.0, reward)
 
     start_timer = int(by_site and layout.start == site)
-    start_states = index(start_pose, start_timer, 0, np.arange(K))
+    start_states = index(np.full(K, start_pose), np.full(K, start_timer), np.zeros(K, dtype=np.int64),
+                         np.arange(K))
     keep = reachable(nxt, start_states)
     new_index = -np.ones(full.size, dtype=np.int64)
     new_index[keep] = np.arange(int(keep.sum()))
@@ -140,22 +109,20 @@ def compile_variant(variant: Variant) -> TaskModel:
     prior = np.full(K, 1.0 / K)
     initial = np.zeros(next_state.shape[0])
     initial[new_index[start_states]] = prior
-
-    horizon = spec.episode.max_steps
-    if horizon == "auto":
+    longest = 0
+    if spec.episode.max_steps == "auto":    # the longest shortest solution over the cue values
         shortest = shortest_success_steps(next_state, success, new_index[start_states])
         solvable = shortest[shortest >= 0]   # an unsolvable cue is reported by the analyses
         longest = int(solvable.max()) if solvable.size else 1
-        horizon = max(1, math.ceil(spec.episode.max_steps_factor * longest))
-
+    limit = horizon(spec.episode, longest)
+    S = next_state.shape[0]
+    tables = Tables(next_state=next_state, reward=reward[keep], terminal=terminal, success=success,
+                    initial=initial, value=h, local=np.arange(S), cell=c, heading=heading,
+                    obs_key=obs_key.ravel())
+    cue = CueStructure(values=k, sequence_length=m, visible_steps=n, key_value=keys[:, 2].copy(), window=shown,
+                       known=known, knowledge=knowledge, blind_state=blind_state.ravel(), timer=t)
     return TaskModel(
-        next_state=next_state, reward=reward[keep], terminal=terminal, success=success,
-        initial=initial, hidden=h, blind_state=blind_state.ravel(), cell=c, heading=heading, timer=t,
-        obs_key=obs_key.ravel(), key_cell=keys[:, 0].copy(), key_heading=keys[:, 1].copy(),
-        key_cue=keys[:, 2].copy(),
-        hidden_values=K, cue_values=k, hidden_prior=prior, cue_visible_steps=n, cue_window=shown, cue_known=known,
-        knowledge=knowledge,
-        horizon=int(horizon), discount=spec.episode.discount, timeout_reward=rewards.timeout,
-        layout=layout, action_names=TURN_NAMES if turns else MOVE_NAMES, variant_id=variant.variant_id,
-        params={**variant.params, "max_steps": int(horizon)},
-    )
+        kind="cue", variant_id=variant.variant_id, params=variant.params, layout=layout,
+        action_names=action_names(turns), horizon=limit, discount=spec.episode.discount,
+        timeout_reward=rewards.timeout, key_cell=keys[:, 0].copy(), key_heading=keys[:, 1].copy(),
+        hidden=EnumeratedSet(prior, "cue"), source=tables, cue=cue)

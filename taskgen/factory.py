@@ -1,4 +1,4 @@
-"""Build environments from a spec, a spec file or a bundled spec name; register bundled specs."""
+"""Build environments from a spec, a spec file, a bundled spec name or a manifest; register bundled specs."""
 
 from __future__ import annotations
 
@@ -9,24 +9,20 @@ from typing import Any, Sequence
 import gymnasium as gym
 import yaml
 
-from ..model import FieldModel, TaskModel, compile_field, compile_variant
-from ..render import observation_set
-from ..render.field import MarkOverlay, field_observation_set
-from ..render.observations import ObservationSet
-from ..spec import Spec, load_spec, load_spec_text
-from ..spec.schema import SPEC_TYPES
-from ..variant import make_variant
-from .field import FieldEnv, FieldVectorEnv
-from .single import TaskEnv
-from .split import ManifestError, SplitEnv, entry_model, is_manifest, load_manifest, manifest_variants, split_entries
-from .vector import TaskVectorEnv
+from .envs import TaskEnv, TaskVectorEnv
+from .kinds import compile_variant, kind_of, make_variant
+from .manifest import ManifestError, entry_model, is_manifest, load_manifest, split_entries, split_variants
+from .model import TaskModel
+from .render import ObservationSet
+from .spec import Spec, load_spec, load_spec_text
+from .spec.schema import SPEC_TYPES
 
 NAMESPACE = "taskgen"
 
 
 def bundled_specs() -> dict[str, Path]:
     """The example specs shipped with taskgen, by spec file stem."""
-    package = Path(__file__).resolve().parents[1]
+    package = Path(__file__).resolve().parent
     folder = package / "_specs"            # an installed copy
     if not folder.is_dir():
         folder = package.parent / "specs"  # a source checkout
@@ -50,19 +46,16 @@ def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) 
 
 
 def build_model(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
-                **overrides: Any) -> TaskModel | FieldModel:
-    """Spec → variant (``seed``, default 0) → compiled model, in one call (a FieldModel for a
-    field spec: its dynamics for every path; ``path_model`` gives one path's TaskModel)."""
+                **overrides: Any) -> TaskModel:
+    """Spec → variant (``seed``, default 0) → compiled model, in one call."""
     spec = resolve_spec(spec_or_path, **overrides)
-    variant = make_variant(spec, 0 if seed is None else seed)
-    return compile_field(variant) if spec.layout.family == "field" else compile_variant(variant)
+    return compile_variant(make_variant(spec, 0 if seed is None else seed))
 
 
-def build_field(spec: Spec, seed: int = 0) -> tuple[FieldModel, ObservationSet, MarkOverlay]:
-    """A field spec's variant ``seed`` compiled, with its agent-view tables and mark overlay."""
-    model = compile_field(make_variant(spec, seed))
-    observations, overlay = field_observation_set(model, spec.observation)
-    return model, observations, overlay
+def _built(spec: Spec, seed: int) -> tuple[TaskModel, ObservationSet]:
+    """A variant's model and what its agent sees."""
+    model = compile_variant(make_variant(spec, seed))
+    return model, kind_of(model).observations(model, spec.observation)
 
 
 def _manifest_path(spec_or_path: Any) -> str | None:
@@ -73,7 +66,7 @@ def _manifest_path(spec_or_path: Any) -> str | None:
 
 def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
          render_mode: str | None = None, split: str | None = None, index: int | None = None,
-         **overrides: Any) -> TaskEnv | SplitEnv | FieldEnv:
+         **overrides: Any) -> TaskEnv:
     """A ``gymnasium.Env`` for one variant of a spec, or from a variant manifest.
 
     ``seed`` names the variant (its sampled parameters and layout; None means variant 0);
@@ -81,8 +74,8 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
     with ``__`` between keys: ``make("specs/x.yaml", layout__corridor__length=12)``.
 
     With a manifest (``taskgen variants``): ``make(manifest, split="test", index=3)`` is that
-    listed variant (its fingerprint checked), and ``make(manifest, split="train")`` is a
-    ``SplitEnv`` that draws a variant of the split at every reset.
+    listed variant (its fingerprint checked), and ``make(manifest, split="train")`` draws a
+    variant of the split at every reset.
     """
     manifest_path = _manifest_path(spec_or_path)
     if manifest_path is not None:
@@ -91,33 +84,31 @@ def make(spec_or_path: Spec | str | os.PathLike[str], seed: int | None = None,
         if seed is not None or overrides:
             raise ManifestError("a manifest fixes seeds and parameters: give split= and index= only")
         if index is None:
-            return SplitEnv(manifest_variants(manifest_path, split), render_mode=render_mode)
+            spec, variants = split_variants(manifest_path, split)
+            return TaskEnv(kind_of(spec).core(variants, 1, draw=True), render_mode=render_mode)
         manifest = load_manifest(manifest_path)
         entries = split_entries(manifest, split, manifest_path)
         if not 0 <= index < len(entries):
             raise ManifestError(f"{manifest_path}: split {split!r} has {len(entries)} variants, no index {index}")
         spec, model = entry_model(manifest, entries[index], manifest_path)
-        if isinstance(model, FieldModel):
-            return FieldEnv(model, *field_observation_set(model, spec.observation), render_mode=render_mode)
-        return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
+        kind = kind_of(spec)
+        return TaskEnv(kind.core([(model, kind.observations(model, spec.observation))], 1), render_mode=render_mode)
     if split is not None or index is not None:
         raise ManifestError("split= and index= need a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
-    if spec.layout.family == "field":
-        return FieldEnv(*build_field(spec, 0 if seed is None else seed), render_mode=render_mode)
-    model = compile_variant(make_variant(spec, 0 if seed is None else seed))
-    return TaskEnv(model, observation_set(model, spec.observation), render_mode=render_mode)
+    return TaskEnv(kind_of(spec).core([_built(spec, 0 if seed is None else seed)], 1), render_mode=render_mode)
 
 
 def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: int | None = None,
              variants: Sequence[int] | None = None, render_mode: str | None = None, split: str | None = None,
-             **overrides: Any) -> TaskVectorEnv | FieldVectorEnv:
+             **overrides: Any) -> TaskVectorEnv:
     """A ``gymnasium.vector.VectorEnv`` of ``num_envs`` environments stepped together in numpy.
 
     All environments hold the variant ``seed`` (None: variant 0), or environment i holds variant
-    ``variants[i]`` (one batch across many layouts). Episodes are seeded through
-    ``reset(seed=...)`` as in gymnasium's vector envs: an int gives env i the seed ``seed + i``.
-    With a manifest and ``split=``, every environment draws a variant of the split at each reset.
+    ``variants[i]`` (one batch across many layouts, for kinds whose batches may mix variants).
+    Episodes are seeded through ``reset(seed=...)`` as in gymnasium's vector envs: an int gives
+    env i the seed ``seed + i``. With a manifest and ``split=``, every environment draws a
+    variant of the split at each reset.
     """
     if not isinstance(num_envs, int) or num_envs < 1:
         raise ValueError(f"num_envs must be an integer ≥ 1, got {num_envs!r}")
@@ -125,8 +116,8 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     if manifest_path is not None:
         if split is None or seed is not None or variants is not None or overrides:
             raise ManifestError(f"{manifest_path}: with a manifest give split= only")
-        return TaskVectorEnv(manifest_variants(manifest_path, split), render_mode=render_mode,
-                             num_envs=num_envs, draw_variants=True)
+        spec, pool = split_variants(manifest_path, split)
+        return TaskVectorEnv(kind_of(spec).core(pool, num_envs, draw=True), render_mode=render_mode)
     if split is not None:
         raise ManifestError("split= needs a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
@@ -137,17 +128,15 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, seed: i
     variants = list(variants)
     if len(variants) != num_envs:
         raise ValueError(f"variants must name one variant seed per env: {num_envs} needed, got {len(variants)}")
-    if spec.layout.family == "field":
-        if len(set(variants)) > 1:
-            raise ValueError("a batch of a field spec holds one variant (its paths differ per episode): give "
-                             "seed=, not several variants")
-        return FieldVectorEnv(*build_field(spec, variants[0]), num_envs=num_envs, render_mode=render_mode)
-    built: dict[int, tuple[TaskModel, Any]] = {}
+    kind = kind_of(spec)
+    if not kind.pools and len(set(variants)) > 1:
+        raise ValueError(f"a batch of a {kind.name} spec holds one variant (its hidden values differ per episode): "
+                         "give seed=, not several variants")
+    built: dict[int, tuple[TaskModel, ObservationSet]] = {}
     for v in variants:
         if v not in built:
-            model = compile_variant(make_variant(spec, v))
-            built[v] = (model, observation_set(model, spec.observation))
-    return TaskVectorEnv([built[v] for v in variants], render_mode=render_mode)
+            built[v] = _built(spec, v)
+    return TaskVectorEnv(kind.core([built[v] for v in variants], num_envs), render_mode=render_mode)
 
 
 def register_bundled() -> list[str]:
@@ -156,8 +145,8 @@ def register_bundled() -> list[str]:
     for stem, path in bundled_specs().items():
         env_id = f"{NAMESPACE}/{stem}-v0"
         if env_id not in gym.registry:
-            gym.register(id=env_id, entry_point="taskgen.envs.factory:make",
-                         vector_entry_point="taskgen.envs.factory:make_vec",
+            gym.register(id=env_id, entry_point="taskgen.factory:make",
+                         vector_entry_point="taskgen.factory:make_vec",
                          kwargs={"spec_or_path": str(path)}, disable_env_checker=False)
         ids.append(env_id)
     return ids

@@ -1,10 +1,8 @@
-"""Observations of a hidden-path field: the agent's view (never the path) and a ground truth.
+"""A field's observations: the agent's view (never the path), and its feedback marks laid over per step.
 
-The agent-view tables are rendered from ``FieldModel.view_model()``, a model that holds no
-path, one row per cell. Feedback marks change from step to step, so they are laid over the
-gathered rows by :class:`MarkOverlay`, the same way in the single and the batched runtime.
-The ground-truth picture (:meth:`FieldPictures.truth`) draws the path and is for galleries and
-debugging only: no runtime puts it in an observation.
+The view tables are rendered from the field's model, whose observation keys are its cells and
+hold no path, one row per cell. Feedback marks change from step to step, so they are laid over
+the gathered rows by :class:`MarkOverlay`, the same way in the single and the batched runtime.
 """
 
 from __future__ import annotations
@@ -12,15 +10,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from PIL import Image, ImageDraw
 
-from ..model import FieldModel
-from ..model.field import GOAL, OFF
+from ..model import TaskModel
 from ..spec.schema import Observation
-from .observations import ObservationSet
-from .palette import AGENT, FLOOR, MARK, PATH, PATH_END
 from .grid import GRID_CHANNELS, grid_table
-from .topdown import TopDownRenderer, pixel_table, tile_boxes
+from .observations import ObservationSet
+from .palette import FLOOR, MARK
+from .topdown import pixel_table, tile_boxes
 from .vector import VectorLayout, vector_layout
 
 
@@ -90,17 +86,20 @@ def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
     return out
 
 
-def field_observation_set(model: FieldModel, spec: Observation) -> tuple[ObservationSet, MarkOverlay]:
-    """Every modality of ``spec`` for every cell of a field, with the overlay of its marks."""
-    view = model.view_model()
+def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
+    """Every modality of ``spec`` for every cell of a field (its observation keys are its cells, and
+    hold no path), with the overlay of its marks."""
+    rule = model.paths
+    if rule is None:
+        raise ValueError(f"{model.variant_id} is not a model of hidden paths")
     vector = block = None
     if spec.vector is not None:
-        plain = vector_layout(view, spec.vector.model_copy(update={"cue": False, "goals": False, "noise": None}))
+        plain = vector_layout(model, spec.vector.model_copy(update={"noise": None}))
         blocks, table = dict(plain.blocks), plain.table
-        if spec.vector.marks and model.mark_steps > 0:
-            block = slice(table.shape[1], table.shape[1] + model.num_cells)
+        if spec.vector.marks and rule.mark_steps > 0:
+            block = slice(table.shape[1], table.shape[1] + rule.num_cells)
             blocks["marks"] = block
-            table = np.concatenate([table, np.zeros((table.shape[0], model.num_cells), dtype=np.float32)], axis=1)
+            table = np.concatenate([table, np.zeros((table.shape[0], rule.num_cells), dtype=np.float32)], axis=1)
         noise = spec.vector.noise
         if noise is not None:
             blocks["noise"] = slice(table.shape[1], table.shape[1] + noise.bits)
@@ -108,80 +107,23 @@ def field_observation_set(model: FieldModel, spec: Observation) -> tuple[Observa
                               flip_probability=noise.flip_probability if noise else 0.0)
     grid = None
     if spec.grid is not None:   # north-up (fields have no headings), plus the mark channel
-        plain = grid_table(view, spec.grid.size)
+        plain = grid_table(model, spec.grid.size)
         grid = np.concatenate([plain, np.zeros(plain.shape[:3] + (1,), dtype=np.uint8)], axis=3)
     pixels = tiles = floor = None
     window = 0
     if spec.pixels is not None:
         p = spec.pixels
-        pixels = pixel_table(view, p.height, p.width, p.view, p.window)
-        if model.mark_steps > 0:
-            tiles = _tile_pixels(tile_boxes(view, p.height, p.width, p.view, p.window), p.width)
+        pixels = pixel_table(model, p.height, p.width, p.view, p.window)
+        if rule.mark_steps > 0:
+            tiles = _tile_pixels(tile_boxes(model, p.height, p.width, p.view, p.window), p.width)
             window = p.window if p.view == "window" else 0
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
-    obs = ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0,
-                         decoy_probability=spec.distractors.decoy_probability)
-    marks = model.mark_steps > 0
+    marks = rule.mark_steps > 0
     beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
                         or (spec.grid is not None and spec.grid.size >= 3))
-    return obs, MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
-                            grid=spec.grid.size if marks and spec.grid is not None else 0,
-                            neighbours_seen=beside, colour=model.mark_colour)
-
-
-def marks_seen(overlay: MarkOverlay) -> bool:
-    """True when some modality shows the agent the marks on the cells beside it."""
-    return overlay.neighbours_seen
-
-
-def view_classes(obs: ObservationSet, overlay: MarkOverlay) -> np.ndarray:
-    """int[C]: cells numbered by what the agent sees there, marks and noise excluded (equal
-    numbers: the agent cannot tell the cells apart)."""
-    rows = []
-    for name, (table, blocks) in obs.tables().items():
-        keep = np.ones(table.shape[1], dtype=bool)
-        if name == "vector" and overlay.block is not None:
-            keep[overlay.block] = False
-        rows.append(np.asarray(table, dtype=np.float64)[:, keep])
-    _, classes = np.unique(np.concatenate(rows, axis=1), axis=0, return_inverse=True)
-    return classes.ravel()
-
-
-class FieldPictures:
-    """Larger top-down pictures of a field for people (render(), galleries): the agent's view
-    (agent and marks) or the ground truth (the path and its end drawn as well)."""
-
-    def __init__(self, model: FieldModel, cell_px: int = 12) -> None:
-        self.model = model
-        self.renderer = TopDownRenderer(model.view_model(), cell_px)
-        self.px = cell_px
-
-    def _cell_box(self, cell: int, inset: int) -> tuple[int, int, int, int]:
-        r, c = self.model.layout.cells[cell]
-        left, top, right, bottom = self.renderer.box(int(r), int(c))
-        return left + inset, top + inset, right - inset, bottom - inset
-
-    def agent(self, agent_cell: int, marked: np.ndarray) -> np.ndarray:
-        """uint8[H, W, 3]: what the agent's view shows, drawn larger: no path."""
-        return self._draw(None, agent_cell, marked)
-
-    def truth(self, kind: np.ndarray, agent_cell: int, marked: np.ndarray) -> np.ndarray:
-        """uint8[H, W, 3]: the ground truth, path and its end included (never an observation)."""
-        return self._draw(kind, agent_cell, marked)
-
-    def _draw(self, kind: np.ndarray | None, agent_cell: int, marked: np.ndarray) -> np.ndarray:
-        image = Image.fromarray(self.renderer.background.copy())
-        draw = ImageDraw.Draw(image)
-        inset = max(1, self.px // 6)
-        if kind is not None:
-            for cell in np.flatnonzero(kind != OFF):
-                draw.rectangle(self._cell_box(int(cell), inset), fill=PATH_END if kind[cell] == GOAL else PATH)
-        for cell in np.flatnonzero(marked):
-            if kind is None:
-                draw.rectangle(self._cell_box(int(cell), inset), fill=self.model.mark_colour)
-            else:   # an outline, so the path under a mark stays visible
-                draw.rectangle(self._cell_box(int(cell), inset), outline=self.model.mark_colour,
-                               width=max(1, self.px // 5))
-        draw.ellipse(self._cell_box(agent_cell, max(1, self.px // 4)), fill=AGENT)
-        return np.asarray(image, dtype=np.uint8)
+    overlay = MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
+                          grid=spec.grid.size if marks and spec.grid is not None else 0,
+                          neighbours_seen=bool(beside), colour=rule.mark_colour)
+    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0,
+                          decoy_probability=spec.distractors.decoy_probability, marks=overlay)

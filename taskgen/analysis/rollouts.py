@@ -1,8 +1,8 @@
-"""Policies rolled out on many hidden paths at once, exactly.
+"""Policies rolled out on many hidden paths at once, exactly, and the memoryless search built on them.
 
 On one path the dynamics are deterministic, so a deterministic policy (with or without
 memory) has one trajectory, and one rollout gives its exact return. :func:`roll` plays K paths
-side by side in numpy; the memoryless search and the explorer are built on it.
+side by side in numpy; the memoryless search here and the explorer (explorer.py) are built on it.
 """
 
 from __future__ import annotations
@@ -13,13 +13,11 @@ from typing import Callable
 
 import numpy as np
 
-from ..model import FieldModel
-from ..model.field import Outcome
-from .leaks import TOLERANCE
+from ..model import PathRule
+from ..model.paths import Outcome
+from .report import TOLERANCE
 
 SEARCH_EVALUATIONS = 600      # candidate policies the chance search evaluates at most
-EXPLORER_CLASS = ("remembers where it fell, where it has been and the moves that took it on (memory, not "
-                  "the path): retraces those moves, else tries forward, sideways and back, new cells first")
 
 
 Act = Callable[[int, np.ndarray, np.ndarray, np.ndarray], np.ndarray]
@@ -36,7 +34,7 @@ class Rollouts:
     visited: np.ndarray     # bool[classes]: observation classes a memoryless policy met on some path
 
 
-def roll(model: FieldModel, kind: np.ndarray, start: np.ndarray, act: Act, observe: Observe | None = None,
+def roll(model: PathRule, kind: np.ndarray, start: np.ndarray, act: Act, observe: Observe | None = None,
          visited: np.ndarray | None = None) -> Rollouts:
     """Play a deterministic policy on K paths (``kind`` [K, C], ``start`` [K]) until each ends
     or times out. ``act(t, cell, marked, live)`` gives the K actions at step t from the agents'
@@ -78,7 +76,7 @@ class MemorylessRollout:
     is ``view_class · 16 + mark bits``.
     """
 
-    def __init__(self, model: FieldModel, kind: np.ndarray, start: np.ndarray, view_class: np.ndarray,
+    def __init__(self, model: PathRule, kind: np.ndarray, start: np.ndarray, view_class: np.ndarray,
                  marks_seen: bool) -> None:
         self.model, self.kind, self.start = model, kind, start
         self.view_class = np.asarray(view_class, dtype=np.int64)
@@ -159,73 +157,3 @@ def best_memoryless_paths(rollout: MemorylessRollout, budget: int = SEARCH_EVALU
         if current.returns.mean() > best.returns.mean() + TOLERANCE:
             best, best_policy = current, policy
     return best_policy, best, used
-
-
-
-
-def _directions(model: FieldModel) -> tuple[int, int, int]:
-    """Actions (forward, along +across, along −across) in the field's canonical frame."""
-    return {"south": (0, 1, 3), "north": (2, 1, 3), "west": (1, 2, 0), "east": (3, 2, 0)}[model.frame.start_side]
-
-
-class Explorer:
-    """A simple agent with memory, for K paths at once: a depth-first search of the safe cells.
-
-    It remembers the cells it fell into, the cells it has stood on, the cells it has searched
-    out (no new safe cell beside them), and, for each cell it left for a new one, the move that
-    took it there. Where it knows such a move and it does not lead to a searched-out cell, it
-    takes it again (so after a fall it walks straight back to where it got to); elsewhere it
-    tries, in this order, forward (toward the far side), sideways in the direction it last went,
-    sideways the other way and back, taking the first move to a cell it has neither stood on nor
-    fallen into. With none left the cell is searched out and it steps back to a safe cell that is
-    not. A reference for what memory alone buys, below the agent that knows the path."""
-
-    def __init__(self, model: FieldModel, paths: int) -> None:
-        self.model = model
-        self.forward, self.plus, self.minus = _directions(model)
-        self.back = {0: 2, 2: 0, 1: 3, 3: 1}[self.forward]
-        C = model.num_cells
-        self.known_off = np.zeros((paths, C), dtype=bool)
-        self.visited = np.zeros((paths, C), dtype=bool)
-        self.route = -np.ones((paths, C), dtype=np.int64)   # the move that left each cell for a new one
-        self.done = np.zeros((paths, C), dtype=bool)         # searched out: no new safe cell beside it
-        self.side = np.ones(paths, dtype=bool)               # True: last went along +across
-        self.rows = np.arange(paths)
-        self.aim = model.aim[:C]                             # where each move from each cell aims
-
-    def act(self, t: int, cell: np.ndarray, marked: np.ndarray, live: np.ndarray) -> np.ndarray:
-        """The K actions at step t (marks are not needed: it remembers its falls itself)."""
-        rows = self.rows
-        self.visited[rows, cell] = True
-        along = np.where(self.side, self.plus, self.minus)
-        other = np.where(self.side, self.minus, self.plus)
-        order = np.stack([np.full_like(cell, self.forward), along, other, np.full_like(cell, self.back)], axis=1)
-        target = self.aim[cell[:, None], order]                            # [K, 4]
-        safe = (target != cell[:, None]) & ~self.known_off[rows[:, None], target]
-        fresh = safe & ~self.visited[rows[:, None], target]
-        known = self.route[rows, cell]
-        follow = (known >= 0) & ~self.done[rows, self.aim[cell, np.maximum(known, 0)]]
-        stuck = ~follow & ~fresh.any(axis=1)
-        self.done[rows[stuck], cell[stuck]] = True
-        back = safe & ~self.done[rows[:, None], target]
-        pick = np.where(fresh.any(axis=1), np.argmax(fresh, axis=1),
-                        np.where(back.any(axis=1), np.argmax(back, axis=1), np.argmax(safe, axis=1)))
-        return np.where(follow, known, order[rows, pick])
-
-    def observe(self, cell: np.ndarray, action: np.ndarray, out: Outcome, live: np.ndarray) -> None:
-        """Remember falls, and the move that reached a new cell."""
-        rows = self.rows
-        fell = out.fell & live
-        self.known_off[rows[fell], out.aim[fell]] = True
-        arrived = self.model.state_cell[out.next_state]
-        new = live & ~out.fell & (arrived != cell) & ~self.visited[rows, arrived]
-        self.route[rows[new], cell[new]] = action[new]
-        self.visited[rows[new], arrived[new]] = True
-        sideways = new & ((action == self.plus) | (action == self.minus))
-        self.side = np.where(sideways, action == self.plus, self.side)
-
-
-def explore(model: FieldModel, kind: np.ndarray, start: np.ndarray) -> Rollouts:
-    """Exact figures of the :class:`Explorer` on each path."""
-    explorer = Explorer(model, start.shape[0])
-    return roll(model, kind, start, explorer.act, explorer.observe)

@@ -1,0 +1,138 @@
+"""The analyses of a hidden-path field: exact on each sampled path, summarised over the sample.
+
+The path is the hidden value drawn at every reset, and there are far too many to list, so a
+field's model covers a sample of K paths drawn from the variant seed (its hidden set is sampled)
+and every figure is exact on each path and reported as the sample mean with its standard error.
+
+- optimal: an agent that knows the path (backward induction);
+- random: uniform-random actions (exact policy evaluation), with its expected falls;
+- explorer: a simple agent with memory that does not know the path: a depth-first search of
+  the safe cells that remembers where it fell, where it has been and the way it got there
+  (its deterministic rollout on each path is exact): a reference for what memory alone buys;
+- chance: the best deterministic memoryless policy found by a search. It acts on what it sees
+  now: the agent-view observation class of its cell and, when marks are shown to the agent,
+  which of the four cells beside it carry a mark. On one path, the dynamics and such a policy
+  are deterministic, so one rollout gives its exact return; the search keeps the best policy
+  over the sampled paths. It is a lower bound on the best memoryless score (a policy reading
+  marks farther away, or acting at random, can do better). The search chooses its policy on the
+  same paths it reports, which can only raise the figure: the memory gap it gives is conservative.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .. import limits
+from ..errors import AnalysisError
+from ..generate.paths import OFF
+from ..model import PathRule, PathSample, SampledSet, TaskModel
+from .baselines import RANDOM_CLASS, optimal_policy, per_value, policy_figures, shortest_steps
+from .dp import Objective, uniform_policy
+from .explorer import EXPLORER_CLASS, explore
+from .report import Baseline, Check, Figure, Report, layout_statistics, memory_gap, memory_gap_check
+from .rollouts import MemorylessRollout, best_memoryless_paths
+
+FIELD_OPTIMAL_CLASS = "knows the path: walks a shortest safe route (sees position and time)"
+FIELD_CHANCE_CLASS = ("memoryless, deterministic: acts on its cell's observation and on the marks of the four "
+                      "cells beside it (noise excluded); stochastic memoryless policies can score higher "
+                      "(Singh, Jaakkola & Jordan, ICML 1994)")
+FIELD_BLIND_CHANCE_CLASS = ("memoryless, deterministic: acts on its cell's observation (noise excluded; no mark "
+                            "beside it is in view); stochastic memoryless policies can score higher "
+                            "(Singh, Jaakkola & Jordan, ICML 1994)")
+
+
+def path_parts(model: TaskModel) -> tuple[PathRule, PathSample]:
+    """A field model's path rule and the paths its tables cover."""
+    sample = model.hidden.sample if isinstance(model.hidden, SampledSet) else None
+    if model.paths is None or not isinstance(sample, PathSample):
+        raise AnalysisError(f"{model.variant_id} is not a model of hidden paths")
+    return model.paths, sample
+
+
+@dataclass(frozen=True)
+class PathDetails:
+    """What only a field reports: the sampled paths' sizes and shortest crossings, and the random
+    agent's expected falls."""
+
+    paths: int
+    path_cells: Figure
+    shortest: Figure
+    random_falls: Figure
+
+    def to_dict(self) -> dict[str, Any]:
+        """``path_cells`` and ``random_falls`` as figures."""
+        return {"path_cells": self.path_cells.to_dict(), "random_falls": self.random_falls.to_dict()}
+
+    def text_lines(self) -> list[str]:
+        """The sample's sizes and the random agent's falls."""
+        s = self.shortest
+        return [f"    {self.paths} sampled paths: {self.path_cells.text(1)} cells, shortest crossing "
+                f"{s.text(1)} steps (min {s.minimum:g}, max {s.maximum:g})",
+                f"    random agent's expected falls: {self.random_falls.text(2)} per episode"]
+
+    def spreads(self) -> dict[str, list[float]]:
+        """The mean shortest crossing of each variant's sampled paths."""
+        return {"shortest_crossing": [self.shortest.mean]}
+
+
+def analyse_paths(model: TaskModel, key_class: np.ndarray, marks_seen: bool, min_gap: float = 0.0) -> Report:
+    """Every figure and check of a field variant over the paths its model covers. ``key_class[k]``
+    numbers what the agent sees at observation key (cell) ``k``, marks and noise excluded;
+    ``marks_seen``: some modality shows it the marks on the cells beside it."""
+    rule, sample = path_parts(model)
+    K = sample.count
+    _check_work(model, K)
+    shortest = shortest_steps(model)
+    optimal, uniform = optimal_policy(model), uniform_policy(model)
+    baselines = {"optimal": policy_figures(model, optimal, FIELD_OPTIMAL_CLASS, "exact per path")}
+    explorer = explore(rule, sample.kind, sample.start)
+    baselines["explorer"] = Baseline.of(model.hidden, explorer.success, explorer.returns, explorer.length,
+                                        "exact per path", EXPLORER_CLASS)
+    rollout = MemorylessRollout(rule, sample.kind, sample.start, key_class, marks_seen)
+    _, chance, used = best_memoryless_paths(rollout)
+    baselines["chance"] = Baseline.of(
+        model.hidden, chance.success, chance.returns, chance.length, "search lower bound",
+        FIELD_CHANCE_CLASS if rollout.marks_seen else FIELD_BLIND_CHANCE_CLASS,
+        f"hill-climbing, {used} policies evaluated exactly on {K} paths")
+    baselines["random"] = policy_figures(model, uniform, RANDOM_CLASS, "exact per path")
+    falls = per_value(model, uniform, Objective(rule.falls(model, sample), 1.0, 0.0))
+    gap = memory_gap(model, per_value(model, optimal), chance.returns, "upper bound (chance is a search lower bound)")
+    checks = [_solvable(shortest, model.horizon, K),
+              memory_gap_check(gap, min_gap, "where it fell", f"mean over {K} paths")]
+    shortest_figure = Figure.over(model.hidden, np.maximum(shortest, 0), "exact per path", "fewest steps to the end")
+    details = PathDetails(K, Figure.over(model.hidden, (sample.kind != OFF).sum(axis=1), "exact per path"),
+                          shortest_figure, Figure.over(model.hidden, falls, "exact per path", RANDOM_CLASS))
+    return Report(
+        kind=model.kind, variant_id=model.variant_id, params=model.param_dict(), num_states=model.num_states,
+        horizon=model.horizon, hidden=model.hidden.to_dict(), shortest=shortest_figure,
+        longest_shortest=int(shortest.max()), baselines=baselines, memory_gap=gap, checks=checks,
+        layout=layout_statistics(model), details=details)
+
+
+def _check_work(model: TaskModel, paths: int) -> None:
+    """Refuse analyses whose dynamic programming over every sampled path would exceed the work cap."""
+    states = model.num_states      # the states reachable on each path, summed (the tables are built here)
+    work = states * model.num_actions * model.horizon
+    cap = limits.current().max_work
+    if work > cap:
+        raise limits.ResourceLimitError(
+            f"{model.variant_id}: {paths} sampled paths need {work:.3g} state-action-steps "
+            f"(≈{states:.3g} reachable states over the paths × {model.num_actions} actions × step limit "
+            f"{model.horizon}), over the cap of {cap:.3g}; analyse fewer paths (--paths) or raise the cap "
+            "with --max-work or TASKGEN_MAX_WORK")
+
+
+def _solvable(shortest: np.ndarray, horizon: int, paths: int) -> Check:
+    """Every sampled path must join start to end within the step limit."""
+    if (shortest < 0).any():
+        i = int(np.flatnonzero(shortest < 0)[0])
+        return Check("solvable", False, f"sampled path {i}: its end cannot be reached from its start")
+    if (shortest > horizon).any():
+        i = int(np.argmax(shortest))
+        return Check("solvable", False, f"sampled path {i}: shortest crossing {int(shortest[i])} steps "
+                     f"exceeds the step limit {horizon}")
+    return Check("solvable", True, f"all {paths} sampled paths crossable; shortest crossing "
+                 f"{int(shortest.min())}–{int(shortest.max())} steps, limit {horizon}")

@@ -1,0 +1,106 @@
+"""The batched core of every runtime: what a task kind implements, under one single-env and one vector shell.
+
+A core holds N environments of one kind as arrays and steps them together: :meth:`Core.begin`
+starts episodes from their keys, :meth:`Core.advance` takes one step, :meth:`Core.observe` and
+:meth:`Core.hidden_infos` read out what the agent sees and what only analyses may read. The
+shells (``TaskEnv``, ``TaskVectorEnv``) own everything else once: render modes, action
+validation, seeding and episode keys, and next-step autoreset.
+
+A single env is a core of one. The one-environment methods (``start_one``, ``step_one``) have
+correct defaults built on the batched ones; a kind may override them with a faster scalar path,
+and the tests that compare a batch with gymnasium's SyncVectorEnv of single envs hold the two
+paths equal.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from typing import Any
+
+import numpy as np
+from gymnasium import spaces
+
+from ..model import TaskModel
+from ..render.observations import ObservationSet, assemble
+
+ROW = np.zeros(1, dtype=np.int64)   # the rows of a core of one
+
+
+class Core(ABC):
+    """N environments of one task kind as arrays, and the one step rule they follow."""
+
+    num_envs: int
+    num_actions: int
+    observations: ObservationSet    # every variant's modalities, blocks and noise (those of the first)
+    blocks: dict[str, slice]        # the vector's named blocks, as wide as the widest variant's
+
+    @property
+    @abstractmethod
+    def models(self) -> list[TaskModel]:
+        """The distinct variants the environments hold (or draw from)."""
+
+    @abstractmethod
+    def single_observation_space(self) -> spaces.Space[Any]:
+        """The observation space of one environment."""
+
+    @abstractmethod
+    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
+        """Start new episodes in environments ``rows`` from their episode keys (uint64, one per row)."""
+
+    @abstractmethod
+    def advance(self, actions: np.ndarray,
+                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """One step of every environment (only ``moving`` ones change): reward, terminated, truncated."""
+
+    @abstractmethod
+    def observe(self) -> dict[str, np.ndarray]:
+        """What every agent sees now, by modality (a batch axis first)."""
+
+    @abstractmethod
+    def hidden_infos(self) -> dict[str, np.ndarray]:
+        """``info["analysis_only"]``: the hidden value and the state of every environment, for
+        analyses only (an agent that reads them is no longer tested on memory)."""
+
+    @abstractmethod
+    def variant_ids(self) -> np.ndarray:
+        """object[N]: the variant each environment plays now."""
+
+    @abstractmethod
+    def steps(self) -> np.ndarray:
+        """int64[N]: steps taken in each environment's episode."""
+
+    @abstractmethod
+    def model_of(self, i: int) -> TaskModel:
+        """The variant environment ``i`` plays now."""
+
+    @abstractmethod
+    def picture(self, i: int) -> np.ndarray:
+        """uint8[H, W, 3]: a top-down picture of what environment i's agent could see, for people."""
+
+    @abstractmethod
+    def ground_truth(self, i: int) -> np.ndarray:
+        """uint8[H, W, 3]: the ground truth of environment i (the hidden value drawn), for people."""
+
+    @abstractmethod
+    def memory_bytes(self) -> dict[str, int]:
+        """Bytes held per environment (state arrays) and shared (tables), for the benchmark."""
+
+    # -- one environment: correct defaults on the batched methods; kinds may override for speed --------
+    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
+        """Start the episode of a core of one whose key is ``key``: its first observation and info."""
+        self.begin(ROW, key)
+        return self.observe_one(), self.info_one()
+
+    def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
+        """One step of a core of one, as ``gymnasium.Env.step`` returns it."""
+        reward, terminated, truncated = self.advance(np.asarray([action], dtype=np.int64))
+        return self.observe_one(), float(reward[0]), bool(terminated[0]), bool(truncated[0]), self.info_one()
+
+    def observe_one(self) -> Any:
+        """The observation of a core of one (an array, or a dict of several modalities)."""
+        return assemble(self.observations, {name: part[0] for name, part in self.observe().items()})
+
+    def info_one(self) -> dict[str, Any]:
+        """The info of a core of one."""
+        hidden = {name: value[0] for name, value in self.hidden_infos().items()}
+        return {"variant_id": str(self.variant_ids()[0]), "step": int(self.steps()[0]), "analysis_only": hidden}

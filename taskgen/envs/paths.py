@@ -1,0 +1,246 @@
+"""The core of tasks whose hidden value is a path drawn per episode (fields).
+
+Every reset draws a new path for the environment from its episode key (purpose ``path``), so
+the same seed gives the same sequence of paths, and N environments draw theirs in one numpy
+call. A step applies ``PathRule.outcome`` to all environments' paths at once, leaves the falls'
+marks, then gathers observation rows and lays the visible marks over them. A single env applies
+the rule once per reset to every state of its path, so that a step is a table lookup.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+import numpy as np
+from gymnasium import spaces
+
+from ..model import PathRule, TaskModel
+from ..render import MarkOverlay, PathPictures
+from ..render.observations import ObservationSet, assemble
+from .core import Core
+from .streams import add_pixel_noise, flip_threshold, flips, noise_init, noise_track, subkeys, uniform
+
+NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
+              "or a split of a field holds one variant")
+
+
+class PathCore(Core):
+    """N environments of one field variant: their states, paths, marks and noise as arrays."""
+
+    def __init__(self, variants: Sequence[tuple[TaskModel, ObservationSet]], num_envs: int,
+                 draw: bool = False) -> None:
+        if draw or len({id(m) for m, _ in variants}) != 1:
+            raise ValueError(NOT_POOLED)
+        model, observations = variants[0]
+        if model.paths is None or observations.marks is None:
+            raise ValueError(f"{model.variant_id} is not a model of hidden paths")
+        self.model, self.rule, self.observations = model, model.paths, observations
+        self.overlay: MarkOverlay = observations.marks
+        self.num_envs, self.num_actions = num_envs, model.num_actions
+        self.blocks = dict(observations.vector.blocks) if observations.vector is not None else {}
+        n, C = num_envs, self.rule.num_cells
+        self.vector = observations.vector
+        self.bits = self.vector.noise_bits if self.vector is not None else 0
+        self.threshold = flip_threshold(self.vector.flip_probability) if self.vector is not None else 0
+        self.state = np.zeros(n, dtype=np.int64)
+        self.step_count = np.zeros(n, dtype=np.int64)
+        self.kind = np.zeros((n, C), dtype=np.int8)
+        self.start = np.zeros(n, dtype=np.int64)
+        self.until = np.zeros((n, C), dtype=np.int64)
+        self.falls = np.zeros(n, dtype=np.int64)
+        self.noise = np.zeros((n, self.bits), dtype=bool)
+        self.flip_keys = np.zeros(n, dtype=np.uint64)
+        self.pixel_keys = np.zeros(n, dtype=np.uint64)
+        self.decoy = observations.decoy_probability
+        self.decoy_keys = np.zeros(n, dtype=np.uint64)
+        self.rows = np.arange(n)
+        self._ids = np.full(n, model.variant_id, dtype=object)
+        self._ids.flags.writeable = False    # shared by every info dict: read-only
+        self._pictures: PathPictures | None = None
+        self._tables: tuple[list[Any], ...] = ()
+        self._noise_track = np.zeros((self.rule.horizon + 1, self.bits), dtype=np.float32)
+        self._vector_only = observations.names == ("vector",) and observations.decoy_probability == 0
+        self._s, self._t = 0, 0            # a single env's state and step, as Python ints
+
+    @property
+    def models(self) -> list[TaskModel]:
+        """The one variant."""
+        return [self.model]
+
+    def single_observation_space(self) -> spaces.Space[Any]:
+        """The space of one environment."""
+        return self.observations.space()
+
+    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
+        """Start the episodes of ``rows`` whose keys are ``keys``: a new path for each."""
+        if not rows.size:
+            return
+        u = uniform(subkeys(keys, "path"), 0, self.rule.draws)
+        kind, start = self.rule.draw(u)
+        self.kind[rows], self.start[rows] = kind, start
+        self.state[rows] = start                        # (start cell, no falls)
+        self.step_count[rows] = 0
+        self.until[rows] = 0
+        self.falls[rows] = 0
+        if self.bits:
+            self.noise[rows] = noise_init(keys, self.bits)
+            self.flip_keys[rows] = subkeys(keys, "noise_flip")
+        if self.observations.pixel_noise is not None:
+            self.pixel_keys[rows] = subkeys(keys, "pixel_noise")
+        if self.decoy > 0:
+            self.decoy_keys[rows] = subkeys(keys, "distractor")
+
+    def shown_marks(self) -> np.ndarray:
+        """bool[N, C]: the marks each agent sees now: its falls' marks and, with decoys, this
+        step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
+        marked = self.until > self.step_count[:, None]
+        if self.decoy > 0:
+            draws = uniform(self.decoy_keys, self.step_count, 2)
+            show = np.flatnonzero(draws[:, 0] < self.decoy)
+            if show.size:
+                C = self.rule.num_cells
+                cell = self.rule.state_cell[self.state[show]]
+                other = np.minimum((draws[show, 1] * (C - 1)).astype(np.int64), C - 2)
+                marked[show, other + (other >= cell)] = True        # every cell but the agent's
+        return marked
+
+    def advance(self, actions: np.ndarray,
+                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """One step of every environment (only ``moving`` ones change): reward, terminated, truncated."""
+        rule = self.rule
+        out = rule.outcome(self.state, actions, self.kind, self.start)
+        step = self.step_count + 1
+        truncated = (step >= rule.horizon) & ~out.terminal
+        reward = out.reward + truncated * rule.timeout_reward
+        fell = out.fell
+        if moving is not None:
+            fell = fell & moving
+            self.state = np.where(moving, out.next_state, self.state)
+            self.step_count = np.where(moving, step, self.step_count)
+        else:
+            self.state, self.step_count = out.next_state, step
+        self.falls += fell
+        rule.mark_after(self.until, fell, out.aim, self.rows, self.step_count)
+        if self.bits:
+            flipped = flips(self.flip_keys, step, self.bits, self.threshold)
+            if moving is not None:
+                flipped &= moving[:, None]
+            self.noise ^= flipped
+        return reward, out.terminal, truncated
+
+    def observe(self) -> dict[str, np.ndarray]:
+        """Observations of every environment: gathered rows, marks laid over, then noise."""
+        cell = self.rule.state_cell[self.state]
+        parts: dict[str, np.ndarray] = {}
+        if self.vector is not None:
+            width = self.vector.table.shape[1]
+            out = np.empty((self.num_envs, width + self.bits), dtype=np.float32)
+            out[:, :width] = self.vector.table[cell]
+            out[:, width:] = self.noise
+            parts["vector"] = out
+        if self.observations.grid is not None:
+            parts["grid"] = self.observations.grid[cell]
+        if self.observations.pixels is not None:
+            parts["pixels"] = self.observations.pixels[cell]
+        self.overlay.apply(parts, cell, self.shown_marks())
+        if "pixels" in parts and self.observations.pixel_noise is not None:
+            kind, amplitude = self.observations.pixel_noise
+            parts["pixels"] = add_pixel_noise(parts["pixels"], self.pixel_keys, self.step_count, kind, amplitude)
+        return parts
+
+    def hidden_infos(self) -> dict[str, np.ndarray]:
+        """Each environment's path (int8 per cell: 0 off, 1 on, 2 its end), its start cell, the
+        state and the falls so far."""
+        return {"path": self.kind.copy(), "start": self.start.copy(), "state": self.state.copy(),
+                "falls": self.falls.copy()}
+
+    def variant_ids(self) -> np.ndarray:
+        """The one variant's id, for every environment."""
+        return self._ids
+
+    def steps(self) -> np.ndarray:
+        """Steps taken in each episode."""
+        return self.step_count
+
+    def model_of(self, i: int) -> TaskModel:
+        """The one variant."""
+        return self.model
+
+    def _pictures_now(self) -> PathPictures:
+        if self._pictures is None:
+            self._pictures = PathPictures(self.model)
+        return self._pictures
+
+    def picture(self, i: int) -> np.ndarray:
+        """What environment i's agent could see, drawn larger: the agent and its marks, no path."""
+        cell = int(self.rule.state_cell[self.state[i]])
+        return self._pictures_now().agent(cell, self.shown_marks()[i])
+
+    def ground_truth(self, i: int) -> np.ndarray:
+        """The ground truth of environment i, with its path drawn (never an observation)."""
+        cell = int(self.rule.state_cell[self.state[i]])
+        return self._pictures_now().truth(self.kind[i], cell, self.shown_marks()[i])
+
+    def memory_bytes(self) -> dict[str, int]:
+        """Bytes held per environment (state, path, marks, keys) and shared (tables)."""
+        per_env = [self.state, self.step_count, self.kind, self.start, self.until, self.falls, self.noise,
+                   self.flip_keys, self.pixel_keys]
+        rule, obs = self.rule, self.observations
+        shared = [rule.aim, rule.move_next, rule.fall_next, rule.state_cell, rule.state_out]
+        shared += [t for t in (obs.vector.table if obs.vector is not None else None, obs.pixels) if t is not None]
+        if self.overlay.tiles is not None:
+            shared.append(self.overlay.tiles)
+        return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
+
+    # -- one environment: the rule applied once per episode to every state of its path ---------------
+    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
+        """Draw the episode's path; tabulate its moves so that a step is a lookup."""
+        rule = self.rule
+        self.begin(np.zeros(1, dtype=np.int64), key)
+        S, A = rule.num_states, rule.num_actions
+        state, action = np.divmod(np.arange(S * A), A)
+        out = rule.outcome(state, action, self.kind, self.start, np.zeros(S * A, dtype=np.int64))
+        self._tables = tuple(a.reshape(S, A).tolist() for a in (out.next_state, out.reward, out.fell, out.aim,
+                                                                 out.terminal))
+        if self.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
+            assert self.vector is not None
+            self._noise_track = noise_track(key, self.bits, self.vector.flip_probability,
+                                            rule.horizon)[0].astype(np.float32)
+        self._s, self._t = int(self.state[0]), 0
+        return self._observe_scalar(), self._info_scalar()
+
+    def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
+        """Move on the hidden path; truncate at the step limit."""
+        nxt, pay, fell, aim, ends = self._tables
+        s = self._s
+        self._s = state = nxt[s][action]
+        reward = pay[s][action]
+        self._t = step = self._t + 1
+        self.state[0], self.step_count[0] = state, step
+        if fell[s][action]:
+            self.falls[0] += 1
+            if self.rule.mark_steps:
+                self.until[0, aim[s][action]] = self.rule.mark_until(step)
+        terminated = ends[s][action]
+        truncated = not terminated and step >= self.rule.horizon
+        if truncated:
+            reward += self.rule.timeout_reward
+        if self.bits and not self._vector_only:
+            self.noise[0] = self._noise_track[min(step, self.rule.horizon)] > 0.5
+        return self._observe_scalar(), reward, terminated, truncated, self._info_scalar()
+
+    def _observe_scalar(self) -> Any:
+        if not self._vector_only or self.vector is None:
+            return assemble(self.observations, {k: v[0] for k, v in self.observe().items()})
+        step = self._t
+        out = self.vector.table[self.rule.state_cell[self._s]].copy()     # the common case, kept short
+        if self.overlay.block is not None:
+            out[self.overlay.block] = self.until[0] > step
+        if self.bits:
+            out = np.concatenate((out, self._noise_track[min(step, self.rule.horizon)]))
+        return out
+
+    def _info_scalar(self) -> dict[str, Any]:
+        return {"variant_id": self.model.variant_id, "step": self._t,
+                "analysis_only": {"path": self.kind[0].copy(), "start": int(self.start[0]),
+                                  "state": self._s, "falls": int(self.falls[0])}}

@@ -1,0 +1,393 @@
+"""The core of tasks whose every hidden value is in the model's tables (the cue tasks).
+
+The variants' tables are stacked into one global state space (each variant's states shifted by
+an offset), so a step for all N environments is ``next_state[state, action]``,
+``reward[state, action]``, ``terminal[next]`` and one gather of observation rows. A reset draws
+the hidden value from the prior (and, for a pool, the environment's variant) from the episode's
+counter-based streams, which is what makes a batch equal to N single envs given the same seeds
+and actions. A single env takes a scalar path through the same tables.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+from gymnasium import spaces
+
+from ..model import TaskModel
+from ..render import TopDownRenderer, cue_truth
+from ..render.observations import ObservationSet, assemble
+from ..render.vector import common_blocks, padded_table
+from .core import Core
+from .distractors import apply_distractors
+from .streams import (add_pixel_noise, categorical, flip_threshold, flips, noise_init, noise_track, subkeys,
+                      uniform)
+
+
+@dataclass(frozen=True, eq=False)
+class _PerVariant:
+    """What differs between the stacked variants, one row per variant."""
+
+    state_offset: np.ndarray    # int64[V]
+    flip: np.ndarray            # float64[V]: noise flip probability
+    threshold: np.ndarray       # uint64[V]
+    horizon: np.ndarray         # int64[V]
+    timeout: np.ndarray         # float64[V]
+    starts: np.ndarray          # int64[V, W]: global start states, padded with the last
+    cumulative: np.ndarray      # float64[V, W]: cumulative start probabilities, padded with 1
+    tile_count: np.ndarray      # int64[V]
+    tile_offset: np.ndarray     # int64[V]
+    variant_ids: np.ndarray     # object[V]
+
+
+class TableCore(Core):
+    """N environments stepping stacked tables (autoreset is the shell's).
+
+    ``variants[i]`` is the (model, observation set) of environment i; environments may share a
+    variant or each hold their own. With ``draw``, ``variants`` is a pool (a split) and each of
+    ``num_envs`` environments draws its variant from it at every reset. When variants' vector
+    blocks differ in width, each block is zero-padded at its end to the widest.
+    """
+
+    def __init__(self, variants: Sequence[tuple[TaskModel, ObservationSet]], num_envs: int,
+                 draw: bool = False) -> None:
+        if not variants:
+            raise ValueError("a batch needs at least one environment")
+        if not draw and len(variants) != num_envs:
+            raise ValueError(f"{num_envs} environments need {num_envs} variants, got {len(variants)}")
+        self.num_envs, self._draw = num_envs, draw
+        unique: dict[int, int] = {}
+        models: list[TaskModel] = []
+        sets: list[ObservationSet] = []
+        env_variant = np.zeros(num_envs, dtype=np.int64)
+        for i, (model, obs) in enumerate(variants):
+            if id(model) not in unique or draw:
+                unique[id(model)] = len(models)
+                models.append(model)
+                sets.append(obs)
+            if not draw:
+                env_variant[i] = unique[id(model)]
+        vectors = [o.vector for o in sets]
+        if len({m.num_actions for m in models}) != 1 or len({o.names for o in sets}) != 1 or \
+                len({v.noise_bits if v is not None else 0 for v in vectors}) != 1:
+            raise ValueError("every variant of a batch must have the same actions, modalities and noise bits")
+        self._models = models
+        self.observations = sets[0]
+        self.num_actions = models[0].num_actions
+        self.env_variant = env_variant
+        self._has_vector = vectors[0] is not None
+        self.blocks = common_blocks([v for v in vectors if v is not None]) if self._has_vector else {}
+        self._stack(models, sets)
+        N = num_envs
+        self._flip = np.zeros(N)
+        self._threshold = np.zeros(N, dtype=np.uint64)
+        self._horizon = np.zeros(N, dtype=np.int64)
+        self._timeout = np.zeros(N)
+        self._starts = np.zeros((N, self._per.starts.shape[1]), dtype=np.int64)
+        self._cumulative = np.ones((N, self._per.cumulative.shape[1]))
+        self._tile_count = np.zeros(N, dtype=np.int64)
+        self._tile_offset = np.zeros(N, dtype=np.int64)
+        self._ids = np.empty(N, dtype=object)
+        self._assign_rows(np.arange(N), env_variant)
+        self.state = self._starts[np.arange(N), 0].copy()
+        self.step_count = np.zeros(N, dtype=np.int64)
+        self.noise = np.zeros((N, self._bits), dtype=bool)
+        self._flip_keys = np.zeros(N, dtype=np.uint64)
+        self._pixel_keys = np.zeros(N, dtype=np.uint64)
+        self._distractor_keys = np.zeros(N, dtype=np.uint64)
+        self._distracted = self.observations.decoy_probability > 0 or self.observations.lure_probability > 0
+        self._renderers: dict[int, TopDownRenderer] = {}
+        self._one: _OneEpisode | None = None
+
+    @property
+    def models(self) -> list[TaskModel]:
+        """The distinct variants, in the order environments (or draws) number them."""
+        return self._models
+
+    def _stack(self, models: list[TaskModel], sets: list[ObservationSet]) -> None:
+        """Stack the variants' tables into one global state space."""
+        state_off = np.cumsum([0] + [m.num_states for m in models])
+        key_off = np.cumsum([0] + [m.num_keys for m in models])
+        self._next = np.concatenate([m.next_state + o for m, o in zip(models, state_off)])
+        self._reward = np.concatenate([m.reward for m in models])
+        self._next_flat, self._reward_flat = self._next.ravel(), self._reward.ravel()
+        self._terminal = np.concatenate([m.terminal for m in models])
+        self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
+        self._hidden = np.concatenate([m.value for m in models])
+        self._local = np.concatenate([m.local for m in models])
+        if self._has_vector:
+            self._table = np.concatenate([padded_table(o.vector, self.blocks) for o in sets if o.vector is not None])
+        else:
+            self._table = np.zeros((int(key_off[-1]), 0), dtype=np.float32)
+        self._width = self._table.shape[1]
+        self._grid = np.concatenate([o.grid for o in sets if o.grid is not None]) if sets[0].grid is not None else None
+        self._pixels = np.concatenate([o.pixels for o in sets if o.pixels is not None]) \
+            if sets[0].pixels is not None else None
+        self._first_person = np.concatenate([o.first_person for o in sets if o.first_person is not None]) \
+            if sets[0].first_person is not None else None
+        first = sets[0].vector
+        self._bits = first.noise_bits if first is not None else 0
+        self._key_cue = np.concatenate([m.shown_cue() for m in models])
+        tiles = [o.lure_tiles if o.lure_tiles is not None else np.zeros((1, 4), dtype=np.int64) for o in sets]
+        self._tiles = np.concatenate(tiles)
+        tile_count = np.array([t.shape[0] for t in tiles])
+        width = max(m.initial_states().size for m in models)
+        starts = np.zeros((len(models), width), dtype=np.int64)
+        cumulative = np.ones((len(models), width))
+        for j, (m, o) in enumerate(zip(models, state_off)):
+            s = m.initial_states()
+            starts[j, :] = s[-1] + o
+            starts[j, :s.size] = s + o
+            cumulative[j, :s.size] = np.cumsum(m.initial[s])
+        flip = np.array([o.vector.flip_probability if o.vector is not None else 0.0 for o in sets])
+        self._per = _PerVariant(
+            state_offset=state_off[:-1], flip=flip,
+            threshold=np.array([flip_threshold(p) for p in flip], dtype=np.uint64),
+            horizon=np.array([m.horizon for m in models]), timeout=np.array([m.timeout_reward for m in models]),
+            starts=starts, cumulative=cumulative, tile_count=tile_count,
+            tile_offset=np.cumsum([0] + list(tile_count))[:-1],
+            variant_ids=np.array([m.variant_id for m in models], dtype=object))
+        self._timeout_any = bool(self._per.timeout.any())
+        self._every_id = self._per.variant_ids[self.env_variant]
+        self._every_id.flags.writeable = False   # shared by every info dict while no env draws: read-only
+
+    def _assign_rows(self, rows: np.ndarray, chosen: np.ndarray) -> None:
+        """Give environments ``rows`` the per-variant values of variants ``chosen`` (copied per
+        environment, so that a step reads them without a gather by variant)."""
+        per = self._per
+        self.env_variant[rows] = chosen
+        self._flip[rows] = per.flip[chosen]
+        self._threshold[rows] = per.threshold[chosen]
+        self._horizon[rows] = per.horizon[chosen]
+        self._timeout[rows] = per.timeout[chosen]
+        self._starts[rows] = per.starts[chosen]
+        self._cumulative[rows] = per.cumulative[chosen]
+        self._tile_count[rows] = per.tile_count[chosen]
+        self._tile_offset[rows] = per.tile_offset[chosen]
+        self._ids[rows] = per.variant_ids[chosen]
+
+    # -- the batch ------------------------------------------------------------------------------------
+    def single_observation_space(self) -> spaces.Space[Any]:
+        """The space of one environment (its vector as wide as the common blocks)."""
+        parts = self.observations.spaces()
+        if self._has_vector:
+            size = max((b.stop for b in self.blocks.values()), default=0)
+            parts["vector"] = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
+        return next(iter(parts.values())) if len(parts) == 1 else spaces.Dict(parts)
+
+    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
+        """Start new episodes: a variant (pools), the cue, the noise bits and the per-step keys."""
+        if not rows.size:
+            return
+        if self._draw:    # a new variant from the pool
+            count = len(self._models)
+            chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
+            self._assign_rows(rows, chosen)
+        pick = categorical(uniform(subkeys(keys, "cue")), self._cumulative[rows])
+        self.state[rows] = self._starts[rows, pick]
+        self.step_count[rows] = 0
+        if self._bits:
+            self.noise[rows] = noise_init(keys, self._bits)
+            self._flip_keys[rows] = subkeys(keys, "noise_flip")
+        if self.observations.pixel_noise is not None:
+            self._pixel_keys[rows] = subkeys(keys, "pixel_noise")
+        if self._distracted:
+            self._distractor_keys[rows] = subkeys(keys, "distractor")
+
+    def advance(self, actions: np.ndarray,
+                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Gathers of next state, reward and terminal; noise flips; only ``moving`` rows change."""
+        s = self.state
+        flat = s * self.num_actions + actions
+        next_state = self._next_flat[flat]
+        reward = self._reward_flat[flat]
+        step = self.step_count + 1
+        terminated = self._terminal[next_state]
+        truncated = (step >= self._horizon) & ~terminated
+        if self._timeout_any:
+            reward += truncated * self._timeout
+        if self._bits:
+            flipped = flips(self._flip_keys, step, self._bits, self._threshold)
+            if moving is not None:
+                flipped &= moving[:, None]
+            self.noise ^= flipped
+        if moving is not None:
+            self.state = np.where(moving, next_state, s)
+            self.step_count = np.where(moving, step, self.step_count)
+        else:
+            self.state, self.step_count = next_state, step
+        return reward, terminated, truncated
+
+    def observe(self) -> dict[str, np.ndarray]:
+        """Gathered rows of every modality, noise bits appended, pixel noise and distractors laid over."""
+        keys = self._obs_key[self.state]
+        parts: dict[str, np.ndarray] = {}
+        if self._has_vector:
+            if self._bits:   # one output array; the bool bits are cast as they are copied in
+                out = np.empty((self.num_envs, self._width + self._bits), dtype=np.float32)
+                out[:, :self._width] = self._table[keys]
+                out[:, self._width:] = self.noise
+                parts["vector"] = out
+            else:
+                parts["vector"] = self._table[keys]
+        if self._grid is not None:
+            parts["grid"] = self._grid[keys]
+        if self._pixels is not None:
+            frames = self._pixels[keys]
+            if self.observations.pixel_noise is not None:
+                kind, amplitude = self.observations.pixel_noise
+                frames = add_pixel_noise(frames, self._pixel_keys, self.step_count, kind, amplitude)
+            parts["pixels"] = frames
+        if self._first_person is not None:
+            parts["first_person"] = self._first_person[keys]
+        if self._distracted:
+            apply_distractors(self.observations, parts, self._distractor_keys, self.step_count,
+                              self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
+        return parts
+
+    def hidden_infos(self) -> dict[str, np.ndarray]:
+        """The cue and the model state (numbered within the environment's variant)."""
+        return {"cue": self._hidden[self.state], "state": self._local[self.state]}
+
+    def variant_ids(self) -> np.ndarray:
+        """The variant each environment plays (a fresh copy while environments draw variants)."""
+        return self._ids.copy() if self._draw else self._every_id
+
+    def steps(self) -> np.ndarray:
+        """Steps taken in each episode."""
+        return self.step_count
+
+    def model_of(self, i: int) -> TaskModel:
+        """Environment i's current variant."""
+        j = self._one.variant if self._one is not None and i == 0 else int(self.env_variant[i])
+        return self._models[j]
+
+    def _local_state(self, i: int) -> int:
+        state = self._one.state if self._one is not None and i == 0 else int(self.state[i])
+        return int(self._local[state])
+
+    def _renderer(self, j: int) -> TopDownRenderer:
+        if j not in self._renderers:
+            self._renderers[j] = TopDownRenderer(self._models[j])
+        return self._renderers[j]
+
+    def picture(self, i: int) -> np.ndarray:
+        """The top-down picture of what environment i's observation key shows."""
+        model = self.model_of(i)
+        renderer = self._renderer(self._models.index(model))
+        return renderer.frame(int(model.obs_key[self._local_state(i)]))
+
+    def ground_truth(self, i: int) -> np.ndarray:
+        """The whole map, the true cue and the goals it names, outlined."""
+        model = self.model_of(i)
+        return cue_truth(self._renderer(self._models.index(model)), model, self._local_state(i))
+
+    def memory_bytes(self) -> dict[str, int]:
+        """Bytes of the per-environment rows and of the stacked tables."""
+        per_env = [self.state, self.step_count, self.noise, self._flip_keys, self._starts, self._cumulative,
+                   self._threshold, self._horizon, self._timeout, self.env_variant]
+        shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
+        shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]
+        return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
+
+    # -- one environment: a scalar path through the same tables ---------------------------------------
+    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
+        """Draw the variant (pools) and the cue from ``key``; the episode's noise bits all at once."""
+        self._lists()
+        j = 0
+        if self._draw:
+            count = len(self._models)
+            j = min(int(uniform(subkeys(key, "variant"))[0] * count), count - 1)
+        elif self.num_envs == 1:
+            j = int(self.env_variant[0])
+        per = self._per
+        starts, cumulative = per.starts[j:j + 1], per.cumulative[j:j + 1]
+        state = int(starts[0, categorical(uniform(subkeys(key, "cue")), cumulative)[0]])
+        one = _OneEpisode(variant=j, state=state, step=0,
+                          horizon=int(per.horizon[j]), timeout=float(per.timeout[j]))
+        if self._bits:    # the whole episode's noise bits at once: one numpy call per reset
+            one.noise = noise_track(key, self._bits, float(per.flip[j]), one.horizon)[0].astype(np.float32)
+        if self.observations.pixel_noise is not None:
+            one.pixel_key = subkeys(key, "pixel_noise")
+        if self._distracted:
+            one.distractor_key = subkeys(key, "distractor")
+        self._one = one
+        return self._observe_scalar(), self._info_scalar()
+
+    def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
+        """Move by the tables; truncate at the step limit."""
+        one, (nxt, pay, ends) = self._one, self._as_lists
+        if one is None:
+            raise RuntimeError("call reset before step")
+        s = one.state
+        one.state = nxt[s][action]
+        reward = pay[s][action]
+        one.step += 1
+        terminated = ends[one.state]
+        truncated = not terminated and one.step >= one.horizon
+        if truncated:
+            reward += one.timeout
+        return self._observe_scalar(), reward, terminated, truncated, self._info_scalar()
+
+    def _lists(self) -> tuple[list[Any], list[Any], list[Any]]:
+        """The tables as Python lists (indexing them is far cheaper than numpy scalars), made once."""
+        if not hasattr(self, "_as_lists"):
+            self._as_lists = (self._next.tolist(), self._reward.tolist(), self._terminal.tolist())
+            self._one_hidden = self._hidden.tolist()
+            self._one_local = self._local.tolist()
+            self._one_keys = self._obs_key.tolist()
+            self._one_rows = self._table[self._obs_key] if self._has_vector else None
+            self._vector_only = self.observations.names == ("vector",) and not self._distracted
+        return self._as_lists
+
+    def _observe_scalar(self) -> Any:
+        one = self._one
+        assert one is not None
+        rows = self._one_rows
+        if self._vector_only and rows is not None:   # the common case, kept short: it runs on every step
+            if self._bits:
+                return np.concatenate((rows[one.state], one.noise[min(one.step, one.horizon)]))
+            return rows[one.state].copy()
+        parts: dict[str, np.ndarray] = {}
+        if rows is not None:
+            parts["vector"] = (np.concatenate((rows[one.state], one.noise[min(one.step, one.horizon)]))
+                               if self._bits else rows[one.state].copy())
+        key = self._one_keys[one.state]
+        if self._grid is not None:
+            parts["grid"] = self._grid[key].copy()
+        if self._pixels is not None:
+            frame = self._pixels[key]
+            if self.observations.pixel_noise is not None:
+                kind, amplitude = self.observations.pixel_noise
+                frame = add_pixel_noise(frame[None], one.pixel_key, one.step, kind, amplitude)[0]
+            parts["pixels"] = frame.copy()
+        if self._first_person is not None:
+            parts["first_person"] = self._first_person[key].copy()
+        if self._distracted:
+            j = one.variant
+            apply_distractors(self.observations, {k: v[None] for k, v in parts.items()}, one.distractor_key,
+                              np.array([one.step]), np.array([self._key_cue[key] >= 0]),
+                              self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1], self._tiles)
+        return assemble(self.observations, parts)
+
+    def _info_scalar(self) -> dict[str, Any]:
+        one = self._one
+        assert one is not None
+        return {"variant_id": self._per.variant_ids[one.variant], "step": one.step,
+                "analysis_only": {"cue": self._one_hidden[one.state], "state": self._one_local[one.state]}}
+
+
+@dataclass
+class _OneEpisode:
+    """The scalar state of a single env's episode."""
+
+    variant: int
+    state: int              # global state
+    step: int
+    horizon: int
+    timeout: float
+    noise: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=np.float32))
+    pixel_key: np.ndarray = field(default_factory=lambda: np.zeros(1, dtype=np.uint64))
+    distractor_key: np.ndarray = field(default_factory=lambda: np.zeros(1, dtype=np.uint64))
