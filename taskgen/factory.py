@@ -14,8 +14,7 @@ from .kinds import compile_variant, kind_of, make_variant
 from .manifest import ManifestError, entry_model, is_manifest, load_manifest, split_entries, split_variants
 from .model import TaskModel
 from .render import ObservationSet
-from .spec import Spec, load_spec, load_spec_text
-from .spec.schema import SPEC_TYPES
+from .spec import CueTaskSpec, FieldSpec, Spec, load_spec, load_spec_text
 
 NAMESPACE = "taskgen"
 
@@ -31,7 +30,7 @@ def bundled_specs() -> dict[str, Path]:
 
 def resolve_spec(spec_or_path: Spec | str | os.PathLike[str], **overrides: Any) -> Spec:
     """A Spec as given, or loaded from a path or a bundled spec's name."""
-    if isinstance(spec_or_path, SPEC_TYPES):
+    if isinstance(spec_or_path, (CueTaskSpec, FieldSpec)):
         if overrides:  # re-validate with the overrides applied
             return load_spec_text(yaml.safe_dump(spec_or_path.model_dump(mode="json")),
                                   f"<spec {spec_or_path.name}>", **overrides)

@@ -48,7 +48,7 @@ def current() -> Limits:
 
 
 @contextmanager
-def raised(max_work: int | None = None, max_bytes: int | None = None) -> Iterator[Limits]:
+def raised(max_work: float | None = None, max_bytes: float | None = None) -> Iterator[Limits]:
     """Temporarily replace caps (None keeps a cap as it is)."""
     global _current
     before = _current

@@ -184,7 +184,7 @@ def decision_steps(model: TaskModel, policy: np.ndarray | None = None) -> dict[i
     decided: dict[int, int | None] = {}
     for i, c in enumerate(cues):
         others = np.delete(blind, i, axis=1)
-        apart = np.flatnonzero((blind[1:, i:i + 1] != others[1:]).all(axis=1)) if others.size else []
+        apart = np.flatnonzero((blind[1:, i:i + 1] != others[1:]).all(axis=1)) if others.size else np.zeros(0)
         decided[int(c)] = int(apart[0]) if len(apart) else None
     return decided
 
@@ -201,7 +201,7 @@ def recall_distances(model: TaskModel, policy: np.ndarray | None = None) -> dict
     shown = _cue(model).window[paths]
     out: dict[int, int | None] = {}
     for i, (c, t) in enumerate(zip(cues, decision_steps(model, policy).values())):
-        seen = np.flatnonzero(shown[: t + 1, i]) if t is not None else []
+        seen = np.flatnonzero(shown[: t + 1, i]) if t is not None else np.zeros(0, dtype=np.int64)
         out[int(c)] = int(t - seen[-1]) if len(seen) else None
     return out
 

@@ -169,8 +169,7 @@ def _best_pair(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: 
     """The best change of two observations' actions at once: it crosses plateaus where one
     change alone is worthless (say, 'wait here' only pays together with 'wait there')."""
     A, evaluated = model.num_actions, 0
-    a1, a2 = np.meshgrid(np.arange(A), np.arange(A), indexing="ij")
-    a1, a2 = a1.ravel(), a2.ravel()
+    a1, a2 = (grid.ravel() for grid in np.meshgrid(np.arange(A), np.arange(A), indexing="ij"))
     for i, o1 in enumerate(active[:-1]):
         others = active[i + 1:]
         candidates = np.repeat(policy[None, :], others.size * a1.size, axis=0)

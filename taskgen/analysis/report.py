@@ -110,8 +110,8 @@ class Baseline:
     def of(cls, hidden: HiddenSet, success: np.ndarray, returns: np.ndarray, length: np.ndarray, method: str,
            policy_class: str, method_detail: str = "") -> "Baseline":
         """A baseline from per-value success, return and length."""
-        figures = [Figure.over(hidden, v, method, policy_class) for v in (success, returns, length)]
-        return cls(*figures, method, policy_class, method_detail)
+        return cls(Figure.over(hidden, success, method, policy_class), Figure.over(hidden, returns, method, policy_class),
+                   Figure.over(hidden, length, method, policy_class), method, policy_class, method_detail)
 
     @property
     def available(self) -> bool:

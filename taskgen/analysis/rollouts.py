@@ -111,8 +111,8 @@ def _seed_policies(rollout: MemorylessRollout) -> list[np.ndarray]:
     seeds = [np.full(rollout.classes, a, dtype=np.int64) for a in range(A)]
     if rollout.marks_seen:
         bits = (np.arange(16)[:, None] >> np.arange(4)[None, :]) & 1          # [pattern, move]
-        for order in itertools.permutations(range(A)):
-            order = np.asarray(order)
+        for permutation in itertools.permutations(range(A)):
+            order = np.asarray(permutation)
             free = bits[:, order] == 0
             choice = np.where(free.any(axis=1), order[np.argmax(free, axis=1)], order[0])
             seeds.append(np.tile(choice, views))

@@ -183,10 +183,10 @@ class PathCore(Core):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes held per environment (state, path, marks, keys) and shared (tables)."""
-        per_env = [self.state, self.step_count, self.kind, self.start, self.until, self.falls, self.noise,
-                   self.flip_keys, self.pixel_keys]
+        per_env: list[np.ndarray] = [self.state, self.step_count, self.kind, self.start, self.until, self.falls,
+                                     self.noise, self.flip_keys, self.pixel_keys]
         rule, obs = self.rule, self.observations
-        shared = [rule.aim, rule.move_next, rule.fall_next, rule.state_cell, rule.state_out]
+        shared: list[np.ndarray] = [rule.aim, rule.move_next, rule.fall_next, rule.state_cell, rule.state_out]
         shared += [t for t in (obs.vector.table if obs.vector is not None else None, obs.pixels) if t is not None]
         if self.overlay.tiles is not None:
             shared.append(self.overlay.tiles)

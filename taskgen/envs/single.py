@@ -22,7 +22,7 @@ def check_render_mode(render_mode: str | None) -> None:
         raise ValueError(f"render_mode must be one of {RENDER_MODES} or None, got {render_mode!r}")
 
 
-class TaskEnv(gym.Env[Any, int]):
+class TaskEnv(gym.Env[Any, Any]):
     """A compiled task as a ``gymnasium.Env``.
 
     Actions are ``Discrete(4)`` moves north, east, south, west, or with turns ``Discrete(3)``.
@@ -75,7 +75,7 @@ class TaskEnv(gym.Env[Any, int]):
             raise ValueError(f"action must be an integer in [0, {self._num_actions}), got {action!r}")
         return self.core.step_one(int(action))
 
-    def render(self) -> np.ndarray | None:  # type: ignore[override]
+    def render(self) -> np.ndarray | None:
         """A top-down picture of what the agent could see (``render_mode="rgb_array"``); never the path."""
         if self.render_mode is None:
             return None

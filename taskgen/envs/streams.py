@@ -65,9 +65,11 @@ def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.
     fresh = np.zeros(n, dtype=bool)
     for i, s in enumerate(seeds):   # once per reset call, not per step
         if s is not None or not seeded[i]:
-            if s is not None or generators[i] is None:
-                generators[i], _ = seeding.np_random(s)
-            streams[i] = stream_from(generators[i])
+            generator = generators[i]
+            if s is not None or generator is None:
+                generator, _ = seeding.np_random(s)
+                generators[i] = generator
+            streams[i] = stream_from(generator)
             seeded[i] = fresh[i] = True
     episodes = np.where(fresh, 0, episodes + 1)
     return episodes, episode_keys(streams, episodes)

@@ -171,7 +171,7 @@ class TableCore(Core):
     # -- the batch ------------------------------------------------------------------------------------
     def single_observation_space(self) -> spaces.Space[Any]:
         """The space of one environment (its vector as wide as the common blocks)."""
-        parts = self.observations.spaces()
+        parts: dict[str, spaces.Space[Any]] = self.observations.spaces()
         if self._has_vector:
             size = max((b.stop for b in self.blocks.values()), default=0)
             parts["vector"] = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)

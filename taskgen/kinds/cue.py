@@ -164,16 +164,16 @@ def _count(param: IntParam) -> int:
 class CueKind:
     """Corridors and mazes: every cue value is in the model's tables (an enumerated hidden set)."""
 
-    name = "cue"
-    layouts = ("corridor", "maze")
-    modalities = ("vector", "grid", "pixels", "first_person")
-    pools = True
-    policies = {
+    name: str = "cue"
+    layouts: tuple[str, ...] = ("corridor", "maze")
+    modalities: tuple[str, ...] = ("vector", "grid", "pixels", "first_person")
+    pools: bool = True
+    policies: dict[str, str] = {
         "optimal": "the optimal agent, which knows the hidden cue (an analysis policy, not a learner)",
         "random": "uniform-random actions",
         "chance": "the best memoryless policy found (acts on the current observation only)",
     }
-    legend = ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
+    legend: str = ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
               "cue and the goal it names, outlined).")
 
     def draw(self, spec: Spec, seed: int) -> Variant:

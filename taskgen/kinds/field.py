@@ -151,17 +151,17 @@ def _rule(model: TaskModel) -> PathRule:
 class FieldKind:
     """Fields: a model covers a sample of paths drawn from the variant seed (a sampled hidden set)."""
 
-    name = "field"
-    layouts = ("field",)
-    modalities = ("vector", "grid", "pixels")
-    pools = False
-    policies = {
+    name: str = "field"
+    layouts: tuple[str, ...] = ("field",)
+    modalities: tuple[str, ...] = ("vector", "grid", "pixels")
+    pools: bool = False
+    policies: dict[str, str] = {
         "explorer": "the explorer, which remembers where it fell but does not know the path",
         "optimal": "the optimal agent, which knows the hidden path (an analysis policy, not a learner)",
         "random": "uniform-random actions",
         "chance": "the best memoryless policy found (acts on the current observation only)",
     }
-    legend = ("Each frame: the agent's view (left: the agent and its marks, never the path) and the ground "
+    legend: str = ("Each frame: the agent's view (left: the agent and its marks, never the path) and the ground "
               "truth (right: the hidden path in green, its end in yellow, marks outlined).")
 
     def draw(self, spec: Spec, seed: int) -> Variant:

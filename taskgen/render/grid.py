@@ -38,9 +38,9 @@ def grid_table(model: TaskModel, size: int, egocentric: bool = False) -> np.ndar
     out[:, half, half, 7] = np.where(model.key_heading >= 0, model.key_heading + 1, 1)   # heading + 1
     if egocentric:   # turn each window so the agent's heading is up, wall bits turning with it
         for heading in range(4):
-            rows = np.flatnonzero(model.key_heading == heading)
-            turned = np.rot90(out[rows], k=heading, axes=(1, 2)).copy()
+            facing = np.flatnonzero(model.key_heading == heading)
+            turned = np.rot90(out[facing], k=heading, axes=(1, 2)).copy()
             walls = turned[..., 1:5].copy()
             turned[..., 1:5] = walls[..., [(heading + d) % 4 for d in range(4)]]
-            out[rows] = turned
+            out[facing] = turned
     return out

@@ -69,6 +69,7 @@ class MarkOverlay:
         frames = parts["pixels"]
         n, h, w, _ = frames.shape
         pixels = self.tiles[tile]                                            # [pairs, P]
+        assert self.floor is not None       # pixels come with their floor masks
         paint = self.floor[agent_cell[env][:, None], pixels]
         where = env[:, None] * (h * w) + pixels
         frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(self.colour, dtype=np.uint8)
@@ -92,7 +93,8 @@ def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
     rule = model.paths
     if rule is None:
         raise ValueError(f"{model.variant_id} is not a model of hidden paths")
-    vector = block = None
+    vector: VectorLayout | None = None
+    block: slice | None = None
     if spec.vector is not None:
         plain = vector_layout(model, spec.vector.model_copy(update={"noise": None}))
         blocks, table = dict(plain.blocks), plain.table
@@ -107,8 +109,8 @@ def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
                               flip_probability=noise.flip_probability if noise else 0.0)
     grid = None
     if spec.grid is not None:   # north-up (fields have no headings), plus the mark channel
-        plain = grid_table(model, spec.grid.size)
-        grid = np.concatenate([plain, np.zeros(plain.shape[:3] + (1,), dtype=np.uint8)], axis=3)
+        view = grid_table(model, spec.grid.size)
+        grid = np.concatenate([view, np.zeros(view.shape[:3] + (1,), dtype=np.uint8)], axis=3)
     pixels = tiles = floor = None
     window = 0
     if spec.pixels is not None:
@@ -118,12 +120,12 @@ def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
             tiles = _tile_pixels(tile_boxes(model, p.height, p.width, p.view, p.window), p.width)
             window = p.window if p.view == "window" else 0
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
-    noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
+    pixel_noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
     marks = rule.mark_steps > 0
     beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
                         or (spec.grid is not None and spec.grid.size >= 3))
     overlay = MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
                           grid=spec.grid.size if marks and spec.grid is not None else 0,
                           neighbours_seen=bool(beside), colour=rule.mark_colour)
-    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, cue_values=0,
+    return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, pixel_noise, cue_values=0,
                           decoy_probability=spec.distractors.decoy_probability, marks=overlay)

@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from gymnasium import spaces
+from gymnasium.spaces import Space
 
 from ..limits import check_bytes
 from ..model import TaskModel
@@ -45,9 +46,9 @@ class ObservationSet:
         """True when the agent gets one modality (a Box), False for several (a Dict)."""
         return len(self.names) == 1
 
-    def spaces(self) -> dict[str, spaces.Box]:
+    def spaces(self) -> dict[str, Space[Any]]:
         """The space of each modality."""
-        out: dict[str, spaces.Box] = {}
+        out: dict[str, Space[Any]] = {}
         if self.vector is not None:
             out["vector"] = spaces.Box(0.0, 1.0, shape=(self.vector.size,), dtype=np.float32)
         if self.grid is not None:
@@ -62,7 +63,7 @@ class ObservationSet:
                 out[name] = spaces.Box(0, 255, shape=table.shape[1:], dtype=np.uint8)
         return out
 
-    def space(self) -> spaces.Space:
+    def space(self) -> Space[Any]:
         """The observation space of a single env."""
         parts = self.spaces()
         return next(iter(parts.values())) if self.single else spaces.Dict(parts)

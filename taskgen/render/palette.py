@@ -32,8 +32,8 @@ PATH_END = (240, 228, 66)
 
 def relative_luminance(rgb: tuple[int, int, int]) -> float:
     """WCAG 2.x relative luminance of an sRGB colour (0 black … 1 white)."""
-    def channel(c: int) -> float:
-        c = c / 255
+    def channel(value: int) -> float:
+        c = value / 255
         return c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4
     r, g, b = (channel(c) for c in rgb)
     return 0.2126 * r + 0.7152 * g + 0.0722 * b

@@ -20,8 +20,8 @@ def cue_truth(renderer: TopDownRenderer, model: TaskModel, state: int) -> np.nda
     goals the true cue (a sequence of values) names outlined, at ``state`` of the model."""
     picture = Image.fromarray(renderer.frame(int(model.obs_key[state])))
     draw = ImageDraw.Draw(picture)
+    goals = model.layout.sites.get("goal", np.zeros(0, dtype=np.int64))
     for value in cue_sequence(model, state):
-        goals = model.layout.sites.get("goal", [])
         if value < len(goals):
             r, c = model.layout.cells[goals[value]]
             left, top, right, bottom = renderer.box(int(r), int(c))

@@ -64,7 +64,8 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
         raise SpecError(Location(pos.source, line, col, _dotted(path)),
                         "expected no alias inside the value it names", "a recursive alias")
     open_nodes = open_nodes | {id(node)}
-    plain = {yaml.MappingNode: "tag:yaml.org,2002:map", yaml.SequenceNode: "tag:yaml.org,2002:seq"}
+    plain: dict[type[yaml.Node], str] = {yaml.MappingNode: "tag:yaml.org,2002:map",
+                                         yaml.SequenceNode: "tag:yaml.org,2002:seq"}
     if type(node) in plain and node.tag != plain[type(node)]:
         line, col = _mark(node)
         raise SpecError(Location(pos.source, line, col, _dotted(path)),
@@ -129,10 +130,10 @@ def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
                         f"the character {exc.character!r}") from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
-        line = mark.line + 1 if mark else None
-        column = mark.column + 1 if mark else None
+        at_line = mark.line + 1 if mark else None
+        at_column = mark.column + 1 if mark else None
         problem = exc.problem or exc.context or "unreadable YAML"
-        raise SpecError(Location(source, line, column), "expected valid YAML", problem) from None
+        raise SpecError(Location(source, at_line, at_column), "expected valid YAML", problem) from None
     except yaml.YAMLError as exc:
         raise SpecError(Location(source, 1, 1), "expected valid YAML", str(exc)) from None
     finally:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Annotated, Any
+from typing import Annotated, Any, Callable
 
 import numpy as np
 from pydantic import BeforeValidator, PlainSerializer, WithJsonSchema
@@ -69,7 +69,7 @@ def _is_int(value: Any) -> bool:
     return isinstance(value, int) and not isinstance(value, bool)
 
 
-def int_param_validator(minimum: int, maximum: int | None = None):
+def int_param_validator(minimum: int, maximum: int | None = None) -> Callable[[Any], IntParam]:
     """Build the validator of one IntParam field with its bounds."""
     if maximum is None:
         bound = f"≥ {minimum}"

@@ -164,7 +164,8 @@ class Mark(Strict):
     @field_validator("colour")
     @classmethod
     def _visible(cls, colour: list[int]) -> list[int]:
-        taken = {(20, 20, 28): "the floor", (150, 150, 160): "the walls", (255, 255, 255): "the agent"}
+        taken: dict[tuple[int, ...], str] = {(20, 20, 28): "the floor", (150, 150, 160): "the walls",
+                                             (255, 255, 255): "the agent"}
         if tuple(colour) in taken:
             raise expected_error(f"a colour other than {taken[tuple(colour)]}'s", str(colour))
         return colour

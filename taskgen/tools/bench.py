@@ -18,7 +18,9 @@ from ..factory import make, make_vec
 from ..kinds import kind_of
 from ..spec import Spec
 
-FROZEN_LAKE = dict(id="FrozenLake-v1", map_name="8x8", is_slippery=False)
+def frozen_lake() -> gym.Env[Any, Any]:
+    """The reference env: FrozenLake-v1, 8×8, not slippery, without gymnasium's checker wrappers."""
+    return gym.make("FrozenLake-v1", map_name="8x8", is_slippery=False).unwrapped
 
 
 @dataclass(frozen=True)
@@ -47,9 +49,15 @@ def _timed(name: str, envs: int, run: Callable[[int], None], budget: float) -> T
 ACTION_BLOCK = 4096   # actions are drawn before timing and cycled through
 
 
-def _single_loop(env: gym.Env, rng: np.random.Generator) -> Callable[[int], None]:
+def _actions(space: gym.Space[Any]) -> int:
+    if not isinstance(space, gym.spaces.Discrete):
+        raise ValueError(f"the bench draws discrete actions, got {space}")
+    return int(space.n)
+
+
+def _single_loop(env: gym.Env[Any, Any], rng: np.random.Generator) -> Callable[[int], None]:
     env.reset(seed=0)
-    actions = rng.integers(env.action_space.n, size=ACTION_BLOCK).tolist()
+    actions = rng.integers(_actions(env.action_space), size=ACTION_BLOCK).tolist()
 
     def run(steps: int) -> None:
         for i in range(steps):
@@ -59,9 +67,9 @@ def _single_loop(env: gym.Env, rng: np.random.Generator) -> Callable[[int], None
     return run
 
 
-def _vector_loop(env: gym.vector.VectorEnv, rng: np.random.Generator) -> Callable[[int], None]:
+def _vector_loop(env: gym.vector.VectorEnv[Any, Any, Any], rng: np.random.Generator) -> Callable[[int], None]:
     env.reset(seed=0)
-    actions = rng.integers(int(env.single_action_space.n), size=(ACTION_BLOCK, env.num_envs))
+    actions = rng.integers(_actions(env.single_action_space), size=(ACTION_BLOCK, env.num_envs))
 
     def run(steps: int) -> None:
         for i in range(steps):
@@ -115,9 +123,9 @@ def _common_timings(spec: Spec, batched: Any, num_envs: int, sync_envs: int, bud
         _timed(f"SyncVectorEnv over taskgen env ({sync_envs})", sync_envs,
                _vector_loop(gym.vector.SyncVectorEnv([lambda: make(spec)] * sync_envs), rng), budget),
         _timed("FrozenLake-v1 8x8 single env", 1,
-               _single_loop(gym.make(**FROZEN_LAKE).unwrapped, rng), budget),
+               _single_loop(frozen_lake(), rng), budget),
         _timed(f"SyncVectorEnv over FrozenLake-v1 ({sync_envs})", sync_envs,
-               _vector_loop(gym.vector.SyncVectorEnv([lambda: gym.make(**FROZEN_LAKE).unwrapped] * sync_envs),
+               _vector_loop(gym.vector.SyncVectorEnv([frozen_lake] * sync_envs),
                             rng), budget),
     ]
 
@@ -133,10 +141,12 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
                           budget))
     pixels = make_vec(spec, num_envs, observation__vector=None, observation__grid=None,
                       observation__pixels={"height": 64, "width": 64})
+    frames = pixels.core.observations.pixels
+    assert frames is not None
     timings += [
         _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
         _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
-               _frame_gather_loop(pixels.core.observations.pixels, num_envs, rng), budget),
+               _frame_gather_loop(frames, num_envs, rng), budget),
     ]
     if "first_person" in kind_of(spec).modalities:
         first_person = make_vec(spec, num_envs, agent__actions="turns", observation__vector=None,

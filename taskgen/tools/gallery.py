@@ -51,7 +51,7 @@ def _save_atomic(path: Path, image: Image.Image, **options: Any) -> None:
 
 
 def _save_gif(path: Path, frames: Sequence[Image.Image]) -> None:
-    palette = [f.convert("P", palette=Image.ADAPTIVE, colors=64, dither=Image.Dither.NONE) for f in frames]
+    palette = [f.convert("P", palette=Image.Palette.ADAPTIVE, colors=64, dither=Image.Dither.NONE) for f in frames]
     _save_atomic(path, palette[0], format="GIF", save_all=True, append_images=palette[1:], duration=FRAME_MS,
                  loop=0, optimize=False, disposal=1)
 

@@ -201,7 +201,7 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
                                          "used or held-out values)")
             accepted = [(slot, v) for slot in slots for v in slot.taken]
             cache: dict[str, dict[str, Any]] = {}
-            unique = {}
+            unique: dict[str, tuple[Spec, int]] = {}
             for slot, v in accepted:
                 unique.setdefault(v["fingerprint"], (slot.spec, v["seed"]))
             order = sorted(unique)
@@ -235,7 +235,8 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
 def _suite_family_size(spec: Spec, points: list[dict[str, Any]]) -> int | None:
     """Distinct layouts over the sweep: the points differ in a swept value, so their families add."""
     sizes = [family_size(_apply(spec, point, "sweep point")) for point in points]
-    return None if any(size is None for size in sizes) else sum(sizes)
+    counted = [size for size in sizes if size is not None]
+    return sum(counted) if len(counted) == len(sizes) else None
 
 
 def spec_hash(spec: Spec) -> str:
