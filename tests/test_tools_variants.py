@@ -7,6 +7,7 @@ import subprocess
 import sys
 
 import gymnasium as gym
+import jsonschema
 import networkx as nx
 import numpy as np
 import pytest
@@ -183,6 +184,13 @@ def test_manifest_records_what_it_promises():
     for v in manifest["variants"]:
         assert {"id", "split", "seed", "params", "fingerprint", "baselines", "details"} <= set(v)
         assert {"optimal", "chance", "random"} <= set(v["baselines"]) and "recall_distance" in v["details"]
+    # the figures are the report's own objects: valid under its published schema (jsonschema)
+    from taskgen.tools.check import report_schema
+    defs = report_schema()["$defs"]
+    baseline = jsonschema.Draft202012Validator({"$ref": "#/$defs/BaselineJSON", "$defs": defs})
+    for v in manifest["variants"]:
+        for figures in v["baselines"].values():
+            baseline.validate(figures)
     assert manifest_text(manifest).startswith("taskgen_manifest: 1\n")
 
 

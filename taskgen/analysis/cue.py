@@ -13,9 +13,11 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Annotated
 
 import numpy as np
+from pydantic import ConfigDict, Field, with_config
+from typing_extensions import TypedDict
 
 from ..errors import AnalysisError
 from ..model import CueStructure, TaskModel, distances_from
@@ -237,6 +239,19 @@ def solvability(model: TaskModel, shortest: np.ndarray) -> Check:
     return Check("solvable", True, f"every cue solvable; shortest {int(shortest.max())} steps, limit {model.horizon}")
 
 
+@with_config(ConfigDict(extra="forbid"))
+class CueDetailsJSON(TypedDict):
+    """What only a cue task reports per variant (under ``details``)."""
+
+    shortest_solution: Annotated[dict[str, int], Field(description="Fewest steps to success by cue value (−1: "
+                                                       "none).")]
+    recall_distance: Annotated[dict[str, int | None], Field(
+        description="By cue value: steps between the last observation showing the cue and the optimal agent's "
+        "decision (null: its path never depends on the cue).")]
+    witness: Annotated[str, Field(description="When a memoryless policy carries the cue, its paths for two cue "
+                                  "values side by side; else empty.")]
+
+
 @dataclass(frozen=True)
 class CueDetails:
     """What only a cue task reports: each cue value's shortest solution and recall distance, and the
@@ -246,7 +261,7 @@ class CueDetails:
     recall: dict[int, int | None]
     witness: str = ""
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self) -> CueDetailsJSON:
         """``shortest_solution`` and ``recall_distance`` by cue value, and the ``witness`` text."""
         return {"shortest_solution": {str(k): v for k, v in self.shortest.items()},
                 "recall_distance": {str(k): v for k, v in self.recall.items()}, "witness": self.witness}

@@ -21,9 +21,11 @@ and every figure is exact on each path and reported as the sample mean with its 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Annotated
 
 import numpy as np
+from pydantic import ConfigDict, Field, with_config
+from typing_extensions import TypedDict
 
 from .. import limits
 from ..errors import AnalysisError
@@ -32,7 +34,7 @@ from ..model import PathRule, PathSample, SampledSet, TaskModel
 from .baselines import RANDOM_CLASS, optimal_policy, per_value, policy_figures, shortest_steps
 from .dp import Objective, uniform_policy
 from .explorer import EXPLORER_CLASS, explore
-from .report import Baseline, Check, Figure, Report, layout_statistics, memory_gap, memory_gap_check
+from .report import Baseline, Check, Figure, FigureJSON, Report, layout_statistics, memory_gap, memory_gap_check
 from .rollouts import MemorylessRollout, best_memoryless_paths
 
 FIELD_OPTIMAL_CLASS = "knows the path: walks a shortest safe route (sees position and time)"
@@ -52,6 +54,15 @@ def path_parts(model: TaskModel) -> tuple[PathRule, PathSample]:
     return model.paths, sample
 
 
+@with_config(ConfigDict(extra="forbid"))
+class PathDetailsJSON(TypedDict):
+    """What only a field reports per variant (under ``details``)."""
+
+    path_cells: Annotated[FigureJSON, Field(description="Cells on the sampled paths.")]
+    random_falls: Annotated[FigureJSON, Field(description="The uniform-random agent's expected steps off the path "
+                                              "per episode.")]
+
+
 @dataclass(frozen=True)
 class PathDetails:
     """What only a field reports: the sampled paths' sizes and shortest crossings, and the random
@@ -62,7 +73,7 @@ class PathDetails:
     shortest: Figure
     random_falls: Figure
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self) -> PathDetailsJSON:
         """``path_cells`` and ``random_falls`` as figures."""
         return {"path_cells": self.path_cells.to_dict(), "random_falls": self.random_falls.to_dict()}
 

@@ -11,10 +11,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Protocol, TypedDict
+from typing import Annotated, Any, Mapping, Protocol
+
+from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
 
 import numpy as np
-from pydantic import ConfigDict, with_config
+from pydantic import ConfigDict, Field, with_config
 
 from ..model import HiddenSet, TaskModel, distances_from
 from ..model.hidden import HiddenJSON
@@ -24,14 +26,17 @@ TOLERANCE = 1e-9
 
 @with_config(ConfigDict(extra="forbid"))
 class FigureJSON(TypedDict):
-    """A figure as plain data."""
+    """One number of a report, over the hidden values the model covers."""
 
-    mean: float
-    standard_error: float
-    minimum: float
-    maximum: float
-    method: str
-    policy_class: str
+    mean: Annotated[float, Field(description="The expectation over the hidden values (exact when they are "
+                                 "enumerated, the sample mean when they are sampled).")]
+    standard_error: Annotated[float, Field(description="The standard error of the mean: 0 when every hidden "
+                                           "value is covered, sample sd / √n for a sample.")]
+    minimum: Annotated[float, Field(description="The smallest per-value figure.")]
+    maximum: Annotated[float, Field(description="The largest per-value figure.")]
+    method: Annotated[str, Field(description="How it was obtained: exact, exact per path, search lower "
+                                 "bound, ...")]
+    policy_class: Annotated[str, Field(description="Which agent it describes (empty for a layout figure).")]
 
 
 @dataclass(frozen=True)
@@ -80,14 +85,15 @@ class Figure:
 
 @with_config(ConfigDict(extra="forbid"))
 class BaselineJSON(TypedDict):
-    """A baseline as plain data: its three figures (null when unavailable) and how they were found."""
+    """A reference agent: its three figures (null when it cannot be computed here) and how they were found."""
 
-    success_rate: FigureJSON | None
-    mean_return: FigureJSON | None
-    mean_length: FigureJSON | None
-    method: str
-    policy_class: str
-    method_detail: str
+    success_rate: Annotated[FigureJSON | None, Field(description="Probability of ending in success.")]
+    mean_return: Annotated[FigureJSON | None, Field(description="Expected return (discounted as the spec says).")]
+    mean_length: Annotated[FigureJSON | None, Field(description="Expected steps an episode lasts.")]
+    method: Annotated[str, Field(description="How the policy was found ('unavailable' with the reason in "
+                                 "method_detail when it could not be).")]
+    policy_class: Annotated[str, Field(description="The class of agents the baseline is the best of, or the agent.")]
+    method_detail: Annotated[str, Field(description="The search's size, or why the baseline is unavailable.")]
 
 
 @dataclass(frozen=True)
@@ -129,11 +135,12 @@ class Baseline:
 
 @with_config(ConfigDict(extra="forbid"))
 class CheckJSON(TypedDict):
-    """A check as plain data."""
+    """A named finding."""
 
-    name: str
-    passed: bool | None
-    reason: str
+    name: Annotated[str, Field(description="solvable, memory gap, and per kind: cue needed, no cue leak, no "
+                               "carried cue.")]
+    passed: Annotated[bool | None, Field(description="true, false, or null when the check cannot run here.")]
+    reason: Annotated[str, Field(description="Why, with the numbers.")]
 
 
 @dataclass(frozen=True)
@@ -156,12 +163,13 @@ class Check:
 
 @with_config(ConfigDict(extra="forbid"))
 class LayoutJSON(TypedDict):
-    """A layout's statistics as plain data."""
+    """A layout's statistics."""
 
-    cells: int
-    dead_ends: int
-    loops: int
-    start_to_goal: list[int]
+    cells: Annotated[int, Field(description="Open cells.")]
+    dead_ends: Annotated[int, Field(description="Cells with one open side.")]
+    loops: Annotated[int, Field(description="Independent loops: passages − cells + 1.")]
+    start_to_goal: Annotated[list[int], Field(description="Fewest steps from the start to each goal (none in "
+                                              "a field).")]
 
 
 def layout_statistics(model: TaskModel) -> LayoutJSON:
@@ -182,8 +190,8 @@ class Details(Protocol):
     """What only one task kind reports (cue: recall distances and the carried-cue witness; field:
     path sizes and the random agent's missteps)."""
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain data for JSON (under ``details``)."""
+    def to_dict(self) -> Mapping[str, Any]:
+        """Plain data for JSON (under ``details``; its shape is the kind's ``details_json``)."""
 
     def text_lines(self) -> list[str]:
         """Lines for the text report, indented by four spaces."""
@@ -192,24 +200,31 @@ class Details(Protocol):
         """Numbers a run summarises over its variants as min / median / max (under ``details``)."""
 
 
+BASELINES_EVERY_KIND_HAS = ["optimal", "chance", "random"]
+
+
 @with_config(ConfigDict(extra="forbid"))
 class VariantJSON(TypedDict):
-    """One variant's report as plain data: the same keys for every kind, kind-only data under details."""
+    """One variant's report: the same keys for every kind; what only one kind has sits under details."""
 
-    kind: str
-    variant_id: str
-    ok: bool
-    params: dict[str, Any]
-    states: int
-    max_steps: int
+    kind: Annotated[str, Field(description="The task kind: cue (corridors, mazes) or field.")]
+    variant_id: Annotated[str, Field(description="<spec name>-s<variant seed>.")]
+    ok: Annotated[bool, Field(description="No check failed.")]
+    params: Annotated[dict[str, Any], Field(description="The variant's drawn parameters and its step limit.")]
+    states: Annotated[int, Field(description="States of the analysed model, over all the hidden values it covers.")]
+    max_steps: Annotated[int, Field(description="The step limit.")]
     hidden: HiddenJSON
-    shortest_solution: FigureJSON
-    step_limit_slack: int
-    memory_gap: FigureJSON
+    shortest_solution: Annotated[FigureJSON, Field(description="Fewest steps to success, over the hidden values "
+                                                   "that can succeed.")]
+    step_limit_slack: Annotated[int, Field(description="Step limit − the longest shortest solution.")]
+    memory_gap: Annotated[FigureJSON, Field(description="Optimal − chance return, per hidden value.")]
     layout: LayoutJSON
-    baselines: dict[str, BaselineJSON]
+    baselines: Annotated[dict[str, BaselineJSON], Field(
+        description="Reference agents by name: optimal, chance and random for every kind; cue_blind (cue) and "
+        "explorer (field) besides.", json_schema_extra={"required": BASELINES_EVERY_KIND_HAS})]
     checks: list[CheckJSON]
-    details: dict[str, Any]
+    details: Annotated[dict[str, Any], Field(description="What only this kind reports (see the kind's shape "
+                                             "in $defs).")]
 
 
 @dataclass
@@ -249,7 +264,7 @@ class Report:
             "memory_gap": self.memory_gap.to_dict(), "layout": self.layout,
             "baselines": {k: b.to_dict() for k, b in self.baselines.items()},
             "checks": [c.to_dict() for c in self.checks],
-            "details": self.details.to_dict() if self.details is not None else {},
+            "details": dict(self.details.to_dict()) if self.details is not None else {},
         }
 
 

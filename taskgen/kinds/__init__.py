@@ -39,6 +39,7 @@ class TaskKind(Protocol):
     pools: bool                     # whether one env or batch may hold several variants
     policies: dict[str, str]        # gallery policies it can play, with a sentence each; the first is 'auto'
     legend: str                     # what a gallery frame shows
+    details_json: type[Any]         # the JSON shape of its reports' ``details`` (a TypedDict)
 
     def draw(self, spec: Spec, seed: int) -> Variant:
         """The variant ``seed`` of ``spec``: its parameters and layout."""
@@ -85,6 +86,11 @@ def _registry() -> dict[str, TaskKind]:
     return {layout: kind for kind in (CUE, FIELD) for layout in kind.layouts}
 
 
+def all_kinds() -> list[TaskKind]:
+    """Every registered kind, once each."""
+    return list({id(kind): kind for kind in _registry().values()}.values())
+
+
 def kind_of(subject: Spec | TaskModel) -> TaskKind:
     """The kind of a spec (by its layout family) or of a compiled model (by its ``kind``)."""
     registry = _registry()
@@ -114,5 +120,5 @@ def analyse(model: TaskModel, observations: ObservationSet | None = None, min_ga
     return kind_of(model).analyse(model, observations, min_gap)
 
 
-__all__ = ["SAMPLES", "Policy", "TaskKind", "analyse", "compile_variant", "kind_of", "make_variant",
+__all__ = ["SAMPLES", "Policy", "TaskKind", "all_kinds", "analyse", "compile_variant", "kind_of", "make_variant",
            "observation_set"]

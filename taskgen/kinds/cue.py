@@ -8,6 +8,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..analysis import Report, analyse_cue, best_memoryless, optimal_policy
+from ..analysis.cue import CueDetailsJSON
 from ..analysis.fingerprint import fingerprint
 from ..envs.core import Core
 from ..envs.tables import TableCore
@@ -174,7 +175,8 @@ class CueKind:
         "chance": "the best memoryless policy found (acts on the current observation only)",
     }
     legend: str = ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
-              "cue and the goal it names, outlined).")
+                   "cue and the goal it names, outlined).")
+    details_json: type[Any] = CueDetailsJSON
 
     def draw(self, spec: Spec, seed: int) -> Variant:
         """A corridor's lengths, or a maze's size, passages and placements."""

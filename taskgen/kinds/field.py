@@ -8,7 +8,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..analysis import Report, analyse_paths, optimal_policy
-from ..analysis.paths import path_parts
+from ..analysis.paths import PathDetailsJSON, path_parts
 from ..analysis.explorer import Explorer
 from ..analysis.rollouts import MemorylessRollout, best_memoryless_paths
 from ..envs.core import Core
@@ -162,7 +162,8 @@ class FieldKind:
         "chance": "the best memoryless policy found (acts on the current observation only)",
     }
     legend: str = ("Each frame: the agent's view (left: the agent and its marks, never the path) and the ground "
-              "truth (right: the hidden path in green, its end in yellow, marks outlined).")
+                   "truth (right: the hidden path in green, its end in yellow, marks outlined).")
+    details_json: type[Any] = PathDetailsJSON
 
     def draw(self, spec: Spec, seed: int) -> Variant:
         """A field's size and path shape or walls."""

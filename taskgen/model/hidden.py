@@ -10,20 +10,25 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 from dataclasses import dataclass
-from typing import Any, Literal, TypedDict
+from typing import Annotated, Any, Literal
+
+from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
 
 import numpy as np
-from pydantic import ConfigDict, with_config
+from pydantic import ConfigDict, Field, with_config
 
 
 @with_config(ConfigDict(extra="forbid"))
 class HiddenJSON(TypedDict):
-    """A hidden set as plain data: how it was obtained, what a value is, how many the tables cover."""
+    """The hidden values a report's figures are computed over."""
 
-    kind: Literal["enumerated", "sampled"]
-    name: str
-    count: int
-    seed: int | None
+    kind: Annotated[Literal["enumerated", "sampled"], Field(
+        description="enumerated: every value (a cue), figures exact; sampled: a sample (paths), figures are "
+        "sample means with standard errors.")]
+    name: Annotated[str, Field(description="What one value is: cue, sampled path.")]
+    count: Annotated[int, Field(description="How many values the model covers.")]
+    seed: Annotated[int | None, Field(description="The variant seed a sample was drawn from (stream 3); null "
+                                      "when enumerated.")]
 
 
 class HiddenSet(ABC):

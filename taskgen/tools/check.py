@@ -5,14 +5,16 @@ from __future__ import annotations
 import math
 import statistics
 from dataclasses import dataclass
-from typing import Any, TypedDict
+from typing import Annotated, Any
 
-from pydantic import ConfigDict, TypeAdapter, with_config
+from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
+
+from pydantic import ConfigDict, Field, TypeAdapter, with_config
 from tqdm import tqdm
 
 from ..analysis import Baseline, Figure, Report
-from ..analysis.report import BaselineJSON, VariantJSON
-from ..kinds import SAMPLES, compile_variant, kind_of, make_variant, observation_set
+from ..analysis.report import BASELINES_EVERY_KIND_HAS, BaselineJSON, VariantJSON
+from ..kinds import SAMPLES, all_kinds, compile_variant, kind_of, make_variant, observation_set
 from ..model import TaskModel
 from ..spec import Spec
 
@@ -63,15 +65,20 @@ class StatisticsJSON(TypedDict):
 class RunJSON(TypedDict):
     """`taskgen check --json`: the same keys for every kind; what only one kind has sits under details."""
 
-    kind: str
-    ok: bool
-    spec: str
-    source: str
-    min_gap: float
-    baselines: dict[str, BaselineJSON]
+    kind: Annotated[str, Field(description="The task kind: cue (corridors, mazes) or field.")]
+    ok: Annotated[bool, Field(description="No check of any variant failed (the exit code is 0).")]
+    spec: Annotated[str, Field(description="The spec's name.")]
+    source: Annotated[str, Field(description="The spec as given on the command line.")]
+    min_gap: Annotated[float, Field(description="The --min-gap the memory gap was held to.")]
+    baselines: Annotated[dict[str, BaselineJSON], Field(
+        description="Each baseline over the variants: the mean of their means (variants weigh equally), the "
+        "standard error of that mean from theirs, and the smallest and largest variant's mean.",
+        json_schema_extra={"required": BASELINES_EVERY_KIND_HAS})]
     statistics: StatisticsJSON
-    details: dict[str, SpreadJSON | None]
-    variants: list[VariantJSON]
+    details: Annotated[dict[str, SpreadJSON | None], Field(
+        description="Numbers only this kind summarises over its variants (cue: recall_distance; field: "
+        "shortest_crossing).")]
+    variants: Annotated[list[VariantJSON], Field(description="One report per variant, in seed order.")]
 
 
 def _spread(values: list[float]) -> SpreadJSON | None:
@@ -147,7 +154,16 @@ class CheckRun:
 def report_schema() -> dict[str, Any]:
     """The JSON Schema (draft 2020-12) of `taskgen check --json`; its ``$defs`` also describe the
     baselines and figures that manifests record."""
-    schema = TypeAdapter(RunJSON).json_schema(ref_template="#/$defs/{model}")
+    template = "#/$defs/{model}"
+    schema = TypeAdapter(RunJSON).json_schema(ref_template=template)
+    defs, shapes = schema["$defs"], []
+    for kind in all_kinds():     # each kind's details, one of which a variant's details must be
+        shape = TypeAdapter(kind.details_json).json_schema(ref_template=template)
+        defs.update(shape.pop("$defs", {}))
+        defs[kind.details_json.__name__] = shape
+        shapes.append({"$ref": template.format(model=kind.details_json.__name__)})
+    details = defs["VariantJSON"]["properties"]["details"]
+    defs["VariantJSON"]["properties"]["details"] = {"description": details["description"], "anyOf": shapes}
     return {"$schema": DIALECT, "title": "taskgen check report",
             "description": "The output of `taskgen check --json`: one object per run, the same keys for every "
             "task kind; kind-only data sits under `details`.", **schema}
