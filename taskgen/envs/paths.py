@@ -59,8 +59,13 @@ class PathCore(Core):
         self._pictures: PathPictures | None = None
         self._tables: tuple[list[Any], ...] = ()
         self._noise_track = np.zeros((self.rule.horizon + 1, self.bits), dtype=np.float32)
-        self._vector_only = observations.names == ("vector",) and observations.decoy_probability == 0
-        self._s, self._t = 0, 0            # a single env's state and step, as Python ints
+        # a single env: its state and step as Python ints, and what its step reads, looked up once
+        self._vector_only = self.vector is not None and observations.names == ("vector",) and self.decoy == 0
+        self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
+        self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
+        self._cells = self.rule.state_cell
+        self._mark_block = self.overlay.block
+        self._marks, self._horizon = self.rule.mark_steps > 0, self.rule.horizon
 
     @property
     def models(self) -> list[TaskModel]:
@@ -206,11 +211,11 @@ class PathCore(Core):
             assert self.vector is not None
             self._noise_track = noise_track(key, self.bits, self.vector.flip_probability,
                                             rule.horizon)[0].astype(np.float32)
-        self._s, self._t = int(self.state[0]), 0
+        self._s, self._t, self._start = int(self.state[0]), 0, int(self.start[0])
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
-        """Move on the hidden path; truncate at the step limit."""
+        """Move on the hidden path; truncate at the step limit (kept short: it runs on every step)."""
         nxt, pay, fell, aim, ends = self._tables
         s = self._s
         self._s = state = nxt[s][action]
@@ -219,28 +224,39 @@ class PathCore(Core):
         self.state[0], self.step_count[0] = state, step
         if fell[s][action]:
             self.falls[0] += 1
-            if self.rule.mark_steps:
+            if self._marks:
                 self.until[0, aim[s][action]] = self.rule.mark_until(step)
         terminated = ends[s][action]
-        truncated = not terminated and step >= self.rule.horizon
+        truncated = not terminated and step >= self._horizon
         if truncated:
             reward += self.rule.timeout_reward
-        if self.bits and not self._vector_only:
-            self.noise[0] = self._noise_track[min(step, self.rule.horizon)] > 0.5
-        return self._observe_scalar(), reward, terminated, truncated, self._info_scalar()
+        if self._vector_only:
+            obs = self._rows[self._cells[state]].copy()
+            if self._mark_block is not None:
+                obs[self._mark_block] = self.until[0] > step
+            if self.bits:
+                obs = np.concatenate((obs, self._noise_track[min(step, self._horizon)]))
+        else:
+            if self.bits:
+                self.noise[0] = self._noise_track[min(step, self._horizon)] > 0.5
+            obs = self._observe_scalar()
+        return obs, reward, terminated, truncated, {
+            "variant_id": self._variant_id, "step": step,
+            "analysis_only": {"path": self.kind[0].copy(), "start": self._start, "state": state,
+                              "falls": int(self.falls[0])}}
 
     def _observe_scalar(self) -> Any:
-        if not self._vector_only or self.vector is None:
+        if not self._vector_only:
             return assemble(self.observations, {k: v[0] for k, v in self.observe().items()})
         step = self._t
-        out = self.vector.table[self.rule.state_cell[self._s]].copy()     # the common case, kept short
-        if self.overlay.block is not None:
-            out[self.overlay.block] = self.until[0] > step
+        out = self._rows[self._cells[self._s]].copy()     # the common case, kept short
+        if self._mark_block is not None:
+            out[self._mark_block] = self.until[0] > step
         if self.bits:
-            out = np.concatenate((out, self._noise_track[min(step, self.rule.horizon)]))
+            out = np.concatenate((out, self._noise_track[min(step, self._horizon)]))
         return out
 
     def _info_scalar(self) -> dict[str, Any]:
-        return {"variant_id": self.model.variant_id, "step": self._t,
-                "analysis_only": {"path": self.kind[0].copy(), "start": int(self.start[0]),
+        return {"variant_id": self._variant_id, "step": self._t,
+                "analysis_only": {"path": self.kind[0].copy(), "start": self._start,
                                   "state": self._s, "falls": int(self.falls[0])}}

@@ -7,6 +7,7 @@ from typing import Any
 import gymnasium as gym
 import numpy as np
 from gymnasium import spaces
+from gymnasium.error import ResetNeeded
 
 from ..model import TaskModel
 from ..render.observations import ObservationSet
@@ -44,6 +45,7 @@ class TaskEnv(gym.Env[Any, Any]):
         self.action_space = spaces.Discrete(core.num_actions)
         self.observation_blocks = dict(core.blocks)
         self._num_actions = core.num_actions
+        self._step_one = core.step_one    # bound once: a step is on the hot path
         self._stream: int | None = None
         self._episode = 0
 
@@ -73,7 +75,9 @@ class TaskEnv(gym.Env[Any, Any]):
         """One step of the task; truncated at the step limit."""
         if not (isinstance(action, (int, np.integer)) and 0 <= action < self._num_actions):
             raise ValueError(f"action must be an integer in [0, {self._num_actions}), got {action!r}")
-        return self.core.step_one(int(action))
+        if self._stream is None:
+            raise ResetNeeded("call reset() before step()")
+        return self._step_one(action)
 
     def render(self) -> np.ndarray | None:
         """A top-down picture of what the agent could see (``render_mode="rgb_array"``); never the path."""

@@ -10,7 +10,7 @@ and actions. A single env takes a scalar path through the same tables.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Sequence
 
 import numpy as np
@@ -99,7 +99,14 @@ class TableCore(Core):
         self._distractor_keys = np.zeros(N, dtype=np.uint64)
         self._distracted = self.observations.decoy_probability > 0 or self.observations.lure_probability > 0
         self._renderers: dict[int, TopDownRenderer] = {}
-        self._one: _OneEpisode | None = None
+        # a single env's episode: its state and step as Python ints, the tables as lists (made once)
+        self._s, self._t, self._h = -1, 0, 0
+        self._variant, self._variant_id, self._timeout_one = 0, "", 0.0
+        self._noise_track = np.zeros((0, self._bits), dtype=np.float32)
+        self._pixel_key = self._distractor_key = np.zeros(1, dtype=np.uint64)
+        self._rows = np.zeros((0, 0), dtype=np.float32)    # each state's vector (no columns without one)
+        self._next_list: list[Any] = []
+        self._vector_only = self.observations.names == ("vector",) and not self._distracted
 
     @property
     def models(self) -> list[TaskModel]:
@@ -261,11 +268,11 @@ class TableCore(Core):
 
     def model_of(self, i: int) -> TaskModel:
         """Environment i's current variant."""
-        j = self._one.variant if self._one is not None and i == 0 else int(self.env_variant[i])
+        j = self._variant if self._s >= 0 and i == 0 else int(self.env_variant[i])
         return self._models[j]
 
     def _local_state(self, i: int) -> int:
-        state = self._one.state if self._one is not None and i == 0 else int(self.state[i])
+        state = self._s if self._s >= 0 and i == 0 else int(self.state[i])
         return int(self._local[state])
 
     def _renderer(self, j: int) -> TopDownRenderer:
@@ -295,99 +302,73 @@ class TableCore(Core):
     # -- one environment: a scalar path through the same tables ---------------------------------------
     def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
         """Draw the variant (pools) and the cue from ``key``; the episode's noise bits all at once."""
-        self._lists()
-        j = 0
+        if not self._next_list:      # the tables as Python lists: indexing them beats numpy scalars
+            self._next_list, self._reward_list = self._next.tolist(), self._reward.tolist()
+            self._terminal_list, self._hidden_list = self._terminal.tolist(), self._hidden.tolist()
+            self._local_list, self._key_list = self._local.tolist(), self._obs_key.tolist()
+            self._rows = self._table[self._obs_key]
+        j = int(self.env_variant[0])
         if self._draw:
             count = len(self._models)
             j = min(int(uniform(subkeys(key, "variant"))[0] * count), count - 1)
-        elif self.num_envs == 1:
-            j = int(self.env_variant[0])
         per = self._per
-        starts, cumulative = per.starts[j:j + 1], per.cumulative[j:j + 1]
-        state = int(starts[0, categorical(uniform(subkeys(key, "cue")), cumulative)[0]])
-        one = _OneEpisode(variant=j, state=state, step=0,
-                          horizon=int(per.horizon[j]), timeout=float(per.timeout[j]))
+        state = int(per.starts[j, categorical(uniform(subkeys(key, "cue")), per.cumulative[j:j + 1])[0]])
+        self._s, self._t, self._h = state, 0, int(per.horizon[j])
+        self._variant, self._variant_id, self._timeout_one = j, str(per.variant_ids[j]), float(per.timeout[j])
         if self._bits:    # the whole episode's noise bits at once: one numpy call per reset
-            one.noise = noise_track(key, self._bits, float(per.flip[j]), one.horizon)[0].astype(np.float32)
+            self._noise_track = noise_track(key, self._bits, float(per.flip[j]), self._h)[0].astype(np.float32)
         if self.observations.pixel_noise is not None:
-            one.pixel_key = subkeys(key, "pixel_noise")
+            self._pixel_key = subkeys(key, "pixel_noise")
         if self._distracted:
-            one.distractor_key = subkeys(key, "distractor")
-        self._one = one
+            self._distractor_key = subkeys(key, "distractor")
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
-        """Move by the tables; truncate at the step limit."""
-        one, (nxt, pay, ends) = self._one, self._as_lists
-        if one is None:
-            raise RuntimeError("call reset before step")
-        s = one.state
-        one.state = nxt[s][action]
-        reward = pay[s][action]
-        one.step += 1
-        terminated = ends[one.state]
-        truncated = not terminated and one.step >= one.horizon
+        """Move by the tables; truncate at the step limit (kept short: it runs on every step)."""
+        s = self._s
+        self._s = state = self._next_list[s][action]
+        reward = self._reward_list[s][action]
+        self._t = t = self._t + 1
+        terminated = self._terminal_list[state]
+        truncated = not terminated and t >= self._h
         if truncated:
-            reward += one.timeout
-        return self._observe_scalar(), reward, terminated, truncated, self._info_scalar()
-
-    def _lists(self) -> tuple[list[Any], list[Any], list[Any]]:
-        """The tables as Python lists (indexing them is far cheaper than numpy scalars), made once."""
-        if not hasattr(self, "_as_lists"):
-            self._as_lists = (self._next.tolist(), self._reward.tolist(), self._terminal.tolist())
-            self._one_hidden = self._hidden.tolist()
-            self._one_local = self._local.tolist()
-            self._one_keys = self._obs_key.tolist()
-            self._one_rows = self._table[self._obs_key] if self._has_vector else None
-            self._vector_only = self.observations.names == ("vector",) and not self._distracted
-        return self._as_lists
+            reward += self._timeout_one
+        if self._vector_only:
+            obs = np.concatenate((self._rows[state], self._noise_track[min(t, self._h)])) if self._bits \
+                else self._rows[state].copy()
+        else:
+            obs = self._observe_scalar()
+        return obs, reward, terminated, truncated, {
+            "variant_id": self._variant_id, "step": t,
+            "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
 
     def _observe_scalar(self) -> Any:
-        one = self._one
-        assert one is not None
-        rows = self._one_rows
-        if self._vector_only and rows is not None:   # the common case, kept short: it runs on every step
-            if self._bits:
-                return np.concatenate((rows[one.state], one.noise[min(one.step, one.horizon)]))
-            return rows[one.state].copy()
+        """The single env's observation, every modality (the vector-only case is inlined in step_one)."""
+        state, t = self._s, self._t
+        noise = self._noise_track[min(t, self._h)] if self._bits else None
         parts: dict[str, np.ndarray] = {}
-        if rows is not None:
-            parts["vector"] = (np.concatenate((rows[one.state], one.noise[min(one.step, one.horizon)]))
-                               if self._bits else rows[one.state].copy())
-        key = self._one_keys[one.state]
+        if self._has_vector:
+            parts["vector"] = np.concatenate((self._rows[state], noise)) if noise is not None else self._rows[state].copy()
+        key = self._key_list[state]
         if self._grid is not None:
             parts["grid"] = self._grid[key].copy()
         if self._pixels is not None:
             frame = self._pixels[key]
             if self.observations.pixel_noise is not None:
                 kind, amplitude = self.observations.pixel_noise
-                frame = add_pixel_noise(frame[None], one.pixel_key, one.step, kind, amplitude)[0]
+                frame = add_pixel_noise(frame[None], self._pixel_key, t, kind, amplitude)[0]
             parts["pixels"] = frame.copy()
         if self._first_person is not None:
             parts["first_person"] = self._first_person[key].copy()
         if self._distracted:
-            j = one.variant
-            apply_distractors(self.observations, {k: v[None] for k, v in parts.items()}, one.distractor_key,
-                              np.array([one.step]), np.array([self._key_cue[key] >= 0]),
+            j = self._variant
+            apply_distractors(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key,
+                              np.array([t]), np.array([self._key_cue[key] >= 0]),
                               self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1], self._tiles)
         return assemble(self.observations, parts)
 
     def _info_scalar(self) -> dict[str, Any]:
-        one = self._one
-        assert one is not None
-        return {"variant_id": self._per.variant_ids[one.variant], "step": one.step,
-                "analysis_only": {"cue": self._one_hidden[one.state], "state": self._one_local[one.state]}}
+        state = self._s
+        return {"variant_id": self._variant_id, "step": self._t,
+                "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
 
-
-@dataclass
-class _OneEpisode:
-    """The scalar state of a single env's episode."""
-
-    variant: int
-    state: int              # global state
-    step: int
-    horizon: int
-    timeout: float
-    noise: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=np.float32))
-    pixel_key: np.ndarray = field(default_factory=lambda: np.zeros(1, dtype=np.uint64))
-    distractor_key: np.ndarray = field(default_factory=lambda: np.zeros(1, dtype=np.uint64))
