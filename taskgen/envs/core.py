@@ -2,7 +2,7 @@
 
 A core holds N environments of one kind as arrays and steps them together: :meth:`Core.begin`
 starts episodes from their keys, :meth:`Core.advance` takes one step, :meth:`Core.observe` and
-:meth:`Core.hidden_infos` read out what the agent sees and what only analyses may read. The
+:meth:`Core.infos` read out what the agents see and what the infos report. The
 shells (``TaskEnv``, ``TaskVectorEnv``) own everything else once: render modes, action
 validation, seeding and episode keys, and next-step autoreset.
 
@@ -57,17 +57,10 @@ class Core(ABC):
         """What every agent sees now, by modality (a batch axis first)."""
 
     @abstractmethod
-    def hidden_infos(self) -> dict[str, np.ndarray]:
-        """``info["analysis_only"]``: the hidden value and the state of every environment, for
-        analyses only (an agent that reads them is no longer tested on memory)."""
-
-    @abstractmethod
-    def variant_ids(self) -> np.ndarray:
-        """object[N]: the variant each environment plays now."""
-
-    @abstractmethod
-    def steps(self) -> np.ndarray:
-        """int64[N]: steps taken in each environment's episode."""
+    def infos(self) -> dict[str, Any]:
+        """Every environment's info as arrays, without masks: ``variant_id`` (object[N]), ``step``
+        (int64[N], a copy) and ``analysis_only``, a dict of arrays with the hidden value and the state,
+        for analyses only (an agent that reads them is no longer tested on memory)."""
 
     @abstractmethod
     def model_of(self, i: int) -> TaskModel:
@@ -102,5 +95,6 @@ class Core(ABC):
 
     def info_one(self) -> dict[str, Any]:
         """The info of a core of one."""
-        hidden = {name: value[0] for name, value in self.hidden_infos().items()}
-        return {"variant_id": str(self.variant_ids()[0]), "step": int(self.steps()[0]), "analysis_only": hidden}
+        info = self.infos()
+        hidden = {name: value[0] for name, value in info["analysis_only"].items()}
+        return {"variant_id": str(info["variant_id"][0]), "step": int(info["step"][0]), "analysis_only": hidden}

@@ -153,19 +153,12 @@ class PathCore(Core):
             parts["pixels"] = add_pixel_noise(parts["pixels"], self.pixel_keys, self.step_count, kind, amplitude)
         return parts
 
-    def hidden_infos(self) -> dict[str, np.ndarray]:
-        """Each environment's path (int8 per cell: 0 off, 1 on, 2 its end), its start cell, the
-        state and the falls so far."""
-        return {"path": self.kind.copy(), "start": self.start.copy(), "state": self.state.copy(),
-                "falls": self.falls.copy()}
-
-    def variant_ids(self) -> np.ndarray:
-        """The one variant's id, for every environment."""
-        return self._ids
-
-    def steps(self) -> np.ndarray:
-        """Steps taken in each episode."""
-        return self.step_count
+    def infos(self) -> dict[str, Any]:
+        """The one variant's id, the step, and each environment's path (int8 per cell: 0 off, 1 on, 2
+        its end), its start cell, the state and the falls so far."""
+        return {"variant_id": self._ids, "step": self.step_count.copy(),
+                "analysis_only": {"path": self.kind.copy(), "start": self.start.copy(), "state": self.state.copy(),
+                                  "falls": self.falls.copy()}}
 
     def model_of(self, i: int) -> TaskModel:
         """The one variant."""

@@ -81,6 +81,7 @@ class TableCore(Core):
         self.blocks = common_blocks([v for v in vectors if v is not None]) if self._has_vector else {}
         self._stack(models, sets)
         N = num_envs
+        self._state_offset = np.zeros(N, dtype=np.int64)   # a variant's states are numbered from it
         self._flip = np.zeros(N)
         self._threshold = np.zeros(N, dtype=np.uint64)
         self._horizon = np.zeros(N, dtype=np.int64)
@@ -165,6 +166,7 @@ class TableCore(Core):
         environment, so that a step reads them without a gather by variant)."""
         per = self._per
         self.env_variant[rows] = chosen
+        self._state_offset[rows] = per.state_offset[chosen]
         self._flip[rows] = per.flip[chosen]
         self._threshold[rows] = per.threshold[chosen]
         self._horizon[rows] = per.horizon[chosen]
@@ -254,17 +256,11 @@ class TableCore(Core):
                               self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
         return parts
 
-    def hidden_infos(self) -> dict[str, np.ndarray]:
-        """The cue and the model state (numbered within the environment's variant)."""
-        return {"cue": self._hidden[self.state], "state": self._local[self.state]}
-
-    def variant_ids(self) -> np.ndarray:
-        """The variant each environment plays (a fresh copy while environments draw variants)."""
-        return self._ids.copy() if self._draw else self._every_id
-
-    def steps(self) -> np.ndarray:
-        """Steps taken in each episode."""
-        return self.step_count
+    def infos(self) -> dict[str, Any]:
+        """The variant each environment plays (a fresh copy while environments draw variants), the step,
+        and the cue and the model state (numbered within the environment's variant)."""
+        return {"variant_id": self._ids.copy() if self._draw else self._every_id, "step": self.step_count.copy(),
+                "analysis_only": {"cue": self._hidden[self.state], "state": self.state - self._state_offset}}
 
     def model_of(self, i: int) -> TaskModel:
         """Environment i's current variant."""
@@ -294,7 +290,7 @@ class TableCore(Core):
     def memory_bytes(self) -> dict[str, int]:
         """Bytes of the per-environment rows and of the stacked tables."""
         per_env = [self.state, self.step_count, self.noise, self._flip_keys, self._starts, self._cumulative,
-                   self._threshold, self._horizon, self._timeout, self.env_variant]
+                   self._threshold, self._horizon, self._timeout, self._state_offset, self.env_variant]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
         shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}

@@ -46,6 +46,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         self._autoreset = np.zeros(N, dtype=bool)
         self._every = np.ones(N, dtype=bool)
         self._every.flags.writeable = False   # every environment has every key: one shared, read-only mask
+        self._masks = [f"_{name}" for name in core.infos()["analysis_only"]]   # the mask keys, named once
 
     @property
     def models(self) -> list[TaskModel]:
@@ -95,11 +96,11 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
 
     def _infos(self) -> dict[str, Any]:
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
-        every, core = self._every, self.core
+        every, info = self._every, self.core.infos()
         hidden: dict[str, Any] = {}
-        for name, value in core.hidden_infos().items():
-            hidden[name], hidden[f"_{name}"] = value, every
-        return {"variant_id": core.variant_ids(), "_variant_id": every, "step": core.steps().copy(), "_step": every,
+        for (name, value), mask in zip(info["analysis_only"].items(), self._masks):
+            hidden[name], hidden[mask] = value, every
+        return {"variant_id": info["variant_id"], "_variant_id": every, "step": info["step"], "_step": every,
                 "analysis_only": hidden, "_analysis_only": every}
 
     def render(self) -> tuple[np.ndarray, ...] | None:
