@@ -14,7 +14,7 @@ import time
 import yaml
 
 import taskgen
-from taskgen.analysis import (best_memoryless, cue_blind_baseline, optimal_baseline, random_baseline, solvability)
+from taskgen.analysis import best_memoryless, cue_blind_baseline, optimal_baseline, random_baseline, shortest_steps
 from taskgen.tools.check import observation_tables
 
 
@@ -40,7 +40,7 @@ def main() -> None:
     variant = timed("generate variant", lambda: taskgen.make_variant(spec, args.seed))
     model = timed("compile model", lambda: taskgen.compile_variant(variant))
     tables = observation_tables(model, spec)
-    timed("solvability", lambda: solvability(model))
+    timed("solvability", lambda: shortest_steps(model))
     timed("optimal (exact)", lambda: optimal_baseline(model))
     timed("cue-blind (exact)", lambda: cue_blind_baseline(model))
     timed("random (exact)", lambda: random_baseline(model))

@@ -287,17 +287,17 @@ def analyse_cue(model: TaskModel, observations: ObservationTables | None = None,
     policy = optimal_policy(model)
     memoryless = best_memoryless(model, observations)
     chance_policy = memoryless.state_policy(model.horizon)
+    try:
+        blind_baseline, blind_error = cue_blind_baseline(model), ""
+    except AnalysisError as exc:  # the cue changes more than rewards: say so, never pass silently
+        blind_error = str(exc)
+        blind_baseline = Baseline.unavailable(CUE_BLIND_CLASS, blind_error)
     baselines = {
         "optimal": optimal_baseline(model),
         "chance": policy_figures(model, chance_policy, MEMORYLESS_CLASS, memoryless.method, memoryless.detail),
+        "cue_blind": blind_baseline,
         "random": random_baseline(model),
     }
-    try:
-        baselines["cue_blind"] = cue_blind_baseline(model)
-        blind_error = ""
-    except AnalysisError as exc:  # the cue changes more than rewards: say so, never pass silently
-        blind_error = str(exc)
-        baselines["cue_blind"] = Baseline.unavailable(CUE_BLIND_CLASS, blind_error)
     recall = recall_distances(model, policy)
     shortest = shortest_steps(model)
     checks = [solvability(model, shortest), _cue_needed(recall, decision_steps(model, policy))]

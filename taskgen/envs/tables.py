@@ -17,7 +17,7 @@ import numpy as np
 from gymnasium import spaces
 
 from ..model import TaskModel
-from ..render import TopDownRenderer, cue_truth
+from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .core import Core
@@ -285,7 +285,7 @@ class TableCore(Core):
     def ground_truth(self, i: int) -> np.ndarray:
         """The whole map, the true cue and the goals it names, outlined."""
         model = self.model_of(i)
-        return cue_truth(self._renderer(self._models.index(model)), model, self._local_state(i))
+        return truth_picture(self._renderer(self._models.index(model)), model, self._local_state(i))
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes of the per-environment rows and of the stacked tables."""

@@ -15,19 +15,21 @@ from .palette import AGENT, CUE_COLOURS, PATH, PATH_END
 from .topdown import TopDownRenderer
 
 
-def cue_truth(renderer: TopDownRenderer, model: TaskModel, state: int) -> np.ndarray:
-    """uint8[H, W, 3]: the whole map with the agent, the lamp strip in the true cue's colour and the
-    goals the true cue (a sequence of values) names outlined, at ``state`` of the model."""
+def truth_picture(renderer: TopDownRenderer, model: TaskModel, state: int) -> np.ndarray:
+    """uint8[H, W, 3]: the whole map with the agent at ``state`` of the model and, in a cue task, the
+    lamp strip in the true cue's colour and the goals the true cue (a sequence of values) names outlined."""
     picture = Image.fromarray(renderer.frame(int(model.obs_key[state])))
+    sequence = cue_sequence(model, state)
+    if not sequence:
+        return np.asarray(picture, dtype=np.uint8)
     draw = ImageDraw.Draw(picture)
     goals = model.layout.sites.get("goal", np.zeros(0, dtype=np.int64))
-    for value in cue_sequence(model, state):
+    for value in sequence:
         if value < len(goals):
             r, c = model.layout.cells[goals[value]]
             left, top, right, bottom = renderer.box(int(r), int(c))
             draw.rectangle((left - 1, top - 1, right + 1, bottom + 1), outline=AGENT, width=2)
-    draw.rectangle((0, 0, picture.width - 1, renderer.lamp_rows * renderer.px - 1),
-                   fill=CUE_COLOURS[cue_sequence(model, state)[0]])
+    draw.rectangle((0, 0, picture.width - 1, renderer.lamp_rows * renderer.px - 1), fill=CUE_COLOURS[sequence[0]])
     return np.asarray(picture, dtype=np.uint8)
 
 
