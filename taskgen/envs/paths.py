@@ -18,7 +18,7 @@ from ..model import PathRule, TaskModel
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from .core import Core
-from .streams import add_pixel_noise, flip_threshold, flips, noise_init, noise_track, subkeys, uniform
+from .streams import EpisodeNoise, add_pixel_noise, flip_threshold, noise_track, subkeys, uniform
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
               "or a split of a field holds one variant")
@@ -48,11 +48,8 @@ class PathCore(Core):
         self.start = np.zeros(n, dtype=np.int64)
         self.until = np.zeros((n, C), dtype=np.int64)
         self.falls = np.zeros(n, dtype=np.int64)
-        self.noise = np.zeros((n, self.bits), dtype=bool)
-        self.flip_keys = np.zeros(n, dtype=np.uint64)
-        self.pixel_keys = np.zeros(n, dtype=np.uint64)
         self.decoy = observations.decoy_probability
-        self.decoy_keys = np.zeros(n, dtype=np.uint64)
+        self.noise = EpisodeNoise(n, self.bits, observations.pixel_noise is not None, self.decoy > 0)
         self.rows = np.arange(n)
         self._ids = np.full(n, model.variant_id, dtype=object)
         self._ids.flags.writeable = False    # shared by every info dict: read-only
@@ -87,20 +84,14 @@ class PathCore(Core):
         self.step_count[rows] = 0
         self.until[rows] = 0
         self.falls[rows] = 0
-        if self.bits:
-            self.noise[rows] = noise_init(keys, self.bits)
-            self.flip_keys[rows] = subkeys(keys, "noise_flip")
-        if self.observations.pixel_noise is not None:
-            self.pixel_keys[rows] = subkeys(keys, "pixel_noise")
-        if self.decoy > 0:
-            self.decoy_keys[rows] = subkeys(keys, "distractor")
+        self.noise.begin(rows, keys)
 
     def shown_marks(self) -> np.ndarray:
         """bool[N, C]: the marks each agent sees now: its falls' marks and, with decoys, this
         step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
         marked = self.until > self.step_count[:, None]
         if self.decoy > 0:
-            draws = uniform(self.decoy_keys, self.step_count, 2)
+            draws = uniform(self.noise.distractor_keys, self.step_count, 2)
             show = np.flatnonzero(draws[:, 0] < self.decoy)
             if show.size:
                 C = self.rule.num_cells
@@ -126,11 +117,7 @@ class PathCore(Core):
             self.state, self.step_count = out.next_state, step
         self.falls += fell
         rule.mark_after(self.until, fell, out.aim, self.rows, self.step_count)
-        if self.bits:
-            flipped = flips(self.flip_keys, step, self.bits, self.threshold)
-            if moving is not None:
-                flipped &= moving[:, None]
-            self.noise ^= flipped
+        self.noise.flip(step, self.threshold, moving)
         return reward, out.terminal, truncated
 
     def observe(self) -> dict[str, np.ndarray]:
@@ -141,7 +128,7 @@ class PathCore(Core):
             width = self.vector.table.shape[1]
             out = np.empty((self.num_envs, width + self.bits), dtype=np.float32)
             out[:, :width] = self.vector.table[cell]
-            out[:, width:] = self.noise
+            out[:, width:] = self.noise.now
             parts["vector"] = out
         if self.observations.grid is not None:
             parts["grid"] = self.observations.grid[cell]
@@ -150,7 +137,7 @@ class PathCore(Core):
         self.overlay.apply(parts, cell, self.shown_marks())
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
-            parts["pixels"] = add_pixel_noise(parts["pixels"], self.pixel_keys, self.step_count, kind, amplitude)
+            parts["pixels"] = add_pixel_noise(parts["pixels"], self.noise.pixel_keys, self.step_count, kind, amplitude)
         return parts
 
     def infos(self) -> dict[str, Any]:
@@ -182,7 +169,7 @@ class PathCore(Core):
     def memory_bytes(self) -> dict[str, int]:
         """Bytes held per environment (state, path, marks, keys) and shared (tables)."""
         per_env: list[np.ndarray] = [self.state, self.step_count, self.kind, self.start, self.until, self.falls,
-                                     self.noise, self.flip_keys, self.pixel_keys]
+                                     *self.noise.arrays()]
         rule, obs = self.rule, self.observations
         shared: list[np.ndarray] = [rule.aim, rule.move_next, rule.fall_next, rule.state_cell, rule.state_out]
         shared += [t for t in (obs.vector.table if obs.vector is not None else None, obs.pixels) if t is not None]
@@ -231,7 +218,7 @@ class PathCore(Core):
                 obs = np.concatenate((obs, self._noise_track[min(step, self._horizon)]))
         else:
             if self.bits:
-                self.noise[0] = self._noise_track[min(step, self._horizon)] > 0.5
+                self.noise.now[0] = self._noise_track[min(step, self._horizon)] > 0.5
             obs = self._observe_scalar()
         return obs, reward, terminated, truncated, {
             "variant_id": self._variant_id, "step": step,

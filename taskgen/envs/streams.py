@@ -161,3 +161,39 @@ def add_pixel_noise(frames: np.ndarray, noise_keys: np.ndarray, step: np.ndarray
     u = uniform(noise_keys, step, 2 * h * w * c).reshape(n, 2, h, w, c)
     normal = np.sqrt(-2.0 * np.log1p(-u[:, 0])) * np.cos(2.0 * np.pi * u[:, 1])
     return np.clip(np.rint(frames + normal * (amplitude * 255.0)), 0, 255).astype(np.uint8)
+
+
+class EpisodeNoise:
+    """The per-episode randomness every runtime core draws the same way, for N environments: the
+    vector's noise bits (uniform at the start of an episode, then flipped per step) and the keys of
+    this episode's pixel noise and distractors."""
+
+    def __init__(self, n: int, bits: int, pixel_noise: bool, distractors: bool) -> None:
+        self.bits = bits
+        self.now = np.zeros((n, bits), dtype=bool)              # the noise bits each agent sees now
+        self.flip_keys = np.zeros(n, dtype=np.uint64)
+        self.pixel_keys = np.zeros(n, dtype=np.uint64)
+        self.distractor_keys = np.zeros(n, dtype=np.uint64)
+        self._pixel_noise, self._distractors = pixel_noise, distractors
+
+    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
+        """New episodes in ``rows`` from their keys: fresh bits and fresh per-step keys."""
+        if self.bits:
+            self.now[rows] = noise_init(keys, self.bits)
+            self.flip_keys[rows] = subkeys(keys, "noise_flip")
+        if self._pixel_noise:
+            self.pixel_keys[rows] = subkeys(keys, "pixel_noise")
+        if self._distractors:
+            self.distractor_keys[rows] = subkeys(keys, "distractor")
+
+    def flip(self, step: np.ndarray, threshold: np.ndarray | int, moving: np.ndarray | None) -> None:
+        """Flip this step's bits (``step``: the step just taken); rows not ``moving`` keep theirs."""
+        if self.bits:
+            flipped = flips(self.flip_keys, step, self.bits, threshold)
+            if moving is not None:
+                flipped &= moving[:, None]
+            self.now ^= flipped
+
+    def arrays(self) -> list[np.ndarray]:
+        """The arrays held per environment (for memory counts)."""
+        return [self.now, self.flip_keys, self.pixel_keys, self.distractor_keys]

@@ -22,8 +22,7 @@ from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .core import Core
 from .distractors import apply_distractors
-from .streams import (add_pixel_noise, categorical, flip_threshold, flips, noise_init, noise_track, subkeys,
-                      uniform)
+from .streams import EpisodeNoise, add_pixel_noise, categorical, flip_threshold, noise_track, subkeys, uniform
 
 
 @dataclass(frozen=True, eq=False)
@@ -94,11 +93,8 @@ class TableCore(Core):
         self._assign_rows(np.arange(N), env_variant)
         self.state = self._starts[np.arange(N), 0].copy()
         self.step_count = np.zeros(N, dtype=np.int64)
-        self.noise = np.zeros((N, self._bits), dtype=bool)
-        self._flip_keys = np.zeros(N, dtype=np.uint64)
-        self._pixel_keys = np.zeros(N, dtype=np.uint64)
-        self._distractor_keys = np.zeros(N, dtype=np.uint64)
         self._distracted = self.observations.decoy_probability > 0 or self.observations.lure_probability > 0
+        self.noise = EpisodeNoise(N, self._bits, self.observations.pixel_noise is not None, self._distracted)
         self._renderers: dict[int, TopDownRenderer] = {}
         # a single env's episode: its state and step as Python ints, the tables as lists (made once)
         self._s, self._t, self._h = -1, 0, 0
@@ -197,13 +193,7 @@ class TableCore(Core):
         pick = categorical(uniform(subkeys(keys, "cue")), self._cumulative[rows])
         self.state[rows] = self._starts[rows, pick]
         self.step_count[rows] = 0
-        if self._bits:
-            self.noise[rows] = noise_init(keys, self._bits)
-            self._flip_keys[rows] = subkeys(keys, "noise_flip")
-        if self.observations.pixel_noise is not None:
-            self._pixel_keys[rows] = subkeys(keys, "pixel_noise")
-        if self._distracted:
-            self._distractor_keys[rows] = subkeys(keys, "distractor")
+        self.noise.begin(rows, keys)
 
     def advance(self, actions: np.ndarray,
                 moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -217,11 +207,7 @@ class TableCore(Core):
         truncated = (step >= self._horizon) & ~terminated
         if self._timeout_any:
             reward += truncated * self._timeout
-        if self._bits:
-            flipped = flips(self._flip_keys, step, self._bits, self._threshold)
-            if moving is not None:
-                flipped &= moving[:, None]
-            self.noise ^= flipped
+        self.noise.flip(step, self._threshold, moving)
         if moving is not None:
             self.state = np.where(moving, next_state, s)
             self.step_count = np.where(moving, step, self.step_count)
@@ -237,7 +223,7 @@ class TableCore(Core):
             if self._bits:   # one output array; the bool bits are cast as they are copied in
                 out = np.empty((self.num_envs, self._width + self._bits), dtype=np.float32)
                 out[:, :self._width] = self._table[keys]
-                out[:, self._width:] = self.noise
+                out[:, self._width:] = self.noise.now
                 parts["vector"] = out
             else:
                 parts["vector"] = self._table[keys]
@@ -247,12 +233,12 @@ class TableCore(Core):
             frames = self._pixels[keys]
             if self.observations.pixel_noise is not None:
                 kind, amplitude = self.observations.pixel_noise
-                frames = add_pixel_noise(frames, self._pixel_keys, self.step_count, kind, amplitude)
+                frames = add_pixel_noise(frames, self.noise.pixel_keys, self.step_count, kind, amplitude)
             parts["pixels"] = frames
         if self._first_person is not None:
             parts["first_person"] = self._first_person[keys]
         if self._distracted:
-            apply_distractors(self.observations, parts, self._distractor_keys, self.step_count,
+            apply_distractors(self.observations, parts, self.noise.distractor_keys, self.step_count,
                               self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
         return parts
 
@@ -289,7 +275,7 @@ class TableCore(Core):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes of the per-environment rows and of the stacked tables."""
-        per_env = [self.state, self.step_count, self.noise, self._flip_keys, self._starts, self._cumulative,
+        per_env = [self.state, self.step_count, *self.noise.arrays(), self._starts, self._cumulative,
                    self._threshold, self._horizon, self._timeout, self._state_offset, self.env_variant]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
         shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]

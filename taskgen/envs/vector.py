@@ -38,6 +38,10 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         self.action_space = batch_space(self.single_action_space, N)
         self.observation_blocks = dict(core.blocks)
         self._num_actions = core.num_actions
+        self._bound = np.uint64(core.num_actions)
+        # the core's methods and tables, looked up once: a step is on the hot path
+        self._advance, self._begin, self._observe, self._core_infos = core.advance, core.begin, core.observe, core.infos
+        self._observations = core.observations
         self._streams = np.zeros(N, dtype=np.uint64)
         self._episodes = np.zeros(N, dtype=np.int64)
         self._keys = np.zeros(N, dtype=np.uint64)
@@ -77,26 +81,26 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
             a = a.astype(np.int64)
         # viewed as unsigned, a negative action is huge: one comparison checks both bounds
         if a.shape != (self.num_envs,) or a.dtype != np.int64 or \
-                (a.view(np.uint64) >= np.uint64(self._num_actions)).any():
+                (a.view(np.uint64) >= self._bound).any():
             raise ValueError(f"actions must be {self.num_envs} integers in [0, {self._num_actions}), "
                              f"got {actions!r}")
         resetting = self._autoreset
         moving = ~resetting if resetting.any() else None
-        reward, terminated, truncated = self.core.advance(a, moving)
+        reward, terminated, truncated = self._advance(a, moving)
         if moving is not None:
             rows = np.flatnonzero(resetting)
             self._episodes[rows] += 1
             self._keys[rows] = episode_keys(self._streams[rows], self._episodes[rows])
-            self.core.begin(rows, self._keys[rows])
+            self._begin(rows, self._keys[rows])
             reward[rows] = 0.0
             terminated &= moving
             truncated &= moving
         self._autoreset = terminated | truncated
-        return assemble(self.core.observations, self.core.observe()), reward, terminated, truncated, self._infos()
+        return assemble(self._observations, self._observe()), reward, terminated, truncated, self._infos()
 
     def _infos(self) -> dict[str, Any]:
         """Infos as gymnasium's vector envs give them: arrays with ``_key`` masks."""
-        every, info = self._every, self.core.infos()
+        every, info = self._every, self._core_infos()
         hidden: dict[str, Any] = {}
         for (name, value), mask in zip(info["analysis_only"].items(), self._masks):
             hidden[name], hidden[mask] = value, every
