@@ -5,7 +5,9 @@
 - Static leak: two reachable states that differ only in the cue, after the window, whose
   noise-free observations differ in any modality.
 - Carried cue: a memoryless policy that beats the best cue-blind agent must be carrying the cue
-  in where or when it walks; the witness shows its paths for two cue values side by side.
+  in where or when it walks; decided on the chance level's certified bounds (chance.py), and the
+  witness shows the proven best policy's paths for two cue values side by side. It does not
+  apply while the cue is still shown at the decision: that is what "cue needed" finds.
 
 :func:`analyse_cue` gathers them, with the baselines, into one report per variant.
 """
@@ -21,13 +23,12 @@ from typing_extensions import TypedDict
 
 from ..errors import AnalysisError
 from ..model import CueStructure, TaskModel, distances_from
-from .baselines import (CUE_BLIND_CLASS, cue_blind_baseline, optimal_baseline, optimal_policy, policy_figures, per_value,
+from .baselines import (CUE_BLIND_CLASS, cue_blind_baseline, optimal_baseline, optimal_policy, per_value,
                         random_baseline, shortest_steps)
-from .memoryless import MemorylessResult, ObservationTables, best_memoryless
-from .report import (TOLERANCE, Baseline, Check, Figure, Report, layout_statistics, memory_gap, memory_gap_check)
-
-MEMORYLESS_CLASS = ("memoryless, deterministic: acts on the current observation only (noise excluded); "
-                    "stochastic memoryless policies can score higher (Singh, Jaakkola & Jordan, ICML 1994)")
+from .chance import carried_check, gap, gap_check, table_chance
+from .memoryless import MemorylessResult, ObservationTables, observation_classes
+from .policysearch import NODES
+from .report import TOLERANCE, Baseline, Check, Figure, Report, layout_statistics
 
 
 def _cue(model: TaskModel) -> CueStructure:
@@ -277,27 +278,24 @@ class CueDetails:
         return {"recall_distance": [float(d) for d in self.recall.values() if d is not None]}
 
 
-def analyse_cue(model: TaskModel, observations: ObservationTables | None = None, min_gap: float = 0.0) -> Report:
+def analyse_cue(model: TaskModel, observations: ObservationTables | None = None, min_gap: float = 0.0,
+                budget: int = NODES) -> Report:
     """Run every analysis and check on one compiled cue variant.
 
     ``observations`` maps each modality the agent receives to ``(table[K, …], blocks)``, the
     noise-free rendering of every observation key; without it the observation keys themselves
-    stand for what the agent sees.
+    stand for what the agent sees. ``budget``: nodes the search for the chance level may visit.
     """
     policy = optimal_policy(model)
-    memoryless = best_memoryless(model, observations)
-    chance_policy = memoryless.state_policy(model.horizon)
+    chance = table_chance(model, observation_classes(model, observations), budget)
     try:
         blind_baseline, blind_error = cue_blind_baseline(model), ""
     except AnalysisError as exc:  # the cue changes more than rewards: say so, never pass silently
         blind_error = str(exc)
         blind_baseline = Baseline.unavailable(CUE_BLIND_CLASS, blind_error)
-    baselines = {
-        "optimal": optimal_baseline(model),
-        "chance": policy_figures(model, chance_policy, MEMORYLESS_CLASS, memoryless.method, memoryless.detail),
-        "cue_blind": blind_baseline,
-        "random": random_baseline(model),
-    }
+    optimal = optimal_baseline(model)
+    baselines = {"optimal": optimal, "chance": chance.deterministic, "chance_stochastic": chance.stochastic,
+                 "cue_blind": blind_baseline, "random": random_baseline(model)}
     recall = recall_distances(model, policy)
     shortest = shortest_steps(model)
     checks = [solvability(model, shortest), _cue_needed(recall, decision_steps(model, policy))]
@@ -308,29 +306,28 @@ def analyse_cue(model: TaskModel, observations: ObservationTables | None = None,
                         else f"the cue leaks: {leak.describe()}"))
 
     witness = ""
-    chance, blind = baselines["chance"].mean_return, baselines["cue_blind"].mean_return
-    beat = chance.mean - blind.mean if chance is not None and blind is not None else 0.0
-    if blind_error:
+    shown = [cue for cue, d in sorted(recall.items()) if d is not None and d <= 0]
+    blind = blind_baseline.mean_return
+    if shown:
+        checks.append(Check("no carried cue", None, f"does not apply: cue {shown[0]} is still shown when the optimal "
+                            "agent decides (see cue needed)"))
+    elif blind is None:
         checks.append(Check("no carried cue", None, f"cannot run: no exact cue-blind figure ({blind_error})"))
-    elif beat > TOLERANCE:
-        found = carried_cue_witness(model, memoryless)
-        witness = found.describe() if found else ""
-        checks.append(Check("no carried cue", False,
-                            f"a memoryless policy beats the cue-blind agent by {beat:.6g}: the cue is "
-                            "carried in position or timing" + (f"; paths part at step {found.diverge_step}"
-                                                               if found else "")))
     else:
-        how = "none exists" if memoryless.method == "exact" else "none found by the search"
-        checks.append(Check("no carried cue", True, f"no memoryless policy beats the cue-blind agent ({how})"))
+        found = None
+        if chance.witness is not None and chance.witness.mean_return > blind.mean + TOLERANCE:
+            found = carried_cue_witness(model, chance.witness)
+            witness = found.describe() if found else ""
+        checks.append(carried_check(blind.mean, chance, witness, found.diverge_step if found else None))
 
-    gap = memory_gap(model, per_value(model, policy), per_value(model, chance_policy),
-                     "exact" if memoryless.method == "exact" else "upper bound (chance is a search lower bound)")
-    checks.append(memory_gap_check(gap, min_gap, "the cue"))
+    optimal_returns = per_value(model, policy)
+    checks.append(gap_check(float(model.hidden.weights @ optimal_returns), chance, min_gap, "the cue"))
     solved = shortest[shortest >= 0]
     return Report(
         kind=model.kind, variant_id=model.variant_id, params=model.param_dict(), num_states=model.num_states,
         horizon=model.horizon, hidden=model.hidden.to_dict(),
         shortest=Figure.over(model.hidden, np.maximum(shortest, 0), "exact", "fewest steps to success"),
-        longest_shortest=int(solved.max()) if solved.size else -1, baselines=baselines, memory_gap=gap,
-        checks=checks, layout=layout_statistics(model),
+        longest_shortest=int(solved.max()) if solved.size else -1, baselines=baselines,
+        memory_gap=gap(model, optimal_returns, chance), chance_level=chance.level(), checks=checks,
+        layout=layout_statistics(model),
         details=CueDetails({i: int(d) for i, d in enumerate(shortest)}, recall, witness))

@@ -1,30 +1,27 @@
-"""The best memoryless agent: a deterministic map from the current observation to an action.
+"""The best memoryless agent: a deterministic map from the current observation to an action, proven.
 
 Observations are the noise-free rows the renderers give each observation key; two states
-with equal rows look the same to the agent. Finding the best memoryless policy of a partially
-observable problem is hard in general, so the figure is exact only when every candidate can be
-enumerated; otherwise it is a lower bound from coordinate ascent in which each candidate is
-evaluated exactly. Stochastic memoryless policies can do better than deterministic ones (Singh,
-Jaakkola & Jordan, ICML 1994); this figure covers the deterministic class only.
+with equal rows look the same to the agent. The best deterministic memoryless policy is found
+by branch and bound over the classes its trajectories reach (policysearch.py): ``exact`` when
+the search proves it optimal, ``bounded`` (the policy found and a certified upper bound) when
+its node budget ends first. Stochastic memoryless policies can do better than deterministic
+ones (Singh, Jaakkola & Jordan, ICML 1994); stochastic.py searches that class.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Any, Mapping
 
 import numpy as np
 
-from ..errors import AnalysisError
 from ..model import TaskModel
-from .baselines import cue_blind_policy, optimal_policy
-from .dp import Objective, backup
+from .dp import optimise
+from .policysearch import NODES, SearchResult, search
+
+JOINT_ENTRIES = 50_000   # memoised joint bounds at most; past it the search falls back to the per-class bound
 
 ObservationTables = Mapping[str, tuple[np.ndarray, Mapping[str, slice]]]
-ENUMERATION_BUDGET = 1 << 16
-PAIR_LIMIT = 48   # observations up to which the search also tries changing two at once
-SEARCH_WORK = 100_000_000   # policies evaluated × states × steps before the search stops
-IMPROVEMENT = 1e-12
 
 
 def observation_classes(model: TaskModel, observations: ObservationTables | None) -> np.ndarray:
@@ -55,216 +52,251 @@ def evaluate_memoryless(model: TaskModel, classes: np.ndarray, policies: np.ndar
     return v @ model.initial
 
 
+class TableRollout:
+    """The trajectories of a model whose observation class is a function of the state (a cue task, or a
+    field whose agent sees no marks): one per hidden value, walked on the model's tables.
+
+    A trajectory still under way is bounded by the full-information optimum from where it stands
+    (the optimum of an agent that sees the state: no memoryless policy does better). After the cue's
+    display window, cue twins — trajectories at one cell, time and progress that differ only in the
+    cue — see the same observations for ever, so under a memoryless policy they act alike for ever:
+    together they are bounded by the best policy they can share (a dynamic program over states with
+    the cue forgotten), where the cue changes rewards only. Elsewhere trajectories at one step and one
+    class are bounded together by :meth:`joint`: they take one action together for as long as they
+    share a class, each knowing the state.
+    """
+
+    def __init__(self, model: TaskModel, classes: np.ndarray, values: np.ndarray | None = None) -> None:
+        self.num_actions = model.num_actions
+        self.H, self.g, self.timeout = model.horizon, model.discount, model.timeout_reward
+        self._next, self._reward = model.next_state.tolist(), model.reward.tolist()
+        self._terminal, self._class = model.terminal.tolist(), classes.tolist()
+        self._starts = model.starts().tolist()
+        self.weights = model.hidden.weights.tolist()
+        value = optimise(model)[0] if values is None else values
+        self._value = value.tolist()
+        self._gains: dict[tuple[int, int], list[float]] = {}
+        self._pool = _TwinPool.of(model) if model.cue is not None else None
+        self._weight = model.hidden.weights[model.value].tolist()     # a state's hidden value's weight
+        self._joint: dict[tuple[int, tuple[int, ...]], float] | None = {}   # None: the per-class bound only
+        self._restrict = True          # False where a class is more than the state's (see restricted)
+        self._classes, self._num_classes = classes, int(classes.max()) + 1
+        self._next_by_action = np.ascontiguousarray(model.next_state.T)
+        self._reward_by_action = np.ascontiguousarray(model.reward.T)
+        self._last = self._reward_by_action + np.where(model.terminal[self._next_by_action], 0.0, model.timeout_reward)
+        self._ended = np.flatnonzero(model.terminal)
+
+    def starts(self) -> list[Any]:
+        """(step 0, start state, nothing gained) for each hidden value."""
+        return [(0, s, 0.0) for s in self._starts]
+
+    def walk(self, i: int, position: Any, policy: dict[Any, int]) -> tuple[Any, Any]:
+        """Follow the policy until the episode ends, the step limit comes, or a class has no action."""
+        t, s, gained = position
+        ns, rw, term, cls = self._next, self._reward, self._terminal, self._class
+        H, g = self.H, self.g
+        while t < H and not term[s]:
+            a = policy.get(cls[s], -1)
+            if a < 0:
+                return (t, s, gained), cls[s]
+            s2 = ns[s][a]
+            gained += g ** t * (rw[s][a] + (self.timeout if t == H - 1 and not term[s2] else 0.0))
+            s, t = s2, t + 1
+        return (t, s, gained), None
+
+    def gains(self, i: int, position: Any) -> list[float]:
+        """Per action: its reward, then the full-information optimum (discounted from step 0)."""
+        t, s = position[0], position[1]
+        key = (t, s)
+        row = self._gains.get(key)
+        if row is None:
+            ns, rw, term, H, g = self._next, self._reward, self._terminal, self.H, self.g
+            row = [g ** t * (rw[s][a] + (self.timeout if t == H - 1 and not term[ns[s][a]] else 0.0)
+                             + (g * self._value[t + 1][ns[s][a]] if t + 1 < H else 0.0))
+                   for a in range(self.num_actions)]
+            self._gains[key] = row
+        return row
+
+    def pooled(self, opens: list[tuple[int, Any]]) -> tuple[float, list[tuple[int, Any]]]:
+        """Cue twins after the display window bounded together, then the others by step and class
+        (:meth:`joint`); with no joint bound, the rest is left to the per-class bound."""
+        total, rest = self._pool.bound(opens) if self._pool is not None else (0.0, opens)
+        if self._joint is None or len(self._joint) > JOINT_ENTRIES:
+            return total, rest
+        groups: dict[tuple[int, int], list[int]] = {}
+        for _, position in rest:
+            t, s = position[0], position[1]
+            groups.setdefault((t, self._class[s]), []).append(s)
+        for (t, _), states in groups.items():
+            total += self.g ** t * self.joint(t, tuple(sorted(states)))
+        return total, []
+
+    def restricted(self, opens: list[tuple[int, Any]], policy: dict[Any, int]) -> float | None:
+        """Backward induction in which a state whose class ``policy`` assigns may take only that action:
+        each open trajectory's best from where it stands under the choices made so far (a memoryless
+        policy keeps them at every step), weighted and discounted from step 0."""
+        if not self._restrict:
+            return None
+        chosen = np.full(self._num_classes, -1, dtype=np.int64)
+        for cls, action in policy.items():
+            chosen[cls] = action
+        fixed = chosen[self._classes]
+        rows = np.flatnonzero(fixed >= 0)
+        penalty = np.zeros((self.num_actions, self._classes.size))      # [A, S]: contiguous per action
+        penalty[:, rows] = -np.inf
+        penalty[fixed[rows], rows] = 0.0
+        penalty[:, self._ended] = 0.0
+        first = min(position[0] for _, position in opens)
+        wanted = {position[0] for _, position in opens}
+        values: dict[int, np.ndarray] = {}
+        value = np.zeros(self._classes.size)
+        q = np.empty_like(penalty)
+        for t in range(self.H - 1, first - 1, -1):
+            if t == self.H - 1:
+                np.add(self._last, penalty, out=q)
+            else:
+                np.take(value, self._next_by_action, out=q)
+                q *= self.g
+                q += self._reward_by_action
+                q += penalty
+            value = np.maximum.reduce(q, axis=0)
+            value[self._ended] = 0.0
+            if t in wanted:
+                values[t] = value
+        return sum(self.weights[i] * self.g ** position[0] * float(values[position[0]][position[1]])
+                   for i, position in opens)
+
+    def joint(self, t: int, states: tuple[int, ...]) -> float:
+        """An upper bound on the weighted return from step ``t`` of trajectories at ``states`` (one class):
+        the best they can do if they must take one action together while they share a class and may
+        part when their classes part, each knowing its state (a memoryless policy gives one class one
+        action, so it can do no better). Discounted to step ``t``; memoised."""
+        if len(states) == 1:
+            return self._weight[states[0]] * self._value[t][states[0]]
+        key = (t, states)
+        cached = self._joint.get(key) if self._joint is not None else None
+        if cached is not None:
+            return cached
+        ns, rw, term, cls, H, g, w = self._next, self._reward, self._terminal, self._class, self.H, self.g, self._weight
+        best = -np.inf
+        for a in range(self.num_actions):
+            q = 0.0
+            parts: dict[int, list[int]] = {}
+            for s in states:
+                s2 = ns[s][a]
+                q += w[s] * (rw[s][a] + (self.timeout if t == H - 1 and not term[s2] else 0.0))
+                if t + 1 < H and not term[s2]:
+                    parts.setdefault(cls[s2], []).append(s2)
+            for part in parts.values():
+                q += g * (w[part[0]] * self._value[t + 1][part[0]] if len(part) == 1
+                          else self.joint(t + 1, tuple(sorted(part))))
+            best = max(best, q)
+        if self._joint is not None:
+            self._joint[key] = best
+        return best
+
+
+class _TwinPool:
+    """The shared-policy bound of cue twins (see :class:`TableRollout`), cached per set of cue values."""
+
+    def __init__(self, model: TaskModel, blind: np.ndarray, window: int) -> None:
+        self.model, self.blind, self.window = model, blind, window
+        self._blind, self._value = blind.tolist(), model.value.tolist()
+        self._cache: dict[int, list[list[float]]] = {}
+
+    @classmethod
+    def of(cls, model: TaskModel) -> "_TwinPool | None":
+        """The pool of a cue task where twins stay twins (the cue changes rewards only), else None."""
+        cue = model.cue
+        if cue is None or cue.by_site:
+            return None
+        blind = cue.blind_state
+        rep = np.zeros(int(blind.max()) + 1, dtype=np.int64)
+        rep[blind] = np.arange(model.num_states)
+        blind_next = blind[model.next_state]
+        if not (blind_next == blind_next[rep[blind]]).all() or not (model.terminal == model.terminal[rep[blind]]).all():
+            return None
+        return cls(model, blind, cue.sequence_length * cue.visible_steps)
+
+    def bound(self, opens: list[tuple[int, Any]]) -> tuple[float, list[tuple[int, Any]]]:
+        """Σ over groups of twins (same step and cue-blind state, after the window) of their shared optimum."""
+        groups: dict[tuple[int, int], list[int]] = {}
+        rest = []
+        for i, position in opens:
+            t, s = position[0], position[1]
+            if t >= self.window:
+                groups.setdefault((t, self._blind[s]), []).append(s)
+            else:
+                rest.append((i, position))
+        total = 0.0
+        for (t, b), states in groups.items():
+            mask = 0
+            for s in states:
+                mask |= 1 << self._value[s]
+            total += self.model.discount ** t * self._values(mask)[t][b]
+        return total, rest
+
+    def _values(self, mask: int) -> list[list[float]]:
+        """V[t][b]: the best shared policy's prior-weighted value from cue-blind state b at step t, for
+        the cue values in ``mask``."""
+        if mask not in self._cache:
+            m = self.model
+            blind, B, A, H = self.blind, int(self.blind.max()) + 1, m.num_actions, m.horizon
+            member = ((mask >> m.value) & 1).astype(bool)
+            weight = m.hidden.weights[m.value] * member
+            reward = np.zeros((B, A))
+            np.add.at(reward, blind, m.reward * weight[:, None])
+            timeout = np.zeros((B, A))
+            np.add.at(timeout, blind, weight[:, None] * np.where(m.terminal[m.next_state], 0.0, m.timeout_reward))
+            rep = np.zeros(B, dtype=np.int64)
+            rep[blind] = np.arange(m.num_states)
+            next_blind, terminal = blind[m.next_state][rep], m.terminal[rep]
+            value = np.zeros((H + 1, B))
+            for t in range(H - 1, -1, -1):
+                q = reward + (timeout if t == H - 1 else m.discount * value[t + 1][next_blind])
+                value[t] = np.where(terminal, 0.0, q.max(axis=1))
+            self._cache[mask] = value.tolist()
+        return self._cache[mask]
+
+
 @dataclass(frozen=True)
 class MemorylessResult:
-    """The best deterministic memoryless policy found, its exact value and how it was found."""
+    """The best deterministic memoryless policy found, its exact value, and what was proven."""
 
-    policy: np.ndarray        # int[O], action per observation class
+    policy: np.ndarray        # int[O], action per observation class (0 where no trajectory goes)
     classes: np.ndarray       # int[S]
     mean_return: float
-    method: str               # "exact" or "search lower bound"
+    upper: float              # no deterministic memoryless policy scores more
+    method: str               # "exact" or "bounded"
     detail: str
+    proof: SearchResult
 
     def state_policy(self, horizon: int) -> np.ndarray:
         """The policy as ``int[H, S]``, the same action at every step."""
         return np.broadcast_to(self.policy[self.classes], (horizon, self.classes.size)).copy()
 
 
-def _projection(model: TaskModel, classes: np.ndarray, policy: np.ndarray) -> np.ndarray:
-    """A memoryless policy that copies a state policy ``int[H, S]``: each observation takes the
-    action the state policy takes where its paths first meet that observation (the step-0 action
-    elsewhere). A good start for the search: it follows the state policy's own paths."""
-    num_classes = int(classes.max()) + 1
-    votes = np.zeros((num_classes, model.num_actions))
-    np.add.at(votes, (classes, policy[0]), 1.0)
-    out = votes.argmax(axis=1)
-    seen = np.zeros(num_classes, dtype=bool)
-    states = model.initial_states()
-    for t in range(model.horizon):
-        fresh = ~seen[classes[states]]
-        out[classes[states[fresh]]] = policy[t, states[fresh]]
-        seen[classes[states]] = True
-        states = model.next_state[states, policy[t, states]]
-    return out
-
-
-def proposal_gains(model: TaskModel, classes: np.ndarray, policy: np.ndarray) -> np.ndarray:
-    """float[O, A]: first-order gain of switching each observation to each action, from the
-    performance-difference identity Σ_t γ^t Σ_s d_t(s)·(Q_t(s, a) − V_t(s)) (Kakade & Langford,
-    ICML 2002) with the current policy's occupancies d_t. Exact for a change at one step, only a
-    guide for a change at every step: candidates are then evaluated exactly."""
-    S, H, A = model.num_states, model.horizon, model.num_actions
-    rows = np.arange(S)
-    act = policy[classes]
-    ns_pi = model.next_state[rows, act]
-    occupancy = np.zeros((H, S))
-    d = model.initial.copy()
-    for t in range(H):
-        occupancy[t] = d * model.discount ** t
-        d = np.bincount(ns_pi, weights=d, minlength=S) * (~model.terminal)[:S]
-    O = int(classes.max()) + 1
-    # accumulate per state over time, then per observation once (bincount beats add.at)
-    advantage = np.zeros((S, A))
-    v = np.zeros(S)
-    objective = Objective.task_return(model)
-    for t in range(H - 1, -1, -1):
-        q = backup(model.next_state, model.terminal, objective, v, last=t == H - 1)
-        v = q[rows, act]
-        advantage += occupancy[t][:, None] * (q - v[:, None])
-    return np.stack([np.bincount(classes, weights=advantage[:, a], minlength=O) for a in range(A)], axis=1)
-
-
-def _try(model: TaskModel, classes: np.ndarray, candidates: np.ndarray,
-         best: float) -> tuple[np.ndarray | None, float]:
-    """Evaluate candidate policies exactly; the best one if it beats ``best`` (else None)."""
-    values = evaluate_memoryless(model, classes, candidates)
-    j = int(np.argmax(values))
-    if values[j] > best + IMPROVEMENT:
-        return candidates[j], float(values[j])
-    return None, best
-
-
-def _best_proposed(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
-                   active: np.ndarray, tries: int = 32, batch: int = 8) -> tuple[np.ndarray, float, int, bool]:
-    """Try the changes with the largest first-order gains, exactly, in small batches; keep the
-    first batch's best if it improves."""
-    gains = proposal_gains(model, classes, policy)
-    gains[np.arange(gains.shape[0]), policy] = -np.inf
-    mask = np.zeros(gains.shape[0], dtype=bool)
-    mask[active] = True
-    gains[~mask] = -np.inf
-    order = np.argsort(-gains, axis=None)[:tries]
-    order = order[gains.ravel()[order] > IMPROVEMENT]
-    evaluated = 0
-    for first in range(0, order.size, batch):
-        o, a = np.divmod(order[first:first + batch], gains.shape[1])
-        candidates = np.repeat(policy[None, :], o.size, axis=0)
-        candidates[np.arange(o.size), o] = a
-        evaluated += o.size
-        better, value = _try(model, classes, candidates, best)
-        if better is not None:
-            return better, value, evaluated, True
-    return policy, best, evaluated, False
-
-
-def _best_single(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
-                 active: np.ndarray, rng: np.random.Generator,
-                 allowance: int) -> tuple[np.ndarray, float, int, bool]:
-    """One sweep of single-observation changes, taking each strict improvement at once."""
-    A, evaluated, improved = model.num_actions, 0, False
-    for o in rng.permutation(active):
-        if evaluated >= allowance:
-            break
-        candidates = np.repeat(policy[None, :], A, axis=0)
-        candidates[:, o] = np.arange(A)
-        evaluated += A
-        better, best = _try(model, classes, candidates, best)
-        if better is not None:
-            policy, improved = better, True
-    return policy, best, evaluated, improved
-
-
-def _best_pair(model: TaskModel, classes: np.ndarray, policy: np.ndarray, best: float,
-               active: np.ndarray) -> tuple[np.ndarray, float, int, bool]:
-    """The best change of two observations' actions at once: it crosses plateaus where one
-    change alone is worthless (say, 'wait here' only pays together with 'wait there')."""
-    A, evaluated = model.num_actions, 0
-    a1, a2 = (grid.ravel() for grid in np.meshgrid(np.arange(A), np.arange(A), indexing="ij"))
-    for i, o1 in enumerate(active[:-1]):
-        others = active[i + 1:]
-        candidates = np.repeat(policy[None, :], others.size * a1.size, axis=0)
-        rows = np.arange(candidates.shape[0])
-        candidates[rows, o1] = np.tile(a1, others.size)
-        candidates[rows, np.repeat(others, a1.size)] = np.tile(a2, others.size)
-        evaluated += candidates.shape[0]
-        better, value = _try(model, classes, candidates, best)
-        if better is not None:
-            return better, value, evaluated, True
-    return policy, best, evaluated, False
-
-
-def _ascend(model: TaskModel, classes: np.ndarray, policy: np.ndarray, active: np.ndarray,
-            rng: np.random.Generator, pair_limit: int, allowance: int) -> tuple[np.ndarray, float, int]:
-    """Local search to a policy that no change of one observation's action improves (nor of
-    two, when there are at most ``pair_limit`` observations), or until about ``allowance``
-    policies have been evaluated."""
-    best = float(evaluate_memoryless(model, classes, policy)[0])
-    evaluated = 1
-    while evaluated < allowance:
-        policy, best, n, improved = _best_proposed(model, classes, policy, best, active)
-        evaluated += n + 2          # the proposal costs about two evaluations
-        if improved:
-            continue
-        policy, best, n, improved = _best_single(model, classes, policy, best, active, rng,
-                                                 allowance - evaluated)
-        evaluated += n
-        if improved:
-            continue
-        if active.size > pair_limit:
-            break
-        policy, best, n, improved = _best_pair(model, classes, policy, best, active)
-        evaluated += n
-        if not improved:
-            break
-    return policy, best, evaluated
-
-
 def best_memoryless(model: TaskModel, observations: ObservationTables | None = None,
-                    restarts: int = 6, seed: int = 0,
-                    enumeration_budget: int = ENUMERATION_BUDGET,
-                    pair_limit: int = PAIR_LIMIT) -> MemorylessResult:
-    """Best deterministic memoryless policy: enumerated when at most ``enumeration_budget``
-    candidates exist, else searched (coordinate ascent from the projections of the cue-blind
-    and optimal policies and from ``restarts`` random policies)."""
-    classes = observation_classes(model, observations)
-    O, A = int(classes.max()) + 1, model.num_actions
-    live = np.zeros(O, dtype=bool)
-    live[classes[~model.terminal]] = True                       # actions matter only here
-    active = np.flatnonzero(live)
-    if A ** active.size <= enumeration_budget:
-        return _enumerate(model, classes, active)
-    rng = np.random.default_rng(seed)
-    starts = [_projection(model, classes, optimal_policy(model))]
-    try:
-        starts.append(_projection(model, classes, cue_blind_policy(model)))
-    except AnalysisError:
-        pass  # no cue-blind policy for this model: the other starts remain
-    starts += [rng.integers(A, size=O) for _ in range(restarts)]
-    allowance = max(64, SEARCH_WORK // (model.num_states * model.horizon))
-    best_policy, best_value, evaluated, used = starts[0], -np.inf, 0, 0
-    for start in starts:
-        if evaluated >= allowance:
-            break
-        policy, value, n = _ascend(model, classes, start.astype(np.int64), active, rng, pair_limit,
-                                   allowance - evaluated)
-        evaluated += n
-        used += 1
-        if value > best_value + IMPROVEMENT:
-            best_policy, best_value = policy, value
-    return MemorylessResult(
-        policy=best_policy, classes=classes, mean_return=best_value, method="search lower bound",
-        detail=f"local search (gain-guided, then {'one and two observations' if active.size <= pair_limit else 'one observation'} "
-        f"at a time) from {used} starts over {active.size} observations, {evaluated} policies "
-        "evaluated exactly" + (", stopped at the work budget" if evaluated >= allowance else ""),
-    )
+                    budget: int = NODES) -> MemorylessResult:
+    """The best deterministic memoryless policy, by branch and bound within ``budget`` nodes."""
+    return solve_memoryless(model, observation_classes(model, observations), budget)
 
 
-def _enumerate(model: TaskModel, classes: np.ndarray, active: np.ndarray) -> MemorylessResult:
-    """Evaluate every assignment of actions to the observations where actions matter."""
-    O, A = int(classes.max()) + 1, model.num_actions
-    total = A ** active.size
-    best_value, best_policy = -np.inf, np.zeros(O, dtype=np.int64)
-    chunk = 4096
-    for first in range(0, total, chunk):
-        index = np.arange(first, min(first + chunk, total))
-        digits = (index[:, None] // A ** np.arange(active.size)[None, :]) % A
-        policies = np.zeros((index.size, O), dtype=np.int64)
-        policies[:, active] = digits
-        values = evaluate_memoryless(model, classes, policies)
-        i = int(np.argmax(values))
-        if values[i] > best_value + IMPROVEMENT:
-            best_value, best_policy = float(values[i]), policies[i]
-    return MemorylessResult(
-        policy=best_policy, classes=classes, mean_return=best_value, method="exact",
-        detail=f"enumeration of all {total} deterministic memoryless policies",
-    )
+def solve_memoryless(model: TaskModel, classes: np.ndarray, budget: int = NODES) -> MemorylessResult:
+    """The best deterministic policy over observation classes ``classes`` int[S]."""
+    result = search(TableRollout(model, classes), budget)
+    policy = np.zeros(int(classes.max()) + 1, dtype=np.int64)
+    for cls, action in result.policy.items():
+        policy[cls] = action
+    value = float(evaluate_memoryless(model, classes, policy)[0])   # the policy's value, computed anew
+    return MemorylessResult(policy=policy, classes=classes, mean_return=value, upper=max(result.upper, value),
+                            method=result.method, detail=describe(result), proof=result)
+
+
+def describe(result: SearchResult) -> str:
+    """The proof in a line: what was searched and what it proved (its time is in the solver statistics
+    only, so that a report is the same on every run)."""
+    what = f"branch and bound over the classes trajectories reach: {result.nodes:,} nodes"
+    if result.proven:
+        return what + "; optimal (proven)"
+    return what + f", stopped at the node budget; no policy scores above {result.upper:.6g}"

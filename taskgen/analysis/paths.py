@@ -9,13 +9,11 @@ and every figure is exact on each path and reported as the sample mean with its 
 - explorer: a simple agent with memory that does not know the path: a depth-first search of
   the safe cells that remembers where it fell, where it has been and the way it got there
   (its deterministic rollout on each path is exact): a reference for what memory alone buys;
-- chance: the best deterministic memoryless policy found by a search. It acts on what it sees
-  now: the agent-view observation class of its cell and, when marks are shown to the agent,
-  which of the four cells beside it carry a mark. On one path, the dynamics and such a policy
-  are deterministic, so one rollout gives its exact return; the search keeps the best policy
-  over the sampled paths. It is a lower bound on the best memoryless score (a policy reading
-  marks farther away, or acting at random, can do better). The search chooses its policy on the
-  same paths it reports, which can only raise the figure: the memory gap it gives is conservative.
+- chance: the best deterministic memoryless policy over the sampled paths, proven or bounded,
+  and the best stochastic one found beside it (pathchance.py). It acts on what it sees now: its
+  cell's view and, when some modality shows them, the marks its falls have left. The policy is
+  chosen on the same paths it is reported on, which can only raise the figure: the memory gap
+  it gives is conservative for the field's whole path distribution.
 """
 
 from __future__ import annotations
@@ -34,16 +32,12 @@ from ..model import PathRule, PathSample, SampledSet, TaskModel
 from .baselines import RANDOM_CLASS, optimal_policy, per_value, policy_figures, shortest_steps
 from .dp import Objective, uniform_policy
 from .explorer import EXPLORER_CLASS, explore
-from .report import Baseline, Check, Figure, FigureJSON, Report, layout_statistics, memory_gap, memory_gap_check
-from .rollouts import MemorylessRollout, best_memoryless_paths
+from .chance import gap, gap_check
+from .pathchance import Seen, path_chance
+from .policysearch import NODES
+from .report import Baseline, Check, Figure, FigureJSON, Report, layout_statistics
 
 FIELD_OPTIMAL_CLASS = "knows the path: walks a shortest safe route (sees position and time)"
-FIELD_CHANCE_CLASS = ("memoryless, deterministic: acts on its cell's observation and on the marks of the four "
-                      "cells beside it (noise excluded); stochastic memoryless policies can score higher "
-                      "(Singh, Jaakkola & Jordan, ICML 1994)")
-FIELD_BLIND_CHANCE_CLASS = ("memoryless, deterministic: acts on its cell's observation (noise excluded; no mark "
-                            "beside it is in view); stochastic memoryless policies can score higher "
-                            "(Singh, Jaakkola & Jordan, ICML 1994)")
 
 
 def path_parts(model: TaskModel) -> tuple[PathRule, PathSample]:
@@ -89,10 +83,11 @@ class PathDetails:
         return {"shortest_crossing": [self.shortest.mean]}
 
 
-def analyse_paths(model: TaskModel, key_class: np.ndarray, marks_seen: bool, min_gap: float = 0.0) -> Report:
-    """Every figure and check of a field variant over the paths its model covers. ``key_class[k]``
-    numbers what the agent sees at observation key (cell) ``k``, marks and noise excluded;
-    ``marks_seen``: some modality shows it the marks on the cells beside it."""
+def analyse_paths(model: TaskModel, view: np.ndarray, seen: Seen | None = None, min_gap: float = 0.0,
+                  budget: int = NODES) -> Report:
+    """Every figure and check of a field variant over the paths its model covers. ``view[k]`` numbers
+    what the agent sees at observation key (cell) ``k``, marks and noise excluded; ``seen`` says what its
+    observation shows of the marks (None: no mark is in view); ``budget``: nodes the chance search may visit."""
     rule, sample = path_parts(model)
     K = sample.count
     _check_work(model, K)
@@ -102,25 +97,23 @@ def analyse_paths(model: TaskModel, key_class: np.ndarray, marks_seen: bool, min
     explorer = explore(rule, sample.kind, sample.start)
     baselines["explorer"] = Baseline.of(model.hidden, explorer.success, explorer.returns, explorer.length,
                                         "exact per path", EXPLORER_CLASS)
-    rollout = MemorylessRollout(rule, sample.kind, sample.start, key_class, marks_seen)
-    _, chance, used = best_memoryless_paths(rollout)
-    baselines["chance"] = Baseline.of(
-        model.hidden, chance.success, chance.returns, chance.length, "search lower bound",
-        FIELD_CHANCE_CLASS if rollout.marks_seen else FIELD_BLIND_CHANCE_CLASS,
-        f"hill-climbing, {used} policies evaluated exactly on {K} paths")
+    chance, _ = path_chance(model, rule, sample, np.asarray(view), seen, budget)
+    baselines["chance"] = chance.deterministic
+    baselines["chance_stochastic"] = chance.stochastic
     baselines["random"] = policy_figures(model, uniform, RANDOM_CLASS, "exact per path")
     falls = per_value(model, uniform, Objective(rule.falls(model, sample), 1.0, 0.0))
-    gap = memory_gap(model, per_value(model, optimal), chance.returns, "upper bound (chance is a search lower bound)")
+    optimal_returns = per_value(model, optimal)
     checks = [_solvable(shortest, model.horizon, K),
-              memory_gap_check(gap, min_gap, "where it fell", f"mean over {K} paths")]
+              gap_check(float(optimal_returns.mean()), chance, min_gap, "where it fell", f"mean over {K} paths")]
     shortest_figure = Figure.over(model.hidden, np.maximum(shortest, 0), "exact per path", "fewest steps to the end")
     details = PathDetails(K, Figure.over(model.hidden, (sample.kind != OFF).sum(axis=1), "exact per path"),
                           shortest_figure, Figure.over(model.hidden, falls, "exact per path", RANDOM_CLASS))
     return Report(
         kind=model.kind, variant_id=model.variant_id, params=model.param_dict(), num_states=model.num_states,
         horizon=model.horizon, hidden=model.hidden.to_dict(), shortest=shortest_figure,
-        longest_shortest=int(shortest.max()), baselines=baselines, memory_gap=gap, checks=checks,
-        layout=layout_statistics(model), details=details)
+        longest_shortest=int(shortest.max()), baselines=baselines, memory_gap=gap(model, optimal_returns, chance),
+        chance_level=chance.level(),
+        checks=checks, layout=layout_statistics(model), details=details)
 
 
 def _check_work(model: TaskModel, paths: int) -> None:

@@ -11,9 +11,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Annotated, Any, Mapping, Protocol
+from typing import Annotated, Any, Literal, Mapping, Protocol
 
-from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
+from typing_extensions import NotRequired, TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
 
 import numpy as np
 from pydantic import ConfigDict, Field, with_config
@@ -84,6 +84,18 @@ class Figure:
 
 
 @with_config(ConfigDict(extra="forbid"))
+class SolverJSON(TypedDict):
+    """What the search for a policy cost and proved."""
+
+    nodes: Annotated[int, Field(description="Nodes of the branch and bound.")]
+    seconds: NotRequired[Annotated[float, Field(description="Wall-clock time the search took: the one number of a "
+                                                "report that differs between runs (absent in manifests, which "
+                                                "repeat byte for byte).")]]
+    classes: Annotated[int, Field(description="Observation classes the policy found assigns.")]
+    proven: Annotated[bool, Field(description="Optimality proven (else the budget ended the search).")]
+
+
+@with_config(ConfigDict(extra="forbid"))
 class BaselineJSON(TypedDict):
     """A reference agent: its three figures (null when it cannot be computed here) and how they were found."""
 
@@ -94,11 +106,17 @@ class BaselineJSON(TypedDict):
                                  "method_detail when it could not be).")]
     policy_class: Annotated[str, Field(description="The class of agents the baseline is the best of, or the agent.")]
     method_detail: Annotated[str, Field(description="The search's size, or why the baseline is unavailable.")]
+    lower: Annotated[float | None, Field(description="A certified lower bound on the best return in the policy "
+                                         "class (the mean return of the policy found).")]
+    upper: Annotated[float | None, Field(description="A certified upper bound on it: equal to lower when exact, "
+                                         "larger when bounded, null when no bound is known (a local search).")]
+    solver: Annotated[SolverJSON | None, Field(description="The search's statistics, for a searched policy class.")]
 
 
 @dataclass(frozen=True)
 class Baseline:
-    """One reference agent's success rate, return and episode length."""
+    """One reference agent's success rate, return and episode length; for the best of a policy class, the
+    certified interval on the best return (``lower``, ``upper``) and what the search cost."""
 
     success_rate: Figure | None
     mean_return: Figure | None
@@ -106,6 +124,9 @@ class Baseline:
     method: str
     policy_class: str
     method_detail: str = ""
+    lower: float | None = None       # None: the mean return (exact)
+    upper: float | None = None       # None with a lower: no certified upper bound (a local search)
+    solver: SolverJSON | None = None
 
     @classmethod
     def unavailable(cls, policy_class: str, reason: str) -> "Baseline":
@@ -114,10 +135,21 @@ class Baseline:
 
     @classmethod
     def of(cls, hidden: HiddenSet, success: np.ndarray, returns: np.ndarray, length: np.ndarray, method: str,
-           policy_class: str, method_detail: str = "") -> "Baseline":
-        """A baseline from per-value success, return and length."""
-        return cls(Figure.over(hidden, success, method, policy_class), Figure.over(hidden, returns, method, policy_class),
-                   Figure.over(hidden, length, method, policy_class), method, policy_class, method_detail)
+           policy_class: str, method_detail: str = "", upper: float | None = None,
+           solver: SolverJSON | None = None) -> "Baseline":
+        """A baseline from per-value success, return and length (``upper``: a certified bound above the
+        mean return, for the best of a class that was not proven)."""
+        figures = [Figure.over(hidden, v, method, policy_class) for v in (success, returns, length)]
+        mean = figures[1].mean
+        return cls(figures[0], figures[1], figures[2], method, policy_class, method_detail,
+                   lower=mean, upper=mean if upper is None else max(upper, mean), solver=solver)
+
+    @property
+    def interval(self) -> tuple[float, float | None]:
+        """(lower, upper) on the best return of the class (upper None: none certified); the mean return
+        twice for an exactly computed agent."""
+        mean = self.mean_return.mean if self.mean_return is not None else float("nan")
+        return (mean if self.lower is None else self.lower), (mean if self.lower is None else self.upper)
 
     @property
     def available(self) -> bool:
@@ -128,9 +160,14 @@ class Baseline:
         """Plain data for JSON."""
         def plain(f: Figure | None) -> FigureJSON | None:
             return None if f is None else f.to_dict()
+        lower, upper = self.interval if self.available else (None, None)
         return {"success_rate": plain(self.success_rate), "mean_return": plain(self.mean_return),
                 "mean_length": plain(self.mean_length), "method": self.method,
-                "policy_class": self.policy_class, "method_detail": self.method_detail}
+                "policy_class": self.policy_class, "method_detail": self.method_detail,
+                "lower": lower, "upper": upper, "solver": self.solver}
+
+
+Verdict = Literal["pass", "fail", "undecided", "n/a"]
 
 
 @with_config(ConfigDict(extra="forbid"))
@@ -139,26 +176,36 @@ class CheckJSON(TypedDict):
 
     name: Annotated[str, Field(description="solvable, memory gap, and per kind: cue needed, no cue leak, no "
                                "carried cue.")]
-    passed: Annotated[bool | None, Field(description="true, false, or null when the check cannot run here.")]
+    verdict: Annotated[Verdict, Field(description="pass, fail, undecided (the certified interval straddles the "
+                                      "threshold: exit 1) or n/a (the check cannot run here).")]
+    passed: Annotated[bool | None, Field(description="true for pass, false for fail or undecided, null for n/a.")]
     reason: Annotated[str, Field(description="Why, with the numbers.")]
 
 
 @dataclass(frozen=True)
 class Check:
-    """A named finding: passed (True/False, or None when it cannot run here) and the reason."""
+    """A named finding: its verdict and the reason."""
 
     name: str
-    passed: bool | None
+    passed: bool | None          # True: pass; False: fail (or undecided); None: cannot run here
     reason: str
+    undecided: bool = False      # the bounds neither prove nor refute it
+
+    @property
+    def verdict(self) -> Verdict:
+        """pass, fail, undecided or n/a."""
+        if self.undecided:
+            return "undecided"
+        return "n/a" if self.passed is None else "pass" if self.passed else "fail"
 
     @property
     def failed(self) -> bool:
-        """True only for a check that ran and failed."""
+        """True for a check that failed or could not be decided: either way the task is not certified."""
         return self.passed is False
 
     def to_dict(self) -> CheckJSON:
         """Plain data for JSON."""
-        return {"name": self.name, "passed": self.passed, "reason": self.reason}
+        return {"name": self.name, "verdict": self.verdict, "passed": self.passed, "reason": self.reason}
 
 
 @with_config(ConfigDict(extra="forbid"))
@@ -200,7 +247,19 @@ class Details(Protocol):
         """Numbers a run summarises over its variants as min / median / max (under ``details``)."""
 
 
-BASELINES_EVERY_KIND_HAS = ["optimal", "chance", "random"]
+BASELINES_EVERY_KIND_HAS = ["optimal", "chance", "chance_stochastic", "random"]
+
+
+@with_config(ConfigDict(extra="forbid"))
+class ChanceLevelJSON(TypedDict):
+    """The chance level the checks use: the better of the two memoryless figures, as an interval."""
+
+    lower: Annotated[float, Field(description="The best mean return a memoryless policy found reaches (the larger "
+                                  "of chance's and chance_stochastic's lower bounds).")]
+    upper: Annotated[float, Field(description="No deterministic memoryless policy scores more (certified), and no "
+                                  "stochastic one found did; equal to lower when exact.")]
+    reached_by: Annotated[Literal["deterministic", "stochastic"], Field(
+        description="Which class of memoryless policies reached the lower bound.")]
 
 
 @with_config(ConfigDict(extra="forbid"))
@@ -217,7 +276,9 @@ class VariantJSON(TypedDict):
     shortest_solution: Annotated[FigureJSON, Field(description="Fewest steps to success, over the hidden values "
                                                    "that can succeed.")]
     step_limit_slack: Annotated[int, Field(description="Step limit − the longest shortest solution.")]
-    memory_gap: Annotated[FigureJSON, Field(description="Optimal − chance return, per hidden value.")]
+    memory_gap: Annotated[FigureJSON, Field(description="Optimal − chance return, per hidden value (chance: the "
+                                            "policy reaching the chance level's lower bound).")]
+    chance_level: ChanceLevelJSON
     layout: LayoutJSON
     baselines: Annotated[dict[str, BaselineJSON], Field(
         description="Reference agents by name: optimal, chance and random for every kind; cue_blind (cue) and "
@@ -241,6 +302,7 @@ class Report:
     longest_shortest: int         # the largest of them (−1 when none can)
     baselines: dict[str, Baseline]
     memory_gap: Figure
+    chance_level: ChanceLevelJSON
     checks: list[Check] = field(default_factory=list)
     layout: LayoutJSON = field(default_factory=lambda: LayoutJSON(cells=0, dead_ends=0, loops=0, start_to_goal=[]))
     details: Details | None = None
@@ -261,22 +323,8 @@ class Report:
             "kind": self.kind, "variant_id": self.variant_id, "ok": self.ok, "params": self.params,
             "states": self.num_states, "max_steps": self.horizon, "hidden": self.hidden,
             "shortest_solution": self.shortest.to_dict(), "step_limit_slack": self.slack,
-            "memory_gap": self.memory_gap.to_dict(), "layout": self.layout,
+            "memory_gap": self.memory_gap.to_dict(), "chance_level": self.chance_level, "layout": self.layout,
             "baselines": {k: b.to_dict() for k, b in self.baselines.items()},
             "checks": [c.to_dict() for c in self.checks],
             "details": dict(self.details.to_dict()) if self.details is not None else {},
         }
-
-
-def memory_gap(model: TaskModel, optimal: np.ndarray, chance: np.ndarray, method: str) -> Figure:
-    """Optimal − chance return, per hidden value, summarised (a paired difference for a sample)."""
-    return Figure.over(model.hidden, np.asarray(optimal) - np.asarray(chance), method, "optimal − chance")
-
-
-def memory_gap_check(gap: Figure, min_gap: float, remembered: str, over: str = "") -> Check:
-    """Optimal − chance mean return must be positive and at least ``min_gap`` (``over`` says what it
-    averages over)."""
-    enough = gap.mean > TOLERANCE and gap.mean >= min_gap - TOLERANCE
-    return Check("memory gap", enough, f"optimal − chance = {gap.mean:.6g}" + (f" ({over})" if over else "")
-                 + (f" (minimum {min_gap:g})" if min_gap else "")
-                 + ("" if enough else f": remembering {remembered} does not pay enough"))

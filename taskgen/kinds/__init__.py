@@ -17,6 +17,7 @@ from __future__ import annotations
 from typing import Any, Callable, Protocol, Sequence
 
 from ..analysis import Report
+from ..analysis.policysearch import NODES
 from ..envs.core import Core
 from ..model import TaskModel
 from ..render import ObservationSet
@@ -54,8 +55,10 @@ class TaskKind(Protocol):
              draw: bool = False) -> Core:
         """The runtime core of ``num_envs`` environments (``draw``: each draws its variant from the pool)."""
 
-    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float) -> Report:
-        """Every figure and check of one variant, on what its agent observes."""
+    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float,
+                budget: int = NODES) -> Report:
+        """Every figure and check of one variant, on what its agent observes (``budget``: nodes the search
+        for its chance level may visit)."""
 
     def fingerprint(self, model: TaskModel) -> str:
         """A hash that equal layouts (and task settings) share however they were generated."""
@@ -114,10 +117,12 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
     return kind_of(model).observations(model, spec)
 
 
-def analyse(model: TaskModel, observations: ObservationSet | None = None, min_gap: float = 0.0) -> Report:
+def analyse(model: TaskModel, observations: ObservationSet | None = None, min_gap: float = 0.0,
+            budget: int = NODES) -> Report:
     """Every figure and check of one compiled variant (``observations``: what its agent sees, from
-    :func:`observation_set`; without them the observation keys stand for what it sees)."""
-    return kind_of(model).analyse(model, observations, min_gap)
+    :func:`observation_set`; without them the observation keys stand for what it sees; ``budget``: nodes
+    the search for its chance level may visit, after which the level is an interval)."""
+    return kind_of(model).analyse(model, observations, min_gap, budget)
 
 
 __all__ = ["SAMPLES", "Policy", "TaskKind", "all_kinds", "analyse", "compile_variant", "kind_of", "make_variant",

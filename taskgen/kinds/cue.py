@@ -8,6 +8,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..analysis import Report, analyse_cue, best_memoryless, optimal_policy
+from ..analysis.policysearch import NODES
 from ..analysis.cue import CueDetailsJSON
 from ..analysis.fingerprint import fingerprint
 from ..envs.core import Core
@@ -172,7 +173,7 @@ class CueKind:
     policies: dict[str, str] = {
         "optimal": "the optimal agent, which knows the hidden cue (an analysis policy, not a learner)",
         "random": "uniform-random actions",
-        "chance": "the best memoryless policy found (acts on the current observation only)",
+        "chance": "the best deterministic memoryless policy (acts on the current observation only)",
     }
     legend: str = ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
                    "cue and the goal it names, outlined).")
@@ -196,9 +197,10 @@ class CueKind:
         """Environments stepping the stacked tables of their variants."""
         return TableCore(variants, num_envs, draw)
 
-    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float) -> Report:
+    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float,
+                budget: int = NODES) -> Report:
         """Baselines, cue needed, leaks, carried cue and the memory gap (see analysis/cue.py)."""
-        return analyse_cue(model, observations.tables() if observations is not None else None, min_gap)
+        return analyse_cue(model, observations.tables() if observations is not None else None, min_gap, budget)
 
     def fingerprint(self, model: TaskModel) -> str:
         """The canonical hash of the model's tables and layout."""
@@ -227,7 +229,7 @@ class CueKind:
                 "spanning trees of the grid, by the matrix-tree theorem")
 
     def policy(self, name: str, model: TaskModel, observations: ObservationSet, seed: int) -> Policy:
-        """optimal (knows the cue), chance (the best memoryless policy found) or random."""
+        """optimal (knows the cue), chance (the best deterministic memoryless policy) or random."""
         if name in ("optimal", "chance"):
             table = optimal_policy(model) if name == "optimal" else \
                 best_memoryless(model, observations.tables()).state_policy(model.horizon)

@@ -10,7 +10,8 @@ import numpy as np
 from ..analysis import Report, analyse_paths, optimal_policy
 from ..analysis.paths import PathDetailsJSON, path_parts
 from ..analysis.explorer import Explorer
-from ..analysis.rollouts import MemorylessRollout, best_memoryless_paths
+from ..analysis.pathchance import Seen, path_chance
+from ..analysis.policysearch import NODES
 from ..envs.core import Core
 from ..envs.paths import PathCore
 from ..errors import LayoutError
@@ -159,7 +160,7 @@ class FieldKind:
         "explorer": "the explorer, which remembers where it fell but does not know the path",
         "optimal": "the optimal agent, which knows the hidden path (an analysis policy, not a learner)",
         "random": "uniform-random actions",
-        "chance": "the best memoryless policy found (acts on the current observation only)",
+        "chance": "the best deterministic memoryless policy (acts on the current observation, its marks included)",
     }
     legend: str = ("Each frame: the agent's view (left: the agent and its marks, never the path) and the ground "
                    "truth (right: the hidden path in green, its end in yellow, marks outlined).")
@@ -184,12 +185,12 @@ class FieldKind:
         """Environments of one variant, each drawing its path at every reset."""
         return PathCore(variants, num_envs, draw)
 
-    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float) -> Report:
+    def analyse(self, model: TaskModel, observations: ObservationSet | None, min_gap: float,
+                budget: int = NODES) -> Report:
         """Baselines exact per sampled path, solvability and the memory gap (see analysis/paths.py)."""
         if observations is None:
-            return analyse_paths(model, np.arange(model.num_keys), False, min_gap)
-        marks = observations.marks
-        return analyse_paths(model, key_classes(observations), marks is not None and marks.neighbours_seen, min_gap)
+            return analyse_paths(model, np.arange(model.num_keys), None, min_gap, budget)
+        return analyse_paths(model, key_classes(observations), _seen(model, observations), min_gap, budget)
 
     def fingerprint(self, model: TaskModel) -> str:
         """The digest of the path rule (paths are drawn per episode, so the rule is the variant)."""
@@ -266,15 +267,18 @@ def _explorer(rule: PathRule) -> Policy:
     return act
 
 
-def _chance(rule: PathRule, model: TaskModel, observations: ObservationSet) -> Policy:
-    """The best memoryless policy found on the model's sampled paths, acting on the marks its own falls
-    leave (noise-free, as the analyses assume: decoy marks are not read)."""
+def _seen(model: TaskModel, observations: ObservationSet) -> Seen | None:
+    """What the agent's observation shows of the marks, or None when no mark is ever in view."""
     marks = observations.marks
+    return marks.seen if marks is not None and marks.shown and _rule(model).mark_steps > 0 else None
+
+
+def _chance(rule: PathRule, model: TaskModel, observations: ObservationSet) -> Policy:
+    """The best deterministic memoryless policy over the model's sampled paths, acting on the marks its own
+    falls leave (noise-free, as the analyses assume: decoy marks are not read)."""
     _, sample = path_parts(model)
-    rollout = MemorylessRollout(rule, sample.kind, sample.start, key_classes(observations),
-                                marks is not None and marks.neighbours_seen)
-    table, _, _ = best_memoryless_paths(rollout)
-    until = np.zeros((1, rule.num_cells), dtype=np.int64)
+    _, table = path_chance(model, rule, sample, key_classes(observations), _seen(model, observations))
+    until = np.zeros(rule.num_cells, dtype=np.int64)
     memory: dict[str, Any] = {}
 
     def act(t: int, info: dict[str, Any]) -> int:
@@ -283,9 +287,9 @@ def _chance(rule: PathRule, model: TaskModel, observations: ObservationSet) -> P
             until[:] = 0
         elif rule.mark_steps and hidden["falls"] > memory["falls"]:
             state, action = memory["last"]
-            until[0, rule.aim[state, action]] = rule.mark_until(t)
-        cell = rule.state_cell[np.asarray([hidden["state"]])]
-        action = int(table[rollout.classify(cell, until > t)[0]])
+            until[rule.aim[state, action]] = rule.mark_until(t)
+        cell = int(rule.state_cell[hidden["state"]])
+        action = table.action(cell, frozenset(np.flatnonzero(until > t).tolist()))
         memory.update(last=(hidden["state"], action), falls=hidden["falls"])
         return action
     return act

@@ -8,6 +8,7 @@ the gathered rows by :class:`MarkOverlay`, the same way in the single and the ba
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -39,7 +40,28 @@ class MarkOverlay:
                                       # cell (marks paint floor only, never walls or the agent)
     grid: int = 0                # cells across the grid view (0: no grid view)
     colour: tuple[int, int, int] = MARK   # of a mark in pixels
-    neighbours_seen: bool = False     # some modality shows the cells beside the agent with their marks
+
+    def seen(self, agent_cell: int, marked: frozenset[int]) -> tuple[frozenset[Any], ...]:
+        """What the agent's noise-free observation shows of the marks on cells ``marked`` when it stands
+        on ``agent_cell``, one entry per modality that shows marks: the marked cells (the vector's marks
+        block, full-view pixels) or their offsets inside the window (window pixels, the grid view).
+        Two situations with the same observation key and the same ``seen`` look alike. (A tile too small
+        to hold a floor pixel still counts as shown: such pictures tell the agent no more than this.)"""
+        out: list[frozenset[Any]] = []
+        if self.block is not None or (self.tiles is not None and not self.window):
+            out.append(marked)
+        for size in (self.window if self.tiles is not None else 0, self.grid):
+            if size:
+                half = size // 2
+                r0, c0 = self.cells[agent_cell]
+                out.append(frozenset((int(r - r0), int(c - c0)) for r, c in (self.cells[m] for m in marked)
+                                     if abs(r - r0) <= half and abs(c - c0) <= half))
+        return tuple(out)
+
+    @property
+    def shown(self) -> bool:
+        """True when some modality shows the agent marks at all."""
+        return self.block is not None or self.tiles is not None or bool(self.grid)
 
     def apply(self, parts: dict[str, np.ndarray], agent_cell: np.ndarray, marked: np.ndarray) -> None:
         """Lay the visible marks ``marked`` bool[N, C] over batched observations (in place): the
@@ -122,10 +144,8 @@ def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     pixel_noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
     marks = rule.mark_steps > 0
-    beside = marks and (block is not None or (spec.pixels is not None and (window == 0 or window >= 3))
-                        or (spec.grid is not None and spec.grid.size >= 3))
     overlay = MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
                           grid=spec.grid.size if marks and spec.grid is not None else 0,
-                          neighbours_seen=bool(beside), colour=rule.mark_colour)
+                          colour=rule.mark_colour)
     return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, pixel_noise, cue_values=0,
                           decoy_probability=spec.distractors.decoy_probability, marks=overlay)
