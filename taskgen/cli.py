@@ -11,6 +11,7 @@ import click
 
 from . import limits
 from .errors import TaskgenError
+from .analysis.policysearch import NODES
 from .factory import resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, report_schema, run_check
@@ -42,19 +43,24 @@ def cli() -> None:
 @click.option("--paths", default=64, show_default=True, type=click.IntRange(min=2),
               help="Hidden values sampled per variant where there are too many to list (a field's paths): "
               "figures are exact on each and averaged with their standard error.")
+@click.option("--chance-budget", default=NODES, show_default=True, type=click.IntRange(min=1),
+              help="Nodes the search for the best memoryless policy may visit per variant; when it ends first, "
+              "chance is an interval (bounded) and a check it cannot decide is undecided.")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
-          max_bytes: float | None, paths: int) -> None:
+          max_bytes: float | None, paths: int, chance_budget: int) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
     baselines for every task; for a cue task also whether the cue is needed, leaks or is carried
     without memory, the cue-blind baseline and recall distances; for a hidden-path field the
-    explorer baseline and the random agent's falls, exact per sampled path and averaged. Exits 0
-    when every check passes, 1 when one fails, 2 on a bad spec.
+    explorer baseline and the random agent's falls, exact per sampled path and averaged. The chance
+    level is proven (exact) or, when --chance-budget ends the search, an interval (bounded). Exits 0
+    when every check passes, 1 when one fails or cannot be decided, 2 on a bad spec.
     """
     with limits.raised(max_work, max_bytes):
         loaded = resolve_spec(spec)
-        run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths)
+        run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
+                        budget=chance_budget)
     click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
 

@@ -13,7 +13,8 @@ from pydantic import ConfigDict, Field, TypeAdapter, with_config
 from tqdm import tqdm
 
 from ..analysis import Baseline, Figure, Report
-from ..analysis.report import BASELINES_EVERY_KIND_HAS, BaselineJSON, VariantJSON
+from ..analysis.policysearch import NODES
+from ..analysis.report import BASELINES_EVERY_KIND_HAS, BaselineJSON, Verdict, VariantJSON
 from ..kinds import SAMPLES, all_kinds, compile_variant, kind_of, make_variant, observation_set
 from ..model import TaskModel
 from ..spec import Spec
@@ -26,12 +27,13 @@ def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
     return observation_set(model, spec.observation).tables()
 
 
-def check_variant(spec: Spec, seed: int, min_gap: float = 0.0, paths: int = SAMPLES) -> Report:
+def check_variant(spec: Spec, seed: int, min_gap: float = 0.0, paths: int = SAMPLES, budget: int = NODES) -> Report:
     """Compile one variant and run every analysis on what its agent really observes (``paths``: the
-    hidden values sampled where they cannot all be listed, as for a field's paths)."""
+    hidden values sampled where they cannot all be listed, as for a field's paths; ``budget``: nodes the
+    search for the chance level may visit before the level becomes an interval)."""
     kind = kind_of(spec)
     model = compile_variant(make_variant(spec, seed), paths)
-    return kind.analyse(model, kind.observations(model, spec.observation), min_gap)
+    return kind.analyse(model, kind.observations(model, spec.observation), min_gap, budget)
 
 
 @with_config(ConfigDict(extra="forbid"))
@@ -124,7 +126,11 @@ class CheckRun:
                 continue
             figures = [[f for f in (b.success_rate, b.mean_return, b.mean_length) if f is not None] for b in known]
             success, returns, length = (_mean_figure([row[i] for row in figures]) for i in range(3))
-            out[name] = Baseline(success, returns, length, method, first.policy_class, first.method_detail)
+            bounds = [b.interval for b in known]      # the mean of the variants' intervals bounds the mean
+            uppers = [high for _, high in bounds]
+            out[name] = Baseline(success, returns, length, method, first.policy_class, first.method_detail,
+                                 lower=sum(low for low, _ in bounds) / len(bounds),
+                                 upper=None if None in uppers else sum(h for h in uppers if h is not None) / len(bounds))
         return out
 
     def statistics(self) -> StatisticsJSON:
@@ -170,26 +176,36 @@ def report_schema() -> dict[str, Any]:
 
 
 def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0,
-              paths: int = SAMPLES) -> CheckRun:
+              paths: int = SAMPLES, budget: int = NODES) -> CheckRun:
     """Compile and analyse variants ``seed … seed+variants−1``."""
-    reports = [check_variant(spec, s, min_gap, paths)
+    reports = [check_variant(spec, s, min_gap, paths, budget)
                for s in tqdm(range(seed, seed + variants), desc=f"checking {spec.name}", unit="variant",
                              disable=None if variants > 1 else True, leave=False)]
     return CheckRun(source=source, spec=spec, reports=reports, min_gap=min_gap)
 
 
 def _baseline_rows(baselines: dict[str, Baseline]) -> list[str]:
-    rows = [f"    {'baseline':<10} {'success':>15} {'return':>17}  method"]
+    width = max(len(name) for name in baselines)
+    rows = [f"    {'baseline':<{width}} {'success':>15} {'return':>17}  method"]
     for name, b in baselines.items():
         if b.success_rate is None or b.mean_return is None:
-            rows.append(f"    {name:<10} {'n/a':>15} {'n/a':>17}  {b.method}")
+            rows.append(f"    {name:<{width}} {'n/a':>15} {'n/a':>17}  {b.method}")
         else:
-            rows.append(f"    {name:<10} {b.success_rate.text(3):>15} {b.mean_return.text(4):>17}  {b.method}")
+            rows.append(f"    {name:<{width}} {b.success_rate.text(3):>15} {b.mean_return.text(4):>17}  "
+                        f"{b.method}{_bounds(b)}")
     return rows
 
 
-def _status(passed: bool | None) -> str:
-    return {True: "pass", False: "FAIL", None: "n/a "}[passed]
+def _bounds(b: Baseline) -> str:
+    """The best return of a searched class as an interval, where it is not exact."""
+    low, high = b.interval
+    if high is None:
+        return f" (the best found: return ≥ {low:.4f})"
+    return "" if high - low <= 1e-9 else f" (best return in [{low:.4f}, {high:.4f}])"
+
+
+def _status(verdict: Verdict) -> str:
+    return {"pass": "pass", "fail": "FAIL", "undecided": "UNDECIDED", "n/a": "n/a "}[verdict]
 
 
 def _hidden_words(report: Report) -> str:
@@ -210,7 +226,10 @@ def format_text(run: CheckRun) -> str:
         lines += ["", f"  {r.variant_id}  {params}  states={r.num_states}  slack={r.slack}",
                   f"    layout: {lay['cells']} cells, {lay['dead_ends']} dead ends, {lay['loops']} loops{goals}",
                   f"    hidden: {_hidden_words(r)}"]
-        lines += [f"    {_status(c.passed)}  {c.name:<14} {c.reason}" for c in r.checks]
+        lines += [f"    {_status(c.verdict)}  {c.name:<14} {c.reason}" for c in r.checks]
+        level = r.chance_level
+        lines.append(f"    chance level: {level['lower']:.4f}" + ("" if level["upper"] - level["lower"] <= 1e-9 else
+                     f" to {level['upper']:.4f}") + f", reached by a {level['reached_by']} memoryless policy")
         lines += r.details.text_lines() if r.details is not None else []
         lines += _baseline_rows(r.baselines)
     summary, stats, details = run.summary(), run.statistics(), run.details()
@@ -229,7 +248,9 @@ def format_text(run: CheckRun) -> str:
     lines += [""] + [f"  {name:<{width}} = {b.policy_class}" + (f"; {b.method_detail}" if b.method_detail and
                                                               b.method != "exact" else "")
                      for name, b in summary.items()]
-    lines += ["  methods: exact = computed on the compiled model; per path = on each sampled path's model; "
-              "search lower bound = the best of a policy search, each candidate evaluated exactly",
+    lines += ["  methods: exact = computed on the compiled model (for the best of a class: optimality proven); "
+              "per path = on each sampled path's model; bounded = the best policy found within --chance-budget, "
+              "with a certified upper bound; search lower bound = the best policy a local search found, evaluated "
+              "exactly, with no upper bound",
               "", "ok" if run.ok else f"FAILED: {', '.join(failed)}"]
     return "\n".join(lines)

@@ -25,6 +25,7 @@ from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
 from ..kinds import compile_variant, kind_of, make_variant
 from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, manifest_text
+from ..analysis.report import BaselineJSON, SolverJSON
 from ..spec import Spec
 from .check import check_variant
 from .output import write_text_atomic
@@ -124,9 +125,19 @@ def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
     """The analyses of one accepted variant, in the report's contract (runs in a worker)."""
     spec, seed = job
     report = check_variant(spec, seed)
-    return {"baselines": {name: report.baselines[name].to_dict() for name in ("optimal", "chance", "random")},
-            "memory_gap": report.memory_gap.to_dict(), "checks_ok": report.ok,
+    return {"baselines": {name: _without_seconds(report.baselines[name].to_dict())
+                          for name in ("optimal", "chance", "chance_stochastic", "random")},
+            "memory_gap": report.memory_gap.to_dict(), "chance_level": report.chance_level, "checks_ok": report.ok,
             "details": report.details.to_dict() if report.details is not None else {}}
+
+
+def _without_seconds(baseline: BaselineJSON) -> BaselineJSON:
+    """A baseline without its search's wall-clock time, so that a manifest repeats byte for byte."""
+    solver = baseline.get("solver")
+    if solver is None:
+        return baseline
+    kept: SolverJSON = {"nodes": solver["nodes"], "classes": solver["classes"], "proven": solver["proven"]}
+    return {**baseline, "solver": kept}
 
 
 @dataclass
