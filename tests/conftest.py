@@ -77,3 +77,12 @@ def sample_paths(rule, seed: int, count: int):
 def example_spec(request) -> str:
     """Path of each bundled example spec."""
     return str(bundled_specs()[request.param])
+
+
+def timeless(report: Any) -> Any:
+    """A report's plain data without the search's wall-clock seconds, the one number that differs between runs."""
+    if isinstance(report, dict):
+        return {k: timeless(v) for k, v in report.items() if k != "seconds"}
+    if isinstance(report, list):
+        return [timeless(v) for v in report]
+    return report

@@ -68,7 +68,7 @@ def _within_4_se(samples, exact, variance):
 def test_monte_carlo_agrees_with_every_exact_figure(spec_name):
     """Rolling out the env with each baseline's policy reproduces its exact return and success
     rate within 4 standard errors (central limit theorem; common practice)."""
-    env = taskgen.make(spec_name, seed=1)
+    env = taskgen.make(spec_name, seed=0)
     model = env.model
     rng = np.random.default_rng(7)
     spec = taskgen.load_spec(taskgen.bundled_specs()[spec_name])

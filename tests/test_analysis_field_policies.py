@@ -8,7 +8,7 @@ import pytest
 
 import taskgen
 from taskgen.analysis import at_reset, evaluate
-from taskgen.analysis.rollouts import MemorylessRollout
+from taskgen.analysis.rollouts import roll
 
 from conftest import field_model, field_spec_text, sample_paths
 
@@ -19,9 +19,8 @@ def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
     model = field_model(width=4, height=5, turns=1, start="random", rewards={"step": -0.03, "fall": -0.2},
                         episode={"max_steps": 15, "discount": 0.9})
     kind, start = sample_paths(model, 0, 12)
-    rollout = MemorylessRollout(model, kind, start, np.arange(model.num_cells), marks_seen=False)
-    policy = np.random.default_rng(2).integers(4, size=rollout.classes)
-    result = rollout.run(policy)
+    policy = np.random.default_rng(2).integers(4, size=model.num_cells)
+    result = roll(model, kind, start, lambda t, cell, marked, live: policy[cell])
     for i in range(12):
         path = model.path_model(kind[i], int(start[i]))
         table = np.broadcast_to(policy[path.cell], (path.horizon, path.num_states))

@@ -77,10 +77,12 @@ def test_carried_cue_check_says_when_it_cannot_run():
     """When the cue changes transitions, the cue-blind figure is not exact: the carried-cue check
     reports n/a with the reason instead of passing."""
     spec, model = _spec_and_model(corridor_spec_text(length=3, rewards=SOUND))
-    # make cue 1's agent unable to move east from the start: the cue now changes transitions
+    # make cue 1's agent unable to step back west anywhere in the hall: the cue now changes
+    # transitions, though not the optimal agent's path (it never steps back)
     ns = model.next_state.copy()
-    start1 = model.initial_states()[model.value[model.initial_states()] == 1][0]
-    ns[start1, 1] = start1
+    back = np.flatnonzero((model.value == 1) & ~model.terminal & (ns[:, 3] != np.arange(model.num_states)))
+    assert back.size
+    ns[back, 3] = back
     broken = dataclasses.replace(model, source=dataclasses.replace(model.tables, next_state=ns))
     report = analyse(broken, observation_set(broken, spec.observation))
     check = {c.name: c for c in report.checks}["no carried cue"]

@@ -18,8 +18,9 @@ def _run(*args: str) -> subprocess.CompletedProcess:
 
 
 def test_check_passes_on_every_example(example_spec):
-    """`taskgen check` exits 0 on each example and ends with 'ok'."""
-    out = _run("check", example_spec, "--variants", "3")
+    """`taskgen check` exits 0 on each example (its first variant, as the README's command runs it)
+    and ends with 'ok'."""
+    out = _run("check", example_spec)
     assert out.returncode == 0, out.stdout + out.stderr
     assert out.stdout.rstrip().endswith("ok")
 
@@ -34,8 +35,13 @@ def test_check_json_has_the_documented_shape():
     assert [v["variant_id"] for v in data["variants"]] == ["lantern-hall-s4", "lantern-hall-s5"]
     for name in ("optimal", "chance", "cue_blind", "random"):
         assert {"success_rate", "mean_return", "method"} <= set(data["baselines"][name])
-        expected = {"exact", "search lower bound"} if name == "chance" else {"exact"}
-        assert data["baselines"][name]["method"] in expected
+        assert data["baselines"][name]["method"] == "exact"       # chance: proven, not searched
+    stochastic = data["baselines"]["chance_stochastic"]
+    assert stochastic["method"] == "search lower bound" and stochastic["upper"] is None
+    for row in data["variants"]:
+        chance = row["baselines"]["chance"]
+        assert chance["lower"] == chance["upper"] and chance["solver"]["proven"] is True
+        assert row["chance_level"]["reached_by"] in {"deterministic", "stochastic"}
     assert data["baselines"]["chance"]["success_rate"]["mean"] == pytest.approx(0.5)
 
 
@@ -94,7 +100,7 @@ def test_check_on_a_field_prints_per_path_figures_and_json():
     assert data["kind"] == "field" and data["ok"] is True
     row = data["variants"][0]
     assert row["hidden"]["count"] == 8 and [c["name"] for c in row["checks"]] == ["solvable", "memory gap"]
-    assert set(row["baselines"]) == {"optimal", "explorer", "chance", "random"}
+    assert set(row["baselines"]) == {"optimal", "explorer", "chance", "chance_stochastic", "random"}
     figure = row["baselines"]["optimal"]["mean_return"]
     assert set(figure) == {"mean", "standard_error", "minimum", "maximum", "method", "policy_class"}
     assert row["details"]["random_falls"]["mean"] > 0
