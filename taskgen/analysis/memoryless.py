@@ -289,7 +289,7 @@ def solve_memoryless(model: TaskModel, classes: np.ndarray, budget: int = NODES)
     for cls, action in result.policy.items():
         policy[cls] = action
     value = float(evaluate_memoryless(model, classes, policy)[0])   # the policy's value, computed anew
-    return MemorylessResult(policy=policy, classes=classes, mean_return=value, upper=max(result.upper, value),
+    return MemorylessResult(policy=policy, classes=classes, mean_return=value, upper=value if result.proven else max(result.upper, value),
                             method=result.method, detail=describe(result), proof=result)
 
 

@@ -217,6 +217,7 @@ def path_chance(model: TaskModel, rule: PathRule, sample: PathSample, view: np.n
     lower = float(runs.returns.mean())
     upper = max(min(relaxed.upper, marks.upper), lower)
     proven = marks.proven or upper - lower <= TOLERANCE
+    upper = lower if proven else upper          # proven: the interval is the value itself
     seconds = time.perf_counter() - began
     nodes = blind.proof.nodes + relaxed.nodes + marks.nodes
     detail = (f"{nodes:,} nodes of branch and bound and {sum(c[0][2] for c in climbs):,} hill-climbing trials. "
