@@ -63,7 +63,8 @@ class TableRollout:
     together they are bounded by the best policy they can share (a dynamic program over states with
     the cue forgotten), where the cue changes rewards only. Elsewhere trajectories at one step and one
     class are bounded together by :meth:`joint`: they take one action together for as long as they
-    share a class, each knowing the state.
+    share a class, each knowing the state. Where those do not prune, :meth:`restricted` bounds each
+    trajectory under the actions already chosen, wherever and whenever their classes come back.
     """
 
     def __init__(self, model: TaskModel, classes: np.ndarray, values: np.ndarray | None = None) -> None:
