@@ -106,3 +106,23 @@ def test_check_on_a_field_prints_per_path_figures_and_json():
     assert row["details"]["random_falls"]["mean"] > 0
     text = _run("check", path, "--paths", "8")
     assert "± " in text.stdout and "expected falls" in text.stdout and text.stdout.rstrip().endswith("ok")
+
+
+def test_a_chance_budget_too_small_to_decide_exits_1_with_an_interval(tmp_path):
+    """With --chance-budget 1 the chance level of a three-lane hall is an interval (bounded) and a check
+    it cannot decide is undecided: exit 1, the verdict and the interval in the JSON (the meaning of a
+    certified bound; common practice)."""
+    spec = tmp_path / "hall.yaml"
+    spec.write_text(corridor_spec_text(length=1, arm_length=1, values=4,
+                                       rewards={"correct": 1.0, "wrong": -1.0, "step": -0.01, "timeout": -1.0},
+                                       episode={"max_steps": 8}).replace("arm_length:", "width: 3\n    arm_length:"))
+    out = _run("check", str(spec), "--chance-budget", "1", "--json")
+    assert out.returncode == 1, out.stderr
+    row = json.loads(out.stdout)["variants"][0]
+    chance = row["baselines"]["chance"]
+    assert chance["method"] == "bounded" and chance["upper"] > chance["lower"]
+    assert chance["solver"]["proven"] is False and chance["solver"]["nodes"] == 1
+    assert "undecided" in {c["verdict"] for c in row["checks"]}
+    decided = json.loads(_run("check", str(spec), "--json").stdout)["variants"][0]   # the default budget decides
+    assert "undecided" not in {c["verdict"] for c in decided["checks"]}
+    assert decided["baselines"]["chance"]["method"] == "exact"
