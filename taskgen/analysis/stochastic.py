@@ -123,4 +123,4 @@ def best_stochastic(model: TaskModel, classes: np.ndarray, starts: list[np.ndarr
     return StochasticResult(best_policy, classes, float(best_value),
                             f"L-BFGS-B ascent on the exact return from {R} starts together (uniform, "
                             f"{len(starts)} deterministic polic{'y' if len(starts) == 1 else 'ies'}, a random "
-                            f"policy): {result.nfev} evaluations of at most {iterations}; a lower bound")
+                            f"policy): {result.nfev} evaluations of at most {iterations}")
