@@ -9,7 +9,6 @@ import yaml
 from taskgen import analyse, compile_variant, load_spec_text, make_variant, observation_set
 from taskgen.analysis.chance import carried_check, gap_check, table_chance
 from taskgen.model import TaskModel
-from taskgen.render.observations import key_classes
 
 from test_analysis_policysearch import model_and_classes
 

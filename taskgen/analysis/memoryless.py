@@ -81,6 +81,7 @@ class TableRollout:
         self._weight = model.hidden.weights[model.value].tolist()     # a state's hidden value's weight
         self._joint: dict[tuple[int, tuple[int, ...]], float] | None = {}   # None: the per-class bound only
         self._restrict = True          # False where a class is more than the state's (see restricted)
+        self._closes: list[list[bool]] | None = None   # [S][A]: moves after which a trajectory closes (walk)
         self._classes, self._num_classes = classes, int(classes.max()) + 1
         self._next_by_action = np.ascontiguousarray(model.next_state.T)
         self._reward_by_action = np.ascontiguousarray(model.reward.T)
@@ -92,9 +93,11 @@ class TableRollout:
         return [(0, s, 0.0) for s in self._starts]
 
     def walk(self, i: int, position: Any, policy: dict[Any, int]) -> tuple[Any, Any]:
-        """Follow the policy until the episode ends, the step limit comes, or a class has no action."""
+        """Follow the policy until the episode ends, the step limit comes, or a class has no action (or,
+        where ``_closes`` marks a move, the move is made: the full-information optimum from there is
+        added and the trajectory closes)."""
         t, s, gained = position
-        ns, rw, term, cls = self._next, self._reward, self._terminal, self._class
+        ns, rw, term, cls, closes = self._next, self._reward, self._terminal, self._class, self._closes
         H, g = self.H, self.g
         while t < H and not term[s]:
             a = policy.get(cls[s], -1)
@@ -102,6 +105,10 @@ class TableRollout:
                 return (t, s, gained), cls[s]
             s2 = ns[s][a]
             gained += g ** t * (rw[s][a] + (self.timeout if t == H - 1 and not term[s2] else 0.0))
+            if closes is not None and closes[s][a]:
+                if t + 1 < H:
+                    gained += g ** (t + 1) * self._value[t + 1][s2]
+                return (t + 1, s2, gained), None
             s, t = s2, t + 1
         return (t, s, gained), None
 

@@ -148,31 +148,15 @@ def improve(rollout: MarkRollout, fallback: np.ndarray, trials: int) -> tuple[di
 
 class FirstFallRollout(TableRollout):
     """The relaxation of :mod:`this module <taskgen.analysis.pathchance>`: the view-only policy until the
-    first fall, then the full-information optimum (a trajectory closes at its first fall)."""
+    first fall, then the full-information optimum (a trajectory closes at its first fall: the table walk
+    with the falls as its closing moves)."""
 
     def __init__(self, model: TaskModel, classes: np.ndarray, rule: PathRule, sample: PathSample,
                  values: np.ndarray | None = None) -> None:
         super().__init__(model, classes, values)
         self._joint = None            # a trajectory closes at its first fall: the bounds over states do not apply
         self._restrict = False
-        self._fell = rule.falls(model, sample).astype(bool).tolist()
-
-    def walk(self, i: int, position: Any, policy: dict[Any, int]) -> tuple[Any, Any]:
-        """Follow the policy; at a fall, add the optimum from where the fall leaves the agent and close."""
-        t, s, gained = position
-        ns, rw, term, cls, H, g = self._next, self._reward, self._terminal, self._class, self.H, self.g
-        while t < H and not term[s]:
-            a = policy.get(cls[s], -1)
-            if a < 0:
-                return (t, s, gained), cls[s]
-            s2 = ns[s][a]
-            gained += g ** t * (rw[s][a] + (self.timeout if t == H - 1 and not term[s2] else 0.0))
-            if self._fell[s][a]:
-                if t + 1 < H:
-                    gained += g ** (t + 1) * self._value[t + 1][s2]
-                return (t + 1, s2, gained), None
-            s, t = s2, t + 1
-        return (t, s, gained), None
+        self._closes = rule.falls(model, sample).astype(bool).tolist()
 
 
 @dataclass(frozen=True)
