@@ -14,7 +14,7 @@ from tqdm import tqdm
 
 from ..analysis import Baseline, Figure, Report
 from ..analysis.policysearch import NODES
-from ..analysis.report import BASELINES_EVERY_KIND_HAS, BaselineJSON, Verdict, VariantJSON
+from ..analysis.report import BASELINES_EVERY_KIND_HAS, TOLERANCE, BaselineJSON, Verdict, VariantJSON
 from ..kinds import SAMPLES, all_kinds, compile_variant, kind_of, make_variant, observation_set
 from ..model import TaskModel
 from ..spec import Spec
@@ -201,7 +201,7 @@ def _bounds(b: Baseline) -> str:
     low, high = b.interval
     if high is None:
         return f" (the best found: return ≥ {low:.4f})"
-    return "" if high - low <= 1e-9 else f" (best return in [{low:.4f}, {high:.4f}])"
+    return "" if high - low <= TOLERANCE else f" (best return in [{low:.4f}, {high:.4f}])"
 
 
 def _status(verdict: Verdict) -> str:
@@ -228,7 +228,7 @@ def format_text(run: CheckRun) -> str:
                   f"    hidden: {_hidden_words(r)}"]
         lines += [f"    {_status(c.verdict)}  {c.name:<14} {c.reason}" for c in r.checks]
         level = r.chance_level
-        lines.append(f"    chance level: {level['lower']:.4f}" + ("" if level["upper"] - level["lower"] <= 1e-9 else
+        lines.append(f"    chance level: {level['lower']:.4f}" + ("" if level["upper"] - level["lower"] <= TOLERANCE else
                      f" to {level['upper']:.4f}") + f", reached by a {level['reached_by']} memoryless policy")
         lines += r.details.text_lines() if r.details is not None else []
         lines += _baseline_rows(r.baselines)
