@@ -53,7 +53,7 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
     baselines for every task; for a cue task also whether the cue is needed, leaks or is carried
     without memory, the cue-blind baseline and recall distances; for a hidden-path field the
-    explorer baseline and the random agent's falls, exact per sampled path and averaged. The chance
+    explorer baseline and the random agent's missteps, exact per sampled path and averaged. The chance
     level is proven (exact) or, when --chance-budget ends the search, an interval (bounded). Exits 0
     when every check passes, 1 when one fails or cannot be decided, 2 on a bad spec.
     """
@@ -92,7 +92,7 @@ def bench(spec: str, num_envs: int, seconds: float, sync_envs: int | None, as_js
               help="A split and its size per sweep point (repeatable; default train=1000 test=200).")
 @click.option("--sweep", "sweeps", multiple=True, metavar="KEY=VALUES",
               help="Sweep a spec field, e.g. layout.corridor.length=4,8,16 or =4:16:4 (repeatable).")
-@click.option("--zip", "zipped", is_flag=True, help="Pair sweep values in order instead of crossing them.")
+@click.option("--zip", "zipped", is_flag=True, help="Pair sweep values in order instead of taking every combination.")
 @click.option("--disjoint", is_flag=True, help="No layout fingerprint in two variants (or two splits).")
 @click.option("--holdout", metavar="KEY=VALUES",
               help="Values of one drawn parameter kept for the held-out split only, e.g. "
@@ -129,7 +129,7 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
               help="Episodes per spec.")
 @click.option("--policy", type=click.Choice(["auto", "optimal", "random", "chance", "explorer"]), default="auto",
               show_default=True, help="Who plays: optimal (knows the cue or the path), random, the best "
-              "memoryless policy, or on fields the explorer (remembers its falls); auto: optimal, or the "
+              "memoryless policy, or on fields the explorer (remembers its missteps); auto: optimal, or the "
               "explorer on fields.")
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first episode.")

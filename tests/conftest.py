@@ -44,14 +44,14 @@ FIELD_SPECS = sorted(name for name, path in bundled_specs().items() if _is_field
 
 
 def field_spec_text(width: Any = 3, height: Any = 4, turns: Any = 0, start: str = "middle",
-                    fall: dict | None = None, mark: Any = "default", rewards: dict | None = None,
+                    misstep: dict | None = None, mark: Any = "default", rewards: dict | None = None,
                     episode: dict | None = None, observation: dict | None = None,
                     path: dict | None = None) -> str:
     """YAML text of a hidden-path field spec with the given fields."""
     field: dict[str, Any] = {"width": width, "height": height,
                              "path": {"turns": turns, "start": start, **(path or {})}}
-    if fall is not None:
-        field["fall"] = fall
+    if misstep is not None:
+        field["misstep"] = misstep
     if mark != "default":
         field["mark"] = mark
     doc: dict[str, Any] = {"format_version": 1, "name": "test-field", "layout": {"field": field}}

@@ -16,7 +16,7 @@ from conftest import field_model, field_spec_text, sample_paths
 def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
     """Without marks in view a memoryless policy is a policy of the cell, so its rollout return
     on each path equals dynamic programming's exact value on that path's model (common practice)."""
-    model = field_model(width=4, height=5, turns=1, start="random", rewards={"step": -0.03, "fall": -0.2},
+    model = field_model(width=4, height=5, turns=1, start="random", rewards={"step": -0.03, "misstep": -0.2},
                         episode={"max_steps": 15, "discount": 0.9})
     kind, start = sample_paths(model, 0, 12)
     policy = np.random.default_rng(2).integers(4, size=model.num_cells)
@@ -31,11 +31,11 @@ def test_rollouts_equal_exact_policy_evaluation_when_marks_are_unseen():
 def test_the_explorer_on_a_one_turn_path_worked_example():
     """Worked example: 3 columns, 5 rows, start in the middle, one turn at the far side. The
     explorer walks 4 steps north, then east along the far row: if the path turns east it
-    arrives at step 5, 1 − 5 × 0.01 = 0.95; if west it falls (−0.05), walks back up 4 steps
+    arrives at step 5, 1 − 5 × 0.01 = 0.95; if west it steps off (−0.05), walks back up 4 steps
     and goes west, arriving at step 10: 1 − 10 × 0.01 − 0.05 = 0.85."""
     from taskgen.analysis.explorer import explore
     from taskgen.generate.paths import GOAL
-    model = field_model(width=3, height=5, turns=1, rewards={"step": -0.01, "fall": -0.05},
+    model = field_model(width=3, height=5, turns=1, rewards={"step": -0.01, "misstep": -0.05},
                         episode={"max_steps": 30})
     kind, start = sample_paths(model, 0, 16)
     result = explore(model, kind, start)
@@ -48,7 +48,7 @@ def test_the_explorer_on_a_one_turn_path_worked_example():
 @pytest.mark.parametrize("fields", [
     dict(width=7, height=8, turns=5, start="random"),
     dict(width=8, height=7, turns=3, start="random", path={"width": 2}),
-    dict(width=6, height=6, turns=4, start="random", fall={"to": "stay"}),
+    dict(width=6, height=6, turns=4, start="random", misstep={"to": "stay"}),
     dict(width=8, height=8, start="random", maze="backtracker"),
     dict(width=9, height=6, start="random", maze="rooms"),
 ], ids=["winding", "wide", "stay", "backtracker walls", "rooms walls"])

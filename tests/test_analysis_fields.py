@@ -35,31 +35,31 @@ def test_winding_random_paths_need_memory_and_the_figures_are_ordered():
     """With a random start and turns, knowing the path beats every memoryless policy found, and
     the chance level is a lower bound no higher than the optimal agent (common practice)."""
     spec = _spec(width=5, height=6, turns=2, start="random", mark={"steps": 2},
-                 rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 60})
+                 rewards={"step": -0.01, "misstep": -0.05, "timeout": -0.5}, episode={"max_steps": 60})
     report = check_variant(spec, 0, paths=32)
     b = report.baselines
     assert b["optimal"].success_rate.mean == 1.0
     assert b["chance"].mean_return.mean < b["optimal"].mean_return.mean
-    assert report.details.random_falls.mean > 1.0
+    assert report.details.random_missteps.mean > 1.0
     assert report.ok and [c.name for c in report.checks] == ["solvable", "memory gap"]
 
 
 def test_marks_that_never_fade_help_an_agent_without_memory():
-    """A memoryless agent that sees marks which last the whole episode can avoid cells it fell
+    """A memoryless agent that sees marks which last the whole episode can avoid cells it stepped off
     into; hiding the marks from the vector takes that away (common practice: a lasting mark is
     external memory)."""
     fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": "episode"},
-                  rewards={"step": -0.01, "fall": -0.05, "timeout": -0.5}, episode={"max_steps": 80})
+                  rewards={"step": -0.01, "misstep": -0.05, "timeout": -0.5}, episode={"max_steps": 80})
     seen = check_variant(_spec(**fields), 0, paths=32)
     hidden = check_variant(_spec(observation={"vector": {"marks": False}}, **fields), 0, paths=32)
     assert seen.baselines["chance"].mean_return.mean > hidden.baselines["chance"].mean_return.mean + 0.3
 
 
-def test_a_step_limit_below_the_crossing_fails_solvability():
+def test_a_step_limit_below_the_shortest_route_fails_solvability():
     """Six rows need at least five steps: a limit of 3 fails, naming the path and the numbers (common practice)."""
     report = check_variant(_spec(width=3, height=6, episode={"max_steps": 3}), 0, paths=4)
     solvable = report.checks[0]
-    assert solvable.passed is False and "shortest crossing 5 steps exceeds the step limit 3" in solvable.reason
+    assert solvable.passed is False and "shortest route 5 steps exceeds the step limit 3" in solvable.reason
 
 
 def test_path_averages_match_the_standard_library():
@@ -82,8 +82,8 @@ def test_pruned_path_models_give_the_same_exact_figures():
     """Keeping only the states reachable from the start changes no exact figure: optimal and
     uniform-random returns at reset agree with the full model's to 1e-12 (common practice)."""
     from taskgen.analysis import optimise, uniform_policy
-    model = field_model(width=5, height=6, turns=2, start="random", fall={"max_falls": 4},
-                        rewards={"step": -0.01, "fall": -0.2}, episode={"max_steps": 40})
+    model = field_model(width=5, height=6, turns=2, start="random", misstep={"limit": 4},
+                        rewards={"step": -0.01, "misstep": -0.2}, episode={"max_steps": 40})
     kind, start = sample_paths(model, 0, 4)
     for k, s in zip(kind, start):
         full, pruned = model.path_model(k, int(s)), model.path_model(k, int(s), reachable_only=True)
@@ -96,7 +96,7 @@ def test_analyses_over_the_work_cap_are_refused_with_the_numbers():
     """When the sampled paths' dynamic programming would exceed the work cap, the check stops
     before solving and says how to go on (fewer paths, or a higher cap) (common practice)."""
     from taskgen import limits
-    spec = _spec(width=6, height=8, turns=2, start="random", fall={"max_falls": 8}, episode={"max_steps": 60})
+    spec = _spec(width=6, height=8, turns=2, start="random", misstep={"limit": 8}, episode={"max_steps": 60})
     with limits.raised(max_work=400_000), pytest.raises(limits.ResourceLimitError, match="--paths"):
         check_variant(spec, 0, paths=64)
     with limits.raised(max_work=400_000):

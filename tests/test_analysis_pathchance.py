@@ -7,7 +7,7 @@ import pytest
 
 from taskgen import compile_variant, load_spec_text, make_variant, observation_set
 from taskgen.analysis.memoryless import solve_memoryless
-from taskgen.analysis.pathchance import FirstFallRollout, MarkRollout, _roll, MarkPolicy, path_chance
+from taskgen.analysis.pathchance import FirstMisstepRollout, MarkRollout, _roll, MarkPolicy, path_chance
 from taskgen.analysis.paths import path_parts
 from taskgen.analysis.policysearch import search
 from taskgen.kinds.field import _seen
@@ -26,7 +26,7 @@ def _parts(paths: int = 6, **fields):
 
 
 SMALL = dict(width=3, height=3, turns=1, start="random", mark={"steps": "episode"},
-             rewards={"step": -0.02, "fall": -0.2, "timeout": -1.0}, episode={"max_steps": 10})
+             rewards={"step": -0.02, "misstep": -0.2, "timeout": -1.0}, episode={"max_steps": 10})
 
 
 def test_the_marks_search_value_is_the_value_of_its_policy_rolled_out():
@@ -45,14 +45,14 @@ def test_the_marks_search_value_is_the_value_of_its_policy_rolled_out():
 
 def test_the_bounds_bracket_the_proven_marks_aware_optimum():
     """Ignoring the marks is one marks-aware policy (a lower bound); knowing the path after the first
-    fall can only help (an upper bound). On a field small enough to prove the marks-aware optimum,
+    misstep can only help (an upper bound). On a field small enough to prove the marks-aware optimum,
     blind ≤ optimum ≤ relaxation, and the reported interval contains the optimum whatever the
     budget (the meaning of a relaxation bound; common practice)."""
     model, rule, sample, view, seen = _parts(**SMALL)
     classes = view[model.obs_key]
     blind = solve_memoryless(model, classes)
     optimum = search(MarkRollout(model, classes, rule, sample, seen))
-    relaxed = search(FirstFallRollout(model, classes, rule, sample))
+    relaxed = search(FirstMisstepRollout(model, classes, rule, sample))
     assert optimum.proven and relaxed.proven
     assert blind.mean_return <= optimum.value + 1e-9 <= relaxed.value + 2e-9
     for budget in (1, 50, 2_000_000):

@@ -92,7 +92,7 @@ def test_schema_and_reference_commands_print_and_write(tmp_path):
 
 def test_check_on_a_field_prints_per_path_figures_and_json():
     """On a field spec, --json gives each variant's baselines as mean, standard error, minimum and
-    maximum over --paths sampled paths, the checks, and the random agent's expected falls."""
+    maximum over --paths sampled paths, the checks, and the random agent's expected missteps."""
     path = str(taskgen.bundled_specs()["marsh-stones"])
     out = _run("check", path, "--paths", "8", "--json")
     assert out.returncode == 0, out.stderr
@@ -103,9 +103,9 @@ def test_check_on_a_field_prints_per_path_figures_and_json():
     assert set(row["baselines"]) == {"optimal", "explorer", "chance", "chance_stochastic", "random"}
     figure = row["baselines"]["optimal"]["mean_return"]
     assert set(figure) == {"mean", "standard_error", "minimum", "maximum", "method", "policy_class"}
-    assert row["details"]["random_falls"]["mean"] > 0
+    assert row["details"]["random_missteps"]["mean"] > 0
     text = _run("check", path, "--paths", "8")
-    assert "± " in text.stdout and "expected falls" in text.stdout and text.stdout.rstrip().endswith("ok")
+    assert "± " in text.stdout and "expected missteps" in text.stdout and text.stdout.rstrip().endswith("ok")
 
 
 def test_a_chance_budget_too_small_to_decide_exits_1_with_an_interval(tmp_path):

@@ -106,7 +106,7 @@ def test_wrong_action_is_refused():
 
 
 def test_render_is_an_rgb_picture():
-    """render() returns an RGB uint8 array; the lamp strip shows the cue only while visible."""
+    """render() returns an RGB uint8 array; the lamp shows the cue only while visible."""
     env = taskgen.make("lantern-hall", render_mode="rgb_array")
     env.reset(seed=0)
     first = env.render()

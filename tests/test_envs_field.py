@@ -49,7 +49,7 @@ def test_batch_equals_sync_vector_env_of_single_envs(modality):
     """Over 1,500 random steps with resets at different times, the batch gives exactly what
     gymnasium's SyncVectorEnv of single envs gives (gymnasium's vector semantics are the reference)."""
     spec = _spec(MODALITIES[modality], width=5, height=6, turns=2, start="random", mark={"steps": 3},
-                 fall={"max_falls": 4}, rewards={"step": -0.01, "fall": -0.2}, episode={"max_steps": 30})
+                 misstep={"limit": 4}, rewards={"step": -0.01, "misstep": -0.2}, episode={"max_steps": 30})
     ours = taskgen.make_vec(spec, 4)
     theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec)] * 4)
     rng = np.random.default_rng(3)
@@ -64,7 +64,7 @@ def test_batch_equals_sync_vector_env_of_single_envs(modality):
                 assert all(np.array_equal(u[k], v[k]) for k in u), t
             else:
                 assert np.array_equal(u, v), t
-        for key in ("path", "start", "state", "falls"):
+        for key in ("path", "start", "state", "missteps"):
             assert np.array_equal(x[-1]["analysis_only"][key], y[-1]["analysis_only"][key]), (t, key)
 
 
@@ -114,8 +114,8 @@ def test_two_different_paths_look_the_same_at_the_start(modality):
 
 @pytest.mark.parametrize("steps", [1, 3, "episode"])
 def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
-    """After a fall, the marks block has the aimed cell's bit set in exactly ``steps``
-    observations (the one right after the fall included), or until the episode ends (common practice)."""
+    """After a misstep, the marks block has the aimed cell's bit set in exactly ``steps``
+    observations (the one right after the misstep included), or until the episode ends (common practice)."""
     spec = _spec({"vector": {"position": "one_hot", "walls": False}}, width=3, height=6, mark={"steps": steps},
                  episode={"max_steps": 40})
     env = taskgen.make(spec)
@@ -123,10 +123,10 @@ def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
     block = env.observation_blocks["marks"]
     start = info["analysis_only"]["start"]
     obs, _, _, _, info = env.step(1)             # east of the middle column: off the path
-    assert info["analysis_only"]["falls"] == 1
+    assert info["analysis_only"]["missteps"] == 1
     seen = [obs[block][start + 1] == 1]
     for _ in range(6):
-        obs, *_ = env.step(2)                     # south at the start: bump, no new fall
+        obs, *_ = env.step(2)                     # south at the start: bump, no new misstep
         seen.append(obs[block][start + 1] == 1)
     expect = [True] * 7 if steps == "episode" else [i < steps for i in range(7)]
     assert seen == expect
@@ -141,14 +141,14 @@ def test_no_mark_means_no_marks_block():
 
 @pytest.mark.parametrize("fields", [
     dict(width=4, height=5, turns=2, start="random", mark={"steps": 2}, episode={"max_steps": 25, "discount": 0.97}),
-    dict(width=3, height=3, turns=1, start="random", fall={"max_falls": 3, "to": "stay"}, episode={"max_steps": 30}),
-], ids=["winding", "short with a fall limit"])
+    dict(width=3, height=3, turns=1, start="random", misstep={"limit": 3, "to": "stay"}, episode={"max_steps": 30}),
+], ids=["winding", "short with a misstep limit"])
 def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
-    """The mean return and falls of 3,000 uniform-random episodes agree with the exact figures
+    """The mean return and missteps of 3,000 uniform-random episodes agree with the exact figures
     of the paths those episodes were played on within 4 standard errors (the paired difference
     G − V(path) has mean 0; central limit theorem; common practice). The second field is
-    crossed or ended by falls in most episodes, so falls counted after an episode's end would show."""
-    spec = _spec({"vector": {"position": "one_hot"}}, rewards={"step": -0.02, "fall": -0.1, "correct": 1.0,
+    finished or ended by missteps in most episodes, so missteps counted after an episode's end would show."""
+    spec = _spec({"vector": {"position": "one_hot"}}, rewards={"step": -0.02, "misstep": -0.1, "correct": 1.0,
                                                                "timeout": -0.3}, **fields)
     env = taskgen.make_vec(spec, 64)
     model = env.model
@@ -170,10 +170,10 @@ def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
             if key not in exact:
                 one = model.paths.path_model(path[i], int(start[i]))
                 uniform = uniform_policy(one)
-                falls = Objective(model.paths.path_falls(path[i]), 1.0, 0.0)
-                exact[key] = (at_reset(one, evaluate(one, uniform)), at_reset(one, evaluate(one, uniform, falls)))
+                missteps = Objective(model.paths.path_missteps(path[i]), 1.0, 0.0)
+                exact[key] = (at_reset(one, evaluate(one, uniform)), at_reset(one, evaluate(one, uniform, missteps)))
             diffs_g.append(returns[i] - exact[key][0])
-            diffs_f.append(info["analysis_only"]["falls"][i] - exact[key][1])
+            diffs_f.append(info["analysis_only"]["missteps"][i] - exact[key][1])
         path = np.where(pending[:, None], info["analysis_only"]["path"], path)
         start = np.where(pending, info["analysis_only"]["start"], start)
         returns[pending], t[pending] = 0.0, 0
@@ -198,7 +198,7 @@ def test_a_walled_field_runs_and_batches_like_single_envs():
     batch equals a SyncVectorEnv of single envs (gymnasium's vector semantics as the reference)."""
     import yaml
     doc = yaml.safe_load(field_spec_text(width=6, height=5, start="random", mark={"steps": 2},
-                                         episode={"max_steps": 25}, rewards={"fall": -0.1}))
+                                         episode={"max_steps": 25}, rewards={"misstep": -0.1}))
     doc["layout"]["field"]["maze"] = {"generator": "uniform", "braid": 0.2}
     spec = taskgen.load_spec_text(yaml.safe_dump(doc))
     with warnings.catch_warnings():
@@ -230,7 +230,7 @@ def test_decoy_marks_show_at_their_rate_never_on_the_agent_and_not_in_the_figure
     obs, info = env.reset(seed=4)
     shown, count = 0, 0
     for _ in range(400):
-        obs, _, _, _, info = env.step(np.full(32, 2))        # south: bumps at the start, never falls
+        obs, _, _, _, info = env.step(np.full(32, 2))        # south: bumps at the start, never steps off
         marks = obs[:, block]
         agent = env.model.paths.state_cell[info["analysis_only"]["state"]]
         assert not marks[np.arange(32), agent].any()

@@ -1,5 +1,5 @@
-"""Field dynamics: exact crossing times against a closed form and against Kemeny & Snell's
-fundamental matrix, the fall rules, and one path's model against the shared step rule."""
+"""Field dynamics: exact traversal times against a closed form and against Kemeny & Snell's
+fundamental matrix, the misstep rules, and one path's model against the shared step rule."""
 
 from __future__ import annotations
 
@@ -22,7 +22,7 @@ def straight(L: int, **fields):
     return model, model.path_model(kind[0], int(start[0])), kind[0], int(start[0])
 
 
-def closed_form_crossing(L: int) -> float:
+def closed_form_traversal(L: int) -> float:
     """Expected steps for a uniform-random walker to cross a straight hidden path of L steps.
 
     Number the path's cells 0 (start, on the field's south edge) … L (end). With moves north,
@@ -49,17 +49,17 @@ def closed_form_crossing(L: int) -> float:
 
 
 @pytest.mark.parametrize("L", range(1, 11))
-def test_random_crossing_time_matches_the_closed_form(L):
-    """The exact solver's expected crossing steps (no step limit) equal the closed form derived
-    in closed_form_crossing to 1e-9 relative (the values grow as (2 + √3)^L: 4, 20, 80, 304, …,
-    826804 steps for L = 10; source: the derivation in closed_form_crossing's docstring)."""
+def test_random_traversal_time_matches_the_closed_form(L):
+    """The exact solver's expected traversal steps (no step limit) equal the closed form derived
+    in closed_form_traversal to 1e-9 relative (the values grow as (2 + √3)^L: 4, 20, 80, 304, …,
+    826804 steps for L = 10; source: the derivation in closed_form_traversal's docstring)."""
     _, path, _, start = straight(L)
     steps = hitting_times(path, uniform_policy(path), path.terminal)[start]
-    assert steps == pytest.approx(closed_form_crossing(L), rel=1e-9, abs=1e-9)
+    assert steps == pytest.approx(closed_form_traversal(L), rel=1e-9, abs=1e-9)
 
 
 @pytest.mark.parametrize("L", [1, 2, 5, 10])
-def test_crossing_time_matches_the_fundamental_matrix(L):
+def test_traversal_time_matches_the_fundamental_matrix(L):
     """Expected steps from every path cell equal t = N·1 with N = (I − Q)⁻¹ (Kemeny & Snell,
     Finite Markov Chains, 1960, theorem 3.3.5), Q built here from the rules alone: from cell i
     north goes to i + 1, south to i − 1 (cell 0 stays), east and west to cell 0."""
@@ -77,27 +77,27 @@ def test_crossing_time_matches_the_fundamental_matrix(L):
     assert kind[start - 3 * L] == GOAL and (kind[cells] == ON).all()
 
 
-def test_falls_send_the_agent_back_or_leave_it_in_place():
-    """A step off the path pays step + fall and returns the agent to the start cell, or with
-    fall.to 'stay' keeps it where it was; the mark goes on the cell it aimed at (common practice)."""
-    rewards = {"step": -0.01, "fall": -0.5, "correct": 1.0}
+def test_missteps_send_the_agent_back_or_leave_it_in_place():
+    """A step off the path pays step + misstep and returns the agent to the start cell, or with
+    misstep.to 'stay' keeps it where it was; the mark goes on the cell it aimed at (common practice)."""
+    rewards = {"step": -0.01, "misstep": -0.5, "correct": 1.0}
     for to, expect in (("start", "start"), ("stay", "here")):
-        model, path, kind, start = straight(4, fall={"to": to}, rewards=rewards)
+        model, path, kind, start = straight(4, misstep={"to": to}, rewards=rewards)
         here = start - 6                               # two steps up
         east = 1
         out = model.outcome(np.array([here]), np.array([east]), kind[None], np.array([start]))
-        assert out.fell[0] and out.aim[0] == here + 1 and kind[here + 1] == OFF
+        assert out.misstep[0] and out.aim[0] == here + 1 and kind[here + 1] == OFF
         assert out.next_state[0] == (start if expect == "start" else here)
         assert out.reward[0] == pytest.approx(-0.51)
         assert path.next_state[here, east] == out.next_state[0]
 
 
-def test_the_fall_limit_ends_the_episode_as_a_failure():
-    """With max_falls m the m-th fall reaches an end state that is not a success. On a one-step
-    path with m = 1 a uniform agent crosses at a step when it draws north (1/4) before any
+def test_the_misstep_limit_ends_the_episode_as_a_failure():
+    """With misstep.limit m the m-th misstep reaches an end state that is not a success. On a one-step
+    path with m = 1 a uniform agent reaches the end at a step when it draws north (1/4) before any
     east or west (2/4); south bumps and draws again (1/4). Within H steps that is the geometric
     sum Σ_{t<H} (1/4)^t · 1/4 = (1 − 4^−H)/3 (first-step analysis; common practice)."""
-    model, path, kind, start = straight(1, fall={"max_falls": 1})
+    model, path, kind, start = straight(1, misstep={"limit": 1})
     out = model.outcome(np.array([start]), np.array([1]), kind[None], np.array([start]))
     assert out.terminal[0] and not out.success[0]
     success = at_reset(path, evaluate(path, uniform_policy(path), Objective.success(path)))
@@ -107,8 +107,8 @@ def test_the_fall_limit_ends_the_episode_as_a_failure():
 def test_one_path_model_agrees_with_the_shared_step_rule():
     """Every (state, action) of a winding path's model moves and pays as FieldModel.outcome
     says, so the analyses and the runtimes read one rule (common practice)."""
-    model = field_model(width=5, height=6, turns=3, start="random", fall={"max_falls": 3},
-                        rewards={"step": -0.02, "fall": -0.3, "correct": 2.0})
+    model = field_model(width=5, height=6, turns=3, start="random", misstep={"limit": 3},
+                        rewards={"step": -0.02, "misstep": -0.3, "correct": 2.0})
     kind, start = model.draw(np.random.default_rng(4).random((1, model.draws)))
     path = model.path_model(kind[0], int(start[0]))
     S, A = path.num_states, path.num_actions

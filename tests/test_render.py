@@ -6,7 +6,8 @@ import numpy as np
 
 from taskgen import load_spec_text, make_variant, compile_variant
 from taskgen.render import TopDownRenderer, vector_layout
-from taskgen.render.palette import CUE_COLOURS
+from taskgen.render.lamp import LAMP_OFF, lamp_disc
+from taskgen.render.palette import CUE_COLOURS, WALL
 
 from conftest import corridor_spec_text
 
@@ -40,18 +41,18 @@ def test_empty_vector_has_zero_width():
 
 
 def test_topdown_lamp_shows_the_cue_colour():
-    """While the cue is visible, the lamp strip is the cue's Okabe–Ito colour."""
+    """While the cue is visible, the lamp (a disc at the right end of the strip) is the cue's
+    Okabe–Ito colour; otherwise it is the dark unlit lamp. The rest of the strip is always wall."""
     model, _ = _model_and_spec()
     renderer = TopDownRenderer(model, cell_px=10)
+    disc = lamp_disc(10, renderer.background.shape[1])
     for key in range(model.num_keys):
-        frame = renderer.frame(key)
+        strip = renderer.frame(key)[:10]
         cue = model.cue.key_value[key]
-        if cue >= 0:
-            assert tuple(frame[2, 2]) == CUE_COLOURS[cue]
-        else:
-            assert tuple(frame[2, 2]) not in CUE_COLOURS
+        assert (strip[disc] == (CUE_COLOURS[cue] if cue >= 0 else LAMP_OFF)).all()
+        assert (strip[~disc] == WALL).all()
     rows, cols = model.layout.shape
-    assert frame.shape == ((rows + 3) * 10, (cols + 2) * 10, 3)
+    assert strip.shape[1] == (cols + 2) * 10 and renderer.frame(0).shape == ((rows + 3) * 10, (cols + 2) * 10, 3)
 
 
 def test_goal_flags_mark_the_goal_the_agent_stands_on():

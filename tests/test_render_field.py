@@ -127,3 +127,27 @@ def test_a_mark_colour_from_the_spec_is_drawn_and_reserved_colours_are_refused()
         with pytest.raises(taskgen.SpecError, match="a colour other than"):
             taskgen.load_spec_text(field_spec_text(mark={"colour": list(colour)}))
     assert taskgen.spec.schema.Mark().colour == list(MARK)
+
+
+def test_a_mark_is_a_ring_with_the_floor_showing_inside():
+    """A mark paints a ring on its tile: every painted pixel's centre lies within the circle inscribed
+    in the tile and at least 1.2 px from its centre, the pixels round the tile's centre keep the floor
+    colour, and the ring reaches the inscribed circle's edge (common practice: an outline reads as a
+    sign laid on the floor, not as a different floor)."""
+    from taskgen.render.palette import FLOOR
+    model, obs, overlay = _built({"vector": None, "pixels": {"height": 132, "width": 120}}, width=4, height=5)
+    agent = np.array([model.paths.num_cells - 1])
+    cell = 5
+    frames = {"pixels": obs.pixels[agent].copy()}
+    marked = np.zeros((1, model.paths.num_cells), dtype=bool)
+    marked[0, cell] = True
+    overlay.apply(frames, agent, marked)
+    top, bottom, left, right = tile_boxes(model, 132, 120)[cell]
+    tile = frames["pixels"][0][top:bottom, left:right]
+    painted = (tile == MARK).all(axis=2)
+    y, x = np.nonzero(painted)
+    h, w = bottom - top, right - left
+    distance = np.hypot(y + 0.5 - h / 2, x + 0.5 - w / 2)
+    outer = min(h, w) / 2
+    assert painted.any() and distance.max() <= outer and distance.min() >= 1.2 and distance.max() >= outer - 1
+    assert (tile[h // 2 - 1:h // 2 + 1, w // 2 - 1:w // 2 + 1] == FLOOR).all()

@@ -12,7 +12,7 @@ from gymnasium.utils.env_checker import check_env
 
 import taskgen
 from taskgen import compile_variant, load_spec_text, make_variant
-from taskgen.render.first_person import cast, first_person_table
+from taskgen.render.first_person import cast, first_person_table, lamp_rows
 from taskgen.render.grid import grid_table
 
 from conftest import CUE_SPECS
@@ -42,8 +42,10 @@ def test_wall_height_is_h_over_d_without_fisheye(column):
     frames = first_person_table(model, H, 64, 66.0)
     key = np.flatnonzero((model.key_cell == model.layout.start) & (model.key_heading == 1) & (model.cue.key_value < 0))[0]
     centre = frames[key][:, 32]
-    wall = [r for r in range(H) if tuple(centre[r]) not in ((8, 8, 12), (20, 20, 28))]   # not sky, not floor
-    assert abs(len(wall) - min(H, H / d)) <= 1
+    lamp = lamp_rows(H)                          # the strip along the top holds the cue lamp, not the scene
+    wall = [r for r in range(lamp, H) if tuple(centre[r]) not in ((8, 8, 12), (20, 20, 28))]   # not sky, not floor
+    tall = min(H, H / d)
+    assert abs(len(wall) - min(tall, H / 2 + tall / 2 - lamp)) <= 1
 
 
 def test_four_turns_return_the_same_frame():
@@ -51,21 +53,22 @@ def test_four_turns_return_the_same_frame():
     env = taskgen.make("orchard-hives", agent__actions="turns", observation__vector=None,
                        observation__first_person={"height": 32, "width": 40})
     env.reset(seed=0)
-    for _ in range(4):       # let the cue's display window pass first
-        before, *_ = env.step(0)
-    for action in (0, 1):
+    for _ in range(4):       # let the cue's display window pass first (turning right in place)
+        before, *_ = env.step(1)
+    for action in (1, 2):
         for _ in range(4):
             after, *_ = env.step(action)
         assert np.array_equal(after, before)
 
 
 def test_turns_change_heading_and_forward_moves():
-    """turn_left / turn_right change only the heading; forward moves one cell where open."""
+    """Actions 0 forward, 1 turn right, 2 turn left (clockwise first, as the headings N, E, S, W
+    run): the turns change only the heading; forward moves one cell where open (common practice)."""
     model = taskgen.build_model("lantern-hall", agent__actions="turns")
-    assert model.action_names == ("turn_left", "turn_right", "forward") and model.num_actions == 3
+    assert model.action_names == ("forward", "turn_right", "turn_left") and model.num_actions == 3
     s = int(model.initial_states()[0])
     assert model.heading[s] == 1                                  # facing east, down the hall
-    left, right, forward = model.next_state[s]
+    forward, right, left = model.next_state[s]
     assert model.cell[left] == model.cell[s] and model.heading[left] == 0
     assert model.cell[right] == model.cell[s] and model.heading[right] == 2
     assert model.cell[forward] == model.layout.neighbour[model.cell[s], 1]

@@ -12,7 +12,9 @@ import taskgen
 from taskgen import analyse, observation_set
 from taskgen.analysis import static_leak
 from taskgen.render.grid import GRID_CHANNELS
-from taskgen.render.palette import AGENT, CUE_COLOURS, FLOOR, WALL, contrast_ratio, relative_luminance
+from taskgen.render.lamp import LAMP_OFF, lamp_disc
+from taskgen.render.palette import (AGENT, CUE_COLOURS, FLOOR, MARK, PATH, PATH_END, WALL, contrast_ratio,
+                                    relative_luminance)
 from taskgen.tools.check import observation_tables
 
 MODALITIES = {
@@ -46,14 +48,15 @@ def test_every_example_runs_in_every_modality(spec_name, modality):
 
 
 def test_wcag_contrast_formula_and_cue_colours():
-    """WCAG 2.x: black on white is 21:1 and a colour on itself 1:1; every cue colour has at least
-    3:1 against the floor it is drawn on (WCAG 2.1 success criterion 1.4.11)."""
+    """WCAG 2.x: black on white is 21:1 and a colour on itself 1:1; every cue colour and the default
+    mark colour have at least 3:1 against the floor they are drawn on (WCAG 2.1 success criterion 1.4.11)."""
     assert contrast_ratio((0, 0, 0), (255, 255, 255)) == pytest.approx(21.0)
     assert contrast_ratio(FLOOR, FLOOR) == pytest.approx(1.0)
     assert relative_luminance((255, 255, 255)) == pytest.approx(1.0)
     for colour in CUE_COLOURS:
         assert contrast_ratio(colour, FLOOR) >= 3.0, colour
     assert contrast_ratio(AGENT, FLOOR) >= 3.0 and contrast_ratio(WALL, FLOOR) >= 3.0
+    assert contrast_ratio(MARK, FLOOR) >= 3.0 and MARK not in (FLOOR, WALL, AGENT, PATH, PATH_END)
 
 
 def _wall_pixels(kind, amplitude, steps=60):
@@ -97,7 +100,7 @@ def test_salt_and_pepper_fraction():
 
 
 def test_pixels_and_grid_show_the_cue_only_in_its_window():
-    """The lamp strip is the cue colour and the grid's cue channel is value + 1 in the first
+    """The lamp is the cue colour and the grid's cue channel is value + 1 in the first
     visible_steps observations, and neither shows the cue afterwards."""
     env = taskgen.make("seed-cache", observation__grid={"size": 3},
                        observation__pixels={"height": 30, "width": 30})
@@ -106,9 +109,9 @@ def test_pixels_and_grid_show_the_cue_only_in_its_window():
         obs, info = env.reset(seed=seed)
         cue = info["analysis_only"]["cue"]
         for t in range(4):
-            lamp = obs["pixels"][0, 0]
+            lamp = obs["pixels"][:3][lamp_disc(3, 30)]              # a 30-px frame's strip is 3 rows
             shown = t < 2
-            assert (tuple(lamp) == CUE_COLOURS[cue]) == shown
+            assert (lamp == (CUE_COLOURS[cue] if shown else LAMP_OFF)).all()
             assert obs["grid"][1, 1, cue_channel] == (cue + 1 if shown else 0)
             obs, *_ = env.step(1)
 
@@ -123,7 +126,7 @@ def test_grid_walls_follow_the_layout():
 
 
 def test_leak_check_reads_the_pixels():
-    """A cue left in view after its window is found in the pixel modality (the lamp strip)."""
+    """A cue left in view after its window is found in the pixel modality (the lamp)."""
     import dataclasses
 
     env = taskgen.make("lantern-hall", observation__vector=None, observation__pixels={"height": 20, "width": 40})

@@ -76,8 +76,8 @@ FIELD = "format_version: 1\nname: tiny\nlayout:\n  field: {width: 4, height: 5}\
      "x.yaml:5:29: observation.first_person: expected observation.vector, grid and/or pixels with a field "
      "layout (a first-person view needs turns), got observation.first_person"),
     (FIELD + "rewards: {wrong: -1}\n",
-     "x.yaml:5:18: rewards.wrong: expected no rewards.wrong or rewards.per_goal with a field layout (a fall "
-     "pays rewards.fall), got rewards.wrong"),
+     "x.yaml:5:18: rewards.wrong: expected no rewards.wrong or rewards.per_goal with a field layout (a misstep "
+     "pays rewards.misstep), got rewards.wrong"),
     (FIELD.replace("height: 5", "height: 5, mark: {steps: 0}"),
      "x.yaml:4:46: layout.field.mark.steps: expected an integer in [1, 1000000] or 'episode', got 0"),
     (FIELD.replace("height: 5", "height: 5, mark: {steps: 9223372036854775808}"),   # found by fuzzing
@@ -125,6 +125,26 @@ def test_a_field_spec_written_out_by_an_earlier_version_still_loads():
     format is unchanged, so they load as the same spec (common practice: backward compatibility)."""
     old = load_spec_text(FIELD + "cue: null\ndecision: {rule: match, wrong: end}\n")
     assert old == load_spec_text(FIELD)
+
+
+def test_renamed_keys_are_refused_with_the_new_name_not_aliased():
+    """Keys an earlier version used (a field's `fall` block and its `max_falls`, `rewards.fall`) are
+    refused, each at its own line and column with the key that replaced it; none is read silently as
+    the new one (common practice: a renamed option fails loudly with its replacement named)."""
+    old = FIELD.replace("height: 5}", "height: 5, fall: {to: stay}}") + "rewards: {fall: -0.1}\n"
+    with pytest.raises(SpecError) as info:
+        load_spec_text(old, "x.yaml")
+    assert str(info.value).splitlines() == [
+        "x.yaml:4:32: layout.field.fall: expected 'misstep' (the key 'fall' was renamed), got 'fall'",
+        "x.yaml:5:11: rewards.fall: expected 'misstep' (the key 'fall' was renamed), got 'fall'"]
+    with pytest.raises(SpecError) as info:
+        load_spec_text(FIELD.replace("height: 5}", "height: 5, misstep: {max_falls: 3}}"), "x.yaml")
+    assert str(info.value) == ("x.yaml:4:42: layout.field.misstep.max_falls: expected 'limit' (the key "
+                               "'max_falls' was renamed), got 'max_falls'")
+    new = load_spec_text(FIELD.replace("height: 5}", "height: 5, misstep: {to: stay, limit: 3}}") +
+                         "rewards: {misstep: -0.1}\n")
+    assert new.layout.field.misstep.limit == 3 and new.layout.field.misstep.to == "stay"
+    assert new.rewards.misstep == -0.1
 
 
 def test_broken_yaml_points_at_the_problem():

@@ -109,11 +109,11 @@ def test_other_policies_record_episodes(policy, tmp_path):
                          ids=["drawn view", "pixels"])
 def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
     """In every frame of a field episode, the agent's view (left) holds no pixel of the path's
-    colours while the ground truth (right) does; marks appear in the agent's view after a fall."""
+    colours while the ground truth (right) does; marks appear in the agent's view after a misstep."""
     from taskgen.render.palette import MARK, PATH, PATH_END
     from conftest import field_spec_text
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, start="random", mark={"steps": 4},
-                                                  observation=observation, rewards={"fall": -0.1}))
+                                                  observation=observation, rewards={"misstep": -0.1}))
     episode = gallery_module.record(spec, 0, "explorer", 0, 3)
     first = np.asarray(episode.frames[0])
     from taskgen.render import PathPictures

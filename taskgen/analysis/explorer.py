@@ -8,7 +8,7 @@ from ..model import PathRule
 from ..model.paths import Outcome
 from .rollouts import Rollouts, roll
 
-EXPLORER_CLASS = ("remembers where it fell, where it has been and the moves that took it on (memory, not "
+EXPLORER_CLASS = ("remembers where it stepped off, where it has been and the moves that took it on (memory, not "
                   "the path): retraces those moves, else tries forward, sideways and back, new cells first")
 
 
@@ -20,13 +20,13 @@ def _directions(model: PathRule) -> tuple[int, int, int]:
 class Explorer:
     """A simple agent with memory, for K paths at once: a depth-first search of the safe cells.
 
-    It remembers the cells it fell into, the cells it has stood on, the cells it has searched
+    It remembers the cells it stepped off into, the cells it has stood on, the cells it has searched
     out (no new safe cell beside them), and, for each cell it left for a new one, the move that
     took it there. Where it knows such a move and it does not lead to a searched-out cell, it
-    takes it again (so after a fall it walks straight back to where it got to); elsewhere it
+    takes it again (so after a misstep it walks straight back to where it got to); elsewhere it
     tries, in this order, forward (toward the far side), sideways in the direction it last went,
     sideways the other way and back, taking the first move to a cell it has neither stood on nor
-    fallen into. With none left the cell is searched out and it steps back to a safe cell that is
+    stepped off into. With none left the cell is searched out and it steps back to a safe cell that is
     not. A reference for what memory alone buys, below the agent that knows the path."""
 
     def __init__(self, model: PathRule, paths: int) -> None:
@@ -43,7 +43,7 @@ class Explorer:
         self.aim = model.aim[:C]                             # where each move from each cell aims
 
     def act(self, t: int, cell: np.ndarray, marked: np.ndarray, live: np.ndarray) -> np.ndarray:
-        """The K actions at step t (marks are not needed: it remembers its falls itself)."""
+        """The K actions at step t (marks are not needed: it remembers its missteps itself)."""
         rows = self.rows
         self.visited[rows, cell] = True
         along = np.where(self.side, self.plus, self.minus)
@@ -62,12 +62,12 @@ class Explorer:
         return np.where(follow, known, order[rows, pick])
 
     def observe(self, cell: np.ndarray, action: np.ndarray, out: Outcome, live: np.ndarray) -> None:
-        """Remember falls, and the move that reached a new cell."""
+        """Remember missteps, and the move that reached a new cell."""
         rows = self.rows
-        fell = out.fell & live
-        self.known_off[rows[fell], out.aim[fell]] = True
+        misstep = out.misstep & live
+        self.known_off[rows[misstep], out.aim[misstep]] = True
         arrived = self.model.state_cell[out.next_state]
-        new = live & ~out.fell & (arrived != cell) & ~self.visited[rows, arrived]
+        new = live & ~out.misstep & (arrived != cell) & ~self.visited[rows, arrived]
         self.route[rows[new], cell[new]] = action[new]
         self.visited[rows[new], arrived[new]] = True
         sideways = new & ((action == self.plus) | (action == self.minus))

@@ -19,7 +19,7 @@ from ..model import TaskModel
 from .dp import optimise
 from .policysearch import NODES, SearchResult, search
 
-JOINT_ENTRIES = 50_000   # memoised joint bounds at most; past it the search falls back to the per-class bound
+JOINT_ENTRIES = 50_000   # memoised joint bounds at most; past it the search reverts to the per-class bound
 
 ObservationTables = Mapping[str, tuple[np.ndarray, Mapping[str, slice]]]
 

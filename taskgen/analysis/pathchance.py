@@ -2,7 +2,7 @@
 
 On one path the dynamics are deterministic, so under a deterministic memoryless policy each
 sampled path is one trajectory and the search of policysearch.py applies. What the agent sees
-is its cell's view and, when some modality shows them, the marks its own falls have left:
+is its cell's view and, when some modality shows them, the marks its own missteps have left:
 
 - no marks in view: the observation class is a function of the state, and the chance level is
   found exactly as for a cue task (chance.py);
@@ -10,9 +10,9 @@ is its cell's view and, when some modality shows them, the marks its own falls h
   trajectory carries its marks and the search branches on far more classes. Three searches
   give the interval: the best policy that ignores the marks (exact: a lower bound, for it is
   one of the policies), the marks-aware search itself (exact when its budget lets it finish),
-  and a relaxation for the upper bound. Before its first fall an agent has seen no mark, so
+  and a relaxation for the upper bound. Before its first misstep an agent has seen no mark, so
   every marks-reading policy acts there as a policy of the cell's view alone; letting it know
-  the path from its first fall on can only help it. The best "view-only until the first fall,
+  the path from its first misstep on can only help it. The best "view-only until the first misstep,
   then the full-information optimum" value is therefore a certified upper bound, found by the
   same branch and bound.
 """
@@ -58,7 +58,7 @@ class MarkRollout(TableRollout):
         super().__init__(model, classes, values)
         self._joint = None            # classes also hold marks: the bounds over states do not apply
         self._restrict = False
-        self._fell = rule.falls(model, sample).astype(bool).tolist()
+        self._misstep = rule.missteps(model, sample).astype(bool).tolist()
         self._aim = rule.aim[model.local].tolist()
         self._cell = model.cell.tolist()
         self._rule, self._seen = rule, seen
@@ -69,7 +69,7 @@ class MarkRollout(TableRollout):
         return [(t, s, gained, ()) for t, s, gained in super().starts()]
 
     def walk(self, i: int, position: Any, policy: dict[Any, int]) -> tuple[Any, Any]:
-        """Follow the policy, leaving a mark at every fall, until a class has no action or the episode ends."""
+        """Follow the policy, leaving a mark at every misstep, until a class has no action or the episode ends."""
         return self._trace(position, lambda cls: policy.get(cls, -1), None)
 
     def play(self, position: Any, table: dict[Any, int], fallback: list[int]) -> tuple[float, dict[Any, Any]]:
@@ -83,7 +83,7 @@ class MarkRollout(TableRollout):
         """Step from ``position`` while ``act`` (class → action, −1: stop) gives an action (``first``: filled
         with the position each class is first met at)."""
         t, s, gained, marks = position
-        ns, rw, term, fell, H, g = self._next, self._reward, self._terminal, self._fell, self.H, self.g
+        ns, rw, term, misstep, H, g = self._next, self._reward, self._terminal, self._misstep, self.H, self.g
         live, change = _live(marks, t)
         while t < H and not term[s]:
             if t >= change:
@@ -98,7 +98,7 @@ class MarkRollout(TableRollout):
                 return (t, s, gained, marks), cls
             s2 = ns[s][a]
             gained += g ** t * (rw[s][a] + (self.timeout if t == H - 1 and not term[s2] else 0.0))
-            if fell[s][a]:
+            if misstep[s][a]:
                 aim = self._aim[s][a]
                 marks = tuple(m for m in marks if m[0] != aim) + ((aim, int(self._rule.mark_until(t + 1))),)
                 live, change = _live(marks, t + 1)
@@ -146,22 +146,22 @@ def improve(rollout: MarkRollout, fallback: np.ndarray, trials: int) -> tuple[di
     return table, sum(w * value for w, (value, _) in zip(weights, runs)), used
 
 
-class FirstFallRollout(TableRollout):
+class FirstMisstepRollout(TableRollout):
     """The relaxation of :mod:`this module <taskgen.analysis.pathchance>`: the view-only policy until the
-    first fall, then the full-information optimum (a trajectory closes at its first fall: the table walk
-    with the falls as its closing moves)."""
+    first misstep, then the full-information optimum (a trajectory closes at its first misstep: the table walk
+    with the missteps as its closing moves)."""
 
     def __init__(self, model: TaskModel, classes: np.ndarray, rule: PathRule, sample: PathSample,
                  values: np.ndarray | None = None) -> None:
         super().__init__(model, classes, values)
-        self._joint = None            # a trajectory closes at its first fall: the bounds over states do not apply
+        self._joint = None            # a trajectory closes at its first misstep: the bounds over states do not apply
         self._restrict = False
-        self._closes = rule.falls(model, sample).astype(bool).tolist()
+        self._closes = rule.missteps(model, sample).astype(bool).tolist()
 
 
 @dataclass(frozen=True)
 class MarkPolicy:
-    """A deterministic memoryless policy of a field: an action per (view class, marks seen), falling back to
+    """A deterministic memoryless policy of a field: an action per (view class, marks seen), defaulting to
     the view-only policy for a class it does not list."""
 
     view: np.ndarray                  # int[C]: view class per cell
@@ -187,9 +187,9 @@ def path_chance(model: TaskModel, rule: PathRule, sample: PathSample, view: np.n
         return chance, MarkPolicy(view, chance.witness.policy, {}, None)
     began = time.perf_counter()
     blind = solve_memoryless(model, classes, budget)               # ignores the marks: a lower bound
-    relaxed = search(FirstFallRollout(model, classes, rule, sample), budget)
+    relaxed = search(FirstMisstepRollout(model, classes, rule, sample), budget)
     rollout = MarkRollout(model, classes, rule, sample, seen)
-    walker = blind.policy.copy()          # the relaxation's view-only policy: it walks until it falls
+    walker = blind.policy.copy()          # the relaxation's view-only policy: it walks until it steps off
     for cls, action in relaxed.policy.items():
         walker[cls] = action
     climbs = [(improve(rollout, seed, max(budget // CLIMB_SHARE, 1)), seed) for seed in (blind.policy, walker)]
@@ -208,7 +208,7 @@ def path_chance(model: TaskModel, rule: PathRule, sample: PathSample, view: np.n
               f"Ignoring the marks: {blind.mean_return:.6g} ({blind.method}); reading them: "
               f"{climbed:.6g} by hill climbing, {marks.value:.6g} after branch and bound "
               f"({'optimal, proven' if marks.proven else 'stopped at its budget'}); acting on the view alone until "
-              f"the first fall and knowing the path after it: at most {relaxed.upper:.6g}"
+              f"the first misstep and knowing the path after it: at most {relaxed.upper:.6g}"
               f"{'' if relaxed.proven else ' (bounded)'}")
     det = Baseline.of(model.hidden, runs.success, runs.returns, runs.length, "exact" if proven else "bounded",
                       FIELD_CHANCE_CLASS, detail, upper=upper,
@@ -224,5 +224,5 @@ def _roll(rule: PathRule, sample: PathSample, policy: MarkPolicy) -> Rollouts:
     return roll(rule, sample.kind, sample.start, act)
 
 
-__all__ = ["FIELD_BLIND_CHANCE_CLASS", "FIELD_CHANCE_CLASS", "FirstFallRollout", "MarkPolicy", "MarkRollout",
+__all__ = ["FIELD_BLIND_CHANCE_CLASS", "FIELD_CHANCE_CLASS", "FirstMisstepRollout", "MarkPolicy", "MarkRollout",
            "path_chance"]

@@ -5,13 +5,13 @@ field's model covers a sample of K paths drawn from the variant seed (its hidden
 and every figure is exact on each path and reported as the sample mean with its standard error.
 
 - optimal: an agent that knows the path (backward induction);
-- random: uniform-random actions (exact policy evaluation), with its expected falls;
+- random: uniform-random actions (exact policy evaluation), with its expected missteps;
 - explorer: a simple agent with memory that does not know the path: a depth-first search of
-  the safe cells that remembers where it fell, where it has been and the way it got there
+  the safe cells that remembers where it stepped off, where it has been and the way it got there
   (its deterministic rollout on each path is exact): a reference for what memory alone buys;
 - chance: the best deterministic memoryless policy over the sampled paths, proven or bounded,
   and the best stochastic one found beside it (pathchance.py). It acts on what it sees now: its
-  cell's view and, when some modality shows them, the marks its falls have left. The policy is
+  cell's view and, when some modality shows them, the marks its missteps have left. The policy is
   chosen on the same paths it is reported on, which can only raise the figure: the memory gap
   it gives is conservative for the field's whole path distribution.
 """
@@ -53,34 +53,34 @@ class PathDetailsJSON(TypedDict):
     """What only a field reports per variant (under ``details``)."""
 
     path_cells: Annotated[FigureJSON, Field(description="Cells on the sampled paths.")]
-    random_falls: Annotated[FigureJSON, Field(description="The uniform-random agent's expected steps off the path "
+    random_missteps: Annotated[FigureJSON, Field(description="The uniform-random agent's expected steps off the path "
                                               "per episode.")]
 
 
 @dataclass(frozen=True)
 class PathDetails:
-    """What only a field reports: the sampled paths' sizes and shortest crossings, and the random
-    agent's expected falls."""
+    """What only a field reports: the sampled paths' sizes and shortest routes, and the random
+    agent's expected missteps."""
 
     paths: int
     path_cells: Figure
     shortest: Figure
-    random_falls: Figure
+    random_missteps: Figure
 
     def to_dict(self) -> PathDetailsJSON:
-        """``path_cells`` and ``random_falls`` as figures."""
-        return {"path_cells": self.path_cells.to_dict(), "random_falls": self.random_falls.to_dict()}
+        """``path_cells`` and ``random_missteps`` as figures."""
+        return {"path_cells": self.path_cells.to_dict(), "random_missteps": self.random_missteps.to_dict()}
 
     def text_lines(self) -> list[str]:
-        """The sample's sizes and the random agent's falls."""
+        """The sample's sizes and the random agent's missteps."""
         s = self.shortest
-        return [f"    {self.paths} sampled paths: {self.path_cells.text(1)} cells, shortest crossing "
+        return [f"    {self.paths} sampled paths: {self.path_cells.text(1)} cells, shortest route "
                 f"{s.text(1)} steps (min {s.minimum:g}, max {s.maximum:g})",
-                f"    random agent's expected falls: {self.random_falls.text(2)} per episode"]
+                f"    random agent's expected missteps: {self.random_missteps.text(2)} per episode"]
 
     def spreads(self) -> dict[str, list[float]]:
-        """The mean shortest crossing of each variant's sampled paths."""
-        return {"shortest_crossing": [self.shortest.mean]}
+        """The mean shortest route of each variant's sampled paths."""
+        return {"shortest_route": [self.shortest.mean]}
 
 
 def analyse_paths(model: TaskModel, view: np.ndarray, seen: Seen | None = None, min_gap: float = 0.0,
@@ -101,13 +101,13 @@ def analyse_paths(model: TaskModel, view: np.ndarray, seen: Seen | None = None, 
     baselines["chance"] = chance.deterministic
     baselines["chance_stochastic"] = chance.stochastic
     baselines["random"] = policy_figures(model, uniform, RANDOM_CLASS, "exact per path")
-    falls = per_value(model, uniform, Objective(rule.falls(model, sample), 1.0, 0.0))
+    missteps = per_value(model, uniform, Objective(rule.missteps(model, sample), 1.0, 0.0))
     optimal_returns = per_value(model, optimal)
     checks = [_solvable(shortest, model.horizon, K),
-              gap_check(float(optimal_returns.mean()), chance, min_gap, "where it fell", f"mean over {K} paths")]
+              gap_check(float(optimal_returns.mean()), chance, min_gap, "where it stepped off", f"mean over {K} paths")]
     shortest_figure = Figure.over(model.hidden, np.maximum(shortest, 0), "exact per path", "fewest steps to the end")
     details = PathDetails(K, Figure.over(model.hidden, (sample.kind != OFF).sum(axis=1), "exact per path"),
-                          shortest_figure, Figure.over(model.hidden, falls, "exact per path", RANDOM_CLASS))
+                          shortest_figure, Figure.over(model.hidden, missteps, "exact per path", RANDOM_CLASS))
     return Report(
         kind=model.kind, variant_id=model.variant_id, params=model.param_dict(), num_states=model.num_states,
         horizon=model.horizon, hidden=model.hidden.to_dict(), shortest=shortest_figure,
@@ -136,7 +136,7 @@ def _solvable(shortest: np.ndarray, horizon: int, paths: int) -> Check:
         return Check("solvable", False, f"sampled path {i}: its end cannot be reached from its start")
     if (shortest > horizon).any():
         i = int(np.argmax(shortest))
-        return Check("solvable", False, f"sampled path {i}: shortest crossing {int(shortest[i])} steps "
+        return Check("solvable", False, f"sampled path {i}: shortest route {int(shortest[i])} steps "
                      f"exceeds the step limit {horizon}")
-    return Check("solvable", True, f"all {paths} sampled paths crossable; shortest crossing "
+    return Check("solvable", True, f"all {paths} sampled paths traversable; shortest route "
                  f"{int(shortest.min())}–{int(shortest.max())} steps, limit {horizon}")

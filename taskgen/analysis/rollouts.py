@@ -50,8 +50,8 @@ def roll(model: PathRule, kind: np.ndarray, start: np.ndarray, act: Act, observe
         gain = out.reward + np.where(~out.terminal & (t == m.horizon - 1), m.timeout_reward, 0.0)
         returns += np.where(live, m.discount ** t * gain, 0.0)
         length += live
-        fell = out.fell & live
-        m.mark_after(until, fell, out.aim, rows, np.full(K, t + 1))
+        misstep = out.misstep & live
+        m.mark_after(until, misstep, out.aim, rows, np.full(K, t + 1))
         if observe is not None:
             observe(cell, action, out, live)
         success |= live & out.success

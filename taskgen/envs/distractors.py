@@ -7,6 +7,7 @@ import numpy as np
 
 from ..render.first_person import lamp_rows as first_person_lamp
 from ..render.grid import GRID_CHANNELS
+from ..render.lamp import light
 from ..render.observations import ObservationSet
 from ..render.palette import CUE_COLOURS, FLOOR
 from ..render.topdown import lamp_rows as topdown_lamp
@@ -43,7 +44,7 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
                 parts["grid"][rows, half, half, _CUE] = value[rows] + 1
             for name, lamp in (("pixels", topdown_lamp), ("first_person", first_person_lamp)):
                 if name in parts:
-                    parts[name][rows, :lamp(parts[name].shape[1])] = _COLOURS[value[rows]][:, None, None, :]
+                    light(parts[name], lamp(parts[name].shape[1]), rows, _COLOURS[value[rows]])
     if obs.lure_probability > 0:
         lure = draws[:, 2] < obs.lure_probability
         value = np.minimum((draws[:, 3] * k).astype(np.int64), k - 1)

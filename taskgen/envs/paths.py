@@ -2,7 +2,7 @@
 
 Every reset draws a new path for the environment from its episode key (purpose ``path``), so
 the same seed gives the same sequence of paths, and N environments draw theirs in one numpy
-call. A step applies ``PathRule.outcome`` to all environments' paths at once, leaves the falls'
+call. A step applies ``PathRule.outcome`` to all environments' paths at once, leaves the missteps'
 marks, then gathers observation rows and lays the visible marks over them. A single env applies
 the rule once per reset to every state of its path, so that a step is a table lookup.
 """
@@ -47,7 +47,7 @@ class PathCore(Core):
         self.kind = np.zeros((n, C), dtype=np.int8)
         self.start = np.zeros(n, dtype=np.int64)
         self.until = np.zeros((n, C), dtype=np.int64)
-        self.falls = np.zeros(n, dtype=np.int64)
+        self.missteps = np.zeros(n, dtype=np.int64)
         self.decoy = observations.decoy_probability
         self.noise = EpisodeNoise(n, self.bits, observations.pixel_noise is not None, self.decoy > 0)
         self.rows = np.arange(n)
@@ -80,14 +80,14 @@ class PathCore(Core):
         u = uniform(subkeys(keys, "path"), 0, self.rule.draws)
         kind, start = self.rule.draw(u)
         self.kind[rows], self.start[rows] = kind, start
-        self.state[rows] = start                        # (start cell, no falls)
+        self.state[rows] = start                        # (start cell, no missteps)
         self.step_count[rows] = 0
         self.until[rows] = 0
-        self.falls[rows] = 0
+        self.missteps[rows] = 0
         self.noise.begin(rows, keys)
 
     def shown_marks(self) -> np.ndarray:
-        """bool[N, C]: the marks each agent sees now: its falls' marks and, with decoys, this
+        """bool[N, C]: the marks each agent sees now: its missteps' marks and, with decoys, this
         step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
         marked = self.until > self.step_count[:, None]
         if self.decoy > 0:
@@ -108,15 +108,15 @@ class PathCore(Core):
         step = self.step_count + 1
         truncated = (step >= rule.horizon) & ~out.terminal
         reward = out.reward + truncated * rule.timeout_reward
-        fell = out.fell
+        misstep = out.misstep
         if moving is not None:
-            fell = fell & moving
+            misstep = misstep & moving
             self.state = np.where(moving, out.next_state, self.state)
             self.step_count = np.where(moving, step, self.step_count)
         else:
             self.state, self.step_count = out.next_state, step
-        self.falls += fell
-        rule.mark_after(self.until, fell, out.aim, self.rows, self.step_count)
+        self.missteps += misstep
+        rule.mark_after(self.until, misstep, out.aim, self.rows, self.step_count)
         self.noise.flip(step, self.threshold, moving)
         return reward, out.terminal, truncated
 
@@ -142,10 +142,10 @@ class PathCore(Core):
 
     def infos(self) -> dict[str, Any]:
         """The one variant's id, the step, and each environment's path (int8 per cell: 0 off, 1 on, 2
-        its end), its start cell, the state and the falls so far."""
+        its end), its start cell, the state and the missteps so far."""
         return {"variant_id": self._ids, "step": self.step_count.copy(),
                 "analysis_only": {"path": self.kind.copy(), "start": self.start.copy(), "state": self.state.copy(),
-                                  "falls": self.falls.copy()}}
+                                  "missteps": self.missteps.copy()}}
 
     def model_of(self, i: int) -> TaskModel:
         """The one variant."""
@@ -168,10 +168,10 @@ class PathCore(Core):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes held per environment (state, path, marks, keys) and shared (tables)."""
-        per_env: list[np.ndarray] = [self.state, self.step_count, self.kind, self.start, self.until, self.falls,
+        per_env: list[np.ndarray] = [self.state, self.step_count, self.kind, self.start, self.until, self.missteps,
                                      *self.noise.arrays()]
         rule, obs = self.rule, self.observations
-        shared: list[np.ndarray] = [rule.aim, rule.move_next, rule.fall_next, rule.state_cell, rule.state_out]
+        shared: list[np.ndarray] = [rule.aim, rule.move_next, rule.misstep_next, rule.state_cell, rule.state_out]
         shared += [t for t in (obs.vector.table if obs.vector is not None else None, obs.pixels) if t is not None]
         if self.overlay.tiles is not None:
             shared.append(self.overlay.tiles)
@@ -185,7 +185,7 @@ class PathCore(Core):
         S, A = rule.num_states, rule.num_actions
         state, action = np.divmod(np.arange(S * A), A)
         out = rule.outcome(state, action, self.kind, self.start, np.zeros(S * A, dtype=np.int64))
-        self._tables = tuple(a.reshape(S, A).tolist() for a in (out.next_state, out.reward, out.fell, out.aim,
+        self._tables = tuple(a.reshape(S, A).tolist() for a in (out.next_state, out.reward, out.misstep, out.aim,
                                                                  out.terminal))
         if self.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
             assert self.vector is not None
@@ -196,14 +196,14 @@ class PathCore(Core):
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
         """Move on the hidden path; truncate at the step limit (kept short: it runs on every step)."""
-        nxt, pay, fell, aim, ends = self._tables
+        nxt, pay, misstep, aim, ends = self._tables
         s = self._s
         self._s = state = nxt[s][action]
         reward = pay[s][action]
         self._t = step = self._t + 1
         self.state[0], self.step_count[0] = state, step
-        if fell[s][action]:
-            self.falls[0] += 1
+        if misstep[s][action]:
+            self.missteps[0] += 1
             if self._marks:
                 self.until[0, aim[s][action]] = self.rule.mark_until(step)
         terminated = ends[s][action]
@@ -223,7 +223,7 @@ class PathCore(Core):
         return obs, reward, terminated, truncated, {
             "variant_id": self._variant_id, "step": step,
             "analysis_only": {"path": self.kind[0].copy(), "start": self._start, "state": state,
-                              "falls": int(self.falls[0])}}
+                              "missteps": int(self.missteps[0])}}
 
     def _observe_scalar(self) -> Any:
         if not self._vector_only:
@@ -239,4 +239,4 @@ class PathCore(Core):
     def _info_scalar(self) -> dict[str, Any]:
         return {"variant_id": self._variant_id, "step": self._t,
                 "analysis_only": {"path": self.kind[0].copy(), "start": self._start,
-                                  "state": self._s, "falls": int(self.falls[0])}}
+                                  "state": self._s, "missteps": int(self.missteps[0])}}

@@ -105,7 +105,7 @@ def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:
 
 
 def flip_threshold(flip_probability: float) -> int:
-    """The 16-bit threshold a draw must fall below to flip a bit: the flip probability is
+    """The 16-bit threshold a draw must lie below to flip a bit: the flip probability is
     applied with a resolution of 1/65536 (an error of at most 7.7e-6)."""
     return int(round(flip_probability * 65536))
 

@@ -9,7 +9,7 @@ never branch on the family.
 
 - :mod:`taskgen.kinds.cue`: corridors and mazes, where the hidden value is a cue (few values,
   enumerated in the model's tables);
-- :mod:`taskgen.kinds.field`: fields crossed on a hidden path (very many values, sampled).
+- :mod:`taskgen.kinds.field`: fields traversed along a hidden path (very many values, sampled).
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""The field kind: a field crossed on a hidden path drawn afresh at every reset (very many values, sampled)."""
+"""The field kind: a field traversed along a hidden path drawn afresh at every reset (very many values, sampled)."""
 
 from __future__ import annotations
 
@@ -22,6 +22,7 @@ from ..limits import check_bytes, check_work
 from ..model import PathRule, TaskModel
 from ..model.paths import MARK_FOREVER
 from ..render import ObservationSet, key_classes, path_observation_set
+from ..render.palette import MARK
 from ..spec import FieldSpec, Spec
 from ..spec.schema import Observation
 from ..variant import LAYOUT_STREAM, PARAMS_STREAM, Variant, horizon, variant_name, variant_rng
@@ -83,7 +84,7 @@ def draw_field(spec: FieldSpec, seed: int) -> Variant:
     cells = height * width
     # a path through walls visits each cell at most once
     longest = cells - 1 if field.maze is not None else shape.longest
-    check_work(what, cells * ((field.fall.max_falls or 0) + 1), 4, horizon(spec.episode, longest))
+    check_work(what, cells * ((field.misstep.limit or 0) + 1), 4, horizon(spec.episode, longest))
     obs = spec.observation
     if obs.vector is not None:
         check_bytes(f"{what}: the vector table", cells * (2 * cells + 4) * 4)
@@ -108,23 +109,23 @@ def draw_field(spec: FieldSpec, seed: int) -> Variant:
 
 
 def compile_rule(variant: Variant) -> PathRule:
-    """A field variant's path-free dynamics: state = falls · C + cell (falls only with a fall limit)."""
+    """A field variant's path-free dynamics: state = missteps · C + cell (missteps only with a misstep limit)."""
     spec, layout, params = _field_spec(variant.spec), variant.layout, _params(variant)
     f = spec.layout.field
     frame, shape = params.geometry()
     C, A = layout.num_cells, 4
-    levels = (f.fall.max_falls or 0) + 1
+    levels = (f.misstep.limit or 0) + 1
     S = C * levels
-    falls, cell = np.divmod(np.arange(S), C)
+    missteps, cell = np.divmod(np.arange(S), C)
     own = np.arange(C)[:, None]
     aim = np.where(layout.neighbour >= 0, layout.neighbour, own)[cell]            # [S, A]
-    move_next = falls[:, None] * C + aim
-    counted = f.fall.max_falls is not None
-    next_falls = np.minimum(falls + 1, levels - 1) if counted else falls
-    to_start = f.fall.to == "start"
-    fall_cell = np.zeros_like(cell) if to_start else cell
-    fall_next = np.broadcast_to((next_falls * C + fall_cell)[:, None], (S, A)).copy()
-    state_out = (falls == levels - 1) if counted else np.zeros(S, dtype=bool)
+    move_next = missteps[:, None] * C + aim
+    counted = f.misstep.limit is not None
+    next_missteps = np.minimum(missteps + 1, levels - 1) if counted else missteps
+    to_start = f.misstep.to == "start"
+    misstep_cell = np.zeros_like(cell) if to_start else cell
+    misstep_next = np.broadcast_to((next_missteps * C + misstep_cell)[:, None], (S, A)).copy()
+    state_out = (missteps == levels - 1) if counted else np.zeros(S, dtype=bool)
     bank_kind = bank_start = None
     longest = shape.longest
     if f.maze is not None:
@@ -133,13 +134,14 @@ def compile_rule(variant: Variant) -> PathRule:
         longest = int((bank_kind != OFF).sum(axis=1).max()) - 1
     mark = f.mark
     mark_steps = 0 if mark is None else MARK_FOREVER if mark.steps == "episode" else int(mark.steps)
-    colour = (int(mark.colour[0]), int(mark.colour[1]), int(mark.colour[2])) if mark is not None else (213, 94, 0)
+    colour = (int(mark.colour[0]), int(mark.colour[1]), int(mark.colour[2])) if mark is not None else MARK
     r = spec.rewards
     return PathRule(
         variant_id=variant.variant_id, params=params, layout=layout, frame=frame, shape=shape, levels=levels,
-        max_falls=f.fall.max_falls, to_start=to_start, mark_steps=mark_steps, step_reward=r.step,
-        goal_reward=r.correct, fall_reward=r.fall, timeout_reward=r.timeout, horizon=horizon(spec.episode, longest),
-        discount=spec.episode.discount, aim=aim, move_next=move_next, fall_next=fall_next, state_cell=cell,
+        misstep_limit=f.misstep.limit, to_start=to_start, mark_steps=mark_steps, step_reward=r.step,
+        goal_reward=r.correct, misstep_reward=r.misstep, timeout_reward=r.timeout,
+        horizon=horizon(spec.episode, longest),
+        discount=spec.episode.discount, aim=aim, move_next=move_next, misstep_next=misstep_next, state_cell=cell,
         state_out=state_out, bank_kind=bank_kind, bank_start=bank_start, mark_colour=colour)
 
 
@@ -157,7 +159,7 @@ class FieldKind:
     modalities: tuple[str, ...] = ("vector", "grid", "pixels")
     pools: bool = False
     policies: dict[str, str] = {
-        "explorer": "the explorer, which remembers where it fell but does not know the path",
+        "explorer": "the explorer, which remembers where it stepped off but does not know the path",
         "optimal": "the optimal agent, which knows the hidden path (an analysis policy, not a learner)",
         "random": "uniform-random actions",
         "chance": "the best deterministic memoryless policy (acts on the current observation, its marks included)",
@@ -223,7 +225,7 @@ class FieldKind:
 
     def truth_label(self, model: TaskModel, info: dict[str, Any]) -> str:
         """How often the agent has stepped off the path."""
-        return f"falls {int(info['analysis_only']['falls'])}"
+        return f"missteps {int(info['analysis_only']['missteps'])}"
 
     def caption(self, model: TaskModel, info: dict[str, Any]) -> str:
         """Nothing: the path is never shown."""
@@ -275,7 +277,7 @@ def _seen(model: TaskModel, observations: ObservationSet) -> Seen | None:
 
 def _chance(rule: PathRule, model: TaskModel, observations: ObservationSet) -> Policy:
     """The best deterministic memoryless policy over the model's sampled paths, acting on the marks its own
-    falls leave (noise-free, as the analyses assume: decoy marks are not read)."""
+    missteps leave (noise-free, as the analyses assume: decoy marks are not read)."""
     _, sample = path_parts(model)
     _, table = path_chance(model, rule, sample, key_classes(observations), _seen(model, observations))
     until = np.zeros(rule.num_cells, dtype=np.int64)
@@ -285,12 +287,12 @@ def _chance(rule: PathRule, model: TaskModel, observations: ObservationSet) -> P
         hidden = info["analysis_only"]
         if t == 0:
             until[:] = 0
-        elif rule.mark_steps and hidden["falls"] > memory["falls"]:
+        elif rule.mark_steps and hidden["missteps"] > memory["missteps"]:
             state, action = memory["last"]
             until[rule.aim[state, action]] = rule.mark_until(t)
         cell = int(rule.state_cell[hidden["state"]])
         action = table.action(cell, frozenset(np.flatnonzero(until > t).tolist()))
-        memory.update(last=(hidden["state"], action), falls=hidden["falls"])
+        memory.update(last=(hidden["state"], action), missteps=hidden["missteps"])
         return action
     return act
 

@@ -1,6 +1,6 @@
 """Hidden-path dynamics: one path-free rule for every path, and the finite model of any set of paths.
 
-A field's state is (cell, falls so far); with no fall limit the falls are not counted, so
+A field's state is (cell, missteps so far); with no misstep limit the missteps are not counted, so
 the state is the cell. The dynamics do not depend on the path except through the kind of the
 cell a move aims at (off the path, on it, its end) and the path's start cell, so a
 :class:`PathRule` keeps path-free tables and one rule, :meth:`PathRule.outcome`. The batched
@@ -49,40 +49,40 @@ class Outcome:
 
     next_state: np.ndarray   # int64[n]
     reward: np.ndarray       # float64[n]
-    fell: np.ndarray         # bool[n]: stepped off the path
-    aim: np.ndarray          # int64[n]: the cell the move aimed at (where a fall leaves its mark)
+    misstep: np.ndarray      # bool[n]: stepped off the path
+    aim: np.ndarray          # int64[n]: the cell the move aimed at (where a misstep leaves its mark)
     terminal: np.ndarray     # bool[n]: the next state ends the episode
     success: np.ndarray      # bool[n]: ... by reaching the path's end
 
 
 @dataclass(frozen=True, eq=False)
 class PathRule:
-    """A compiled field variant's path-free dynamics over states s = falls · C + cell."""
+    """A compiled field variant's path-free dynamics over states s = missteps · C + cell."""
 
     variant_id: str
     params: Params
     layout: GridLayout
     frame: FieldFrame
     shape: PathShape
-    levels: int              # fall counts the state keeps (max_falls + 1, or 1 when not counted)
-    max_falls: int | None
-    to_start: bool           # a fall sends the agent to the start (else it stays where it was)
+    levels: int              # misstep counts the state keeps (misstep_limit + 1, or 1 when not counted)
+    misstep_limit: int | None
+    to_start: bool           # a misstep sends the agent to the start (else it stays where it was)
     mark_steps: int          # observations a mark is part of (0: no marks; MARK_FOREVER: episode)
     step_reward: float
     goal_reward: float
-    fall_reward: float
+    misstep_reward: float
     timeout_reward: float
     horizon: int
     discount: float
     aim: np.ndarray          # int64[S, A]: cell each move aims at (its own cell at the field's edge)
     move_next: np.ndarray    # int64[S, A]: next state when the aimed cell is on the path
-    fall_next: np.ndarray    # int64[S, A]: next state of a fall (cell part 0 when sent to the start)
+    misstep_next: np.ndarray # int64[S, A]: next state of a misstep (cell part 0 when sent to the start)
     state_cell: np.ndarray   # int64[S]
-    state_out: np.ndarray    # bool[S]: the fall limit was reached (a failed end)
+    state_out: np.ndarray    # bool[S]: the misstep limit was reached (a failed end)
     action_names: tuple[str, ...] = MOVE_NAMES
     bank_kind: np.ndarray | None = None   # int8[P, C]: every path of a walled field (row start · E + end)
     bank_start: np.ndarray | None = None  # int64[P]
-    mark_colour: tuple[int, int, int] = (213, 94, 0)   # of a mark in top-down pixels
+    mark_colour: tuple[int, int, int] = (204, 121, 167)   # of a mark's ring in pixels (render/palette.py: MARK)
 
     @property
     def draws(self) -> int:
@@ -130,22 +130,23 @@ class PathRule:
         path = np.arange(state.shape[0]) if path is None else path
         aim = self.aim[state, action]
         k = kind[path, aim]
-        fell = k == OFF
-        fall_to = self.fall_next[state, action] + (start[path] if self.to_start else 0)
-        nxt = np.where(fell, fall_to, self.move_next[state, action])
-        reward = self.step_reward + np.where(k == GOAL, self.goal_reward, 0.0) + np.where(fell, self.fall_reward, 0.0)
+        misstep = k == OFF
+        misstep_to = self.misstep_next[state, action] + (start[path] if self.to_start else 0)
+        nxt = np.where(misstep, misstep_to, self.move_next[state, action])
+        reward = (self.step_reward + np.where(k == GOAL, self.goal_reward, 0.0)
+                  + np.where(misstep, self.misstep_reward, 0.0))
         reached = kind[path, self.state_cell[nxt]] == GOAL
         out = self.state_out[nxt]
-        return Outcome(nxt, reward, fell, aim, reached | out, reached & ~out)
+        return Outcome(nxt, reward, misstep, aim, reached | out, reached & ~out)
 
-    def mark_after(self, until: np.ndarray, fell: np.ndarray, aim: np.ndarray, rows: np.ndarray,
+    def mark_after(self, until: np.ndarray, misstep: np.ndarray, aim: np.ndarray, rows: np.ndarray,
                    now: np.ndarray) -> None:
-        """Leave the marks of this step's falls in ``until`` [N, C] (in place): after a fall
-        (``fell[i]``, aimed at ``aim[i]``) in row ``rows[i]`` at step ``now[i]``, that cell shows
+        """Leave the marks of this step's missteps in ``until`` [N, C] (in place): after a misstep
+        (``misstep[i]``, aimed at ``aim[i]``) in row ``rows[i]`` at step ``now[i]``, that cell shows
         a mark in observations ``now … now + mark_steps − 1``: a cell is marked while ``until > step``."""
         if self.mark_steps == 0:
             return
-        hit = np.flatnonzero(fell)
+        hit = np.flatnonzero(misstep)
         if hit.size:
             until[rows[hit], aim[hit]] = self.mark_until(now[hit])
 
@@ -155,9 +156,9 @@ class PathRule:
 
     def tables(self, sample: PathSample, reachable_only: bool = True) -> Tables:
         """Finite tables over the paths of ``sample``: every (path, state), ends absorbing for
-        free, each path starting at (its start, no falls) with weight 1 / K. With
+        free, each path starting at (its start, no missteps) with weight 1 / K. With
         ``reachable_only`` only the states reachable from each path's start are kept (what the
-        analyses solve); ``local`` keeps their runtime numbers (falls · C + cell)."""
+        analyses solve); ``local`` keeps their runtime numbers (missteps · C + cell)."""
         S, A = self.num_states, self.num_actions
         state, action = np.divmod(np.arange(S * A), A)
         stay = np.repeat(np.arange(S), A)
@@ -200,18 +201,18 @@ class PathRule:
 
     def path_model(self, kind: np.ndarray, start: int, reachable_only: bool = False) -> TaskModel:
         """The finite task of one path (kind int8[C], start cell). Without ``reachable_only`` its
-        states are numbered as in the runtimes (falls · C + cell), so a runtime's state indexes it."""
+        states are numbered as in the runtimes (missteps · C + cell), so a runtime's state indexes it."""
         sample = PathSample(np.asarray(kind, dtype=np.int8)[None, :], np.asarray([start], dtype=np.int64))
         return self.model(sample, None, reachable_only)
 
-    def path_falls(self, kind: np.ndarray) -> np.ndarray:
+    def path_missteps(self, kind: np.ndarray) -> np.ndarray:
         """float[S, A]: 1 where the move steps off the path ``kind`` from a state that has not
-        ended (for expected fall counts; ended states absorb and fall no more)."""
+        ended (for expected misstep counts; ended states absorb and step off no more)."""
         kind = np.asarray(kind)
         ended = (kind[self.state_cell] == GOAL) | self.state_out
         return ((kind[self.aim] == OFF) & ~ended[:, None]).astype(np.float64)
 
-    def falls(self, model: TaskModel, sample: PathSample) -> np.ndarray:
+    def missteps(self, model: TaskModel, sample: PathSample) -> np.ndarray:
         """float[S, A] over a model of ``sample`` (see :meth:`model`): 1 where the move steps off
         its path from a state that has not ended."""
         aim = self.aim[model.local]
@@ -226,9 +227,9 @@ class PathRule:
         h = hashlib.sha256()
         h.update(f"field|{frame.rows}|{frame.cols}|{frame.start_side}|{shape.turns}|{shape.width}|{shape.start}|"
                  f"{self.levels}|{self.to_start}|{self.mark_steps}|{self.horizon}|".encode())
-        for part in (np.asarray([self.step_reward, self.goal_reward, self.fall_reward, self.timeout_reward,
+        for part in (np.asarray([self.step_reward, self.goal_reward, self.misstep_reward, self.timeout_reward,
                                  self.discount], dtype="<f8"),
-                     self.aim.astype("<i8"), self.move_next.astype("<i8"), self.fall_next.astype("<i8"),
+                     self.aim.astype("<i8"), self.move_next.astype("<i8"), self.misstep_next.astype("<i8"),
                      self.state_out.astype("u1")):
             h.update(np.ascontiguousarray(part).tobytes())
             h.update(b"|")

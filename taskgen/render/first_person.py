@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..model import TaskModel
+from .lamp import draw_strip, light
 from .palette import CUE_COLOURS, FLOOR, WALL
 
 # unit vectors (row, column) of the four headings north, east, south, west
@@ -74,8 +75,8 @@ def first_person_table(model: TaskModel, height: int, width: int, fov: float) ->
     """uint8[K, height, width, 3]: the first-person view of every observation key.
 
     Walls are shaded by distance (and darker when crossed along rows, so corners read), walls
-    of a goal cell take the goal's cue colour, and while the cue is shown a lamp strip along the
-    top of the view takes the cue colour."""
+    of a goal cell take the goal's cue colour, and a strip along the top of the view holds the cue
+    lamp (``render/lamp.py``), lit in the cue colour while the cue is shown."""
     K = model.num_keys
     distance, hit, side = cast(model, model.key_cell, model.key_heading, width, fov)
     goal_of = -np.ones(model.layout.num_cells, dtype=np.int64)
@@ -95,7 +96,8 @@ def first_person_table(model: TaskModel, height: int, width: int, fov: float) ->
     frames[:, height // 2:] = np.asarray(FLOOR, dtype=np.uint8)
     frames[is_wall] = np.broadcast_to(wall[:, None, :, :], (K, height, width, 3))[is_wall]
     lamp = lamp_rows(height)
+    draw_strip(frames, lamp, WALL, lamp=model.cue is not None)
     key_cue = model.shown_cue()
     shown = np.flatnonzero(key_cue >= 0)
-    frames[shown, :lamp] = np.asarray(CUE_COLOURS, dtype=np.uint8)[key_cue[shown]][:, None, None, :]
+    light(frames, lamp, shown, np.asarray(CUE_COLOURS, dtype=np.uint8)[key_cue[shown]])
     return frames

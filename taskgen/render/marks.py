@@ -31,9 +31,9 @@ class MarkOverlay:
     """Where marks go in each modality: a vector block (one bit per cell) and pixel tiles."""
 
     block: slice | None          # the marks block of the vector, or None
-    tiles: np.ndarray | None     # int64[T, P]: flat pixel indices (row · width + column) of each
-                                 # tile, per cell (full view) or per window position (window view),
-                                 # padded by repeating a tile's first pixel; None without pixels
+    tiles: np.ndarray | None     # int64[T, P]: flat pixel indices (row · width + column) of the mark's
+                                 # ring in each tile, per cell (full view) or per window position
+                                 # (window view), padded by repeating its first pixel; None without pixels
     window: int                  # cells across the window view (0: full view)
     cells: np.ndarray            # int64[C, 2] (row, column) of each cell
     floor: np.ndarray | None = None   # bool[C, H·W]: the floor pixels of the agent's frame at each
@@ -97,15 +97,29 @@ class MarkOverlay:
         frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(self.colour, dtype=np.uint8)
 
 
+def ring(height: int, width: int) -> np.ndarray:
+    """bool[height, width]: a mark's ring in a tile of that size: pixel centres between the outer radius
+    (half the tile's shorter side) and an inner one 40% of it in, at least a pixel thick; a tile too
+    small for a ring with a hole is filled."""
+    outer = min(height, width) / 2
+    inner = max(0.0, outer - max(1.0, 0.4 * outer))
+    y = np.arange(height)[:, None] + 0.5 - height / 2
+    x = np.arange(width)[None, :] + 0.5 - width / 2
+    distance = np.hypot(y, x)
+    shape = (distance <= outer) & (distance >= inner)
+    return shape if shape.any() and not shape.all() else np.ones((height, width), dtype=bool)
+
+
 def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
-    """int64[T, P]: flat pixel indices of pixel boxes (top, bottom, left, right), padded."""
-    sizes = (boxes[:, 1] - boxes[:, 0]) * (boxes[:, 3] - boxes[:, 2])
-    out = np.zeros((boxes.shape[0], max(int(sizes.max()), 1)), dtype=np.int64)
-    for i, (top, bottom, left, right) in enumerate(boxes):      # once per table, not per step
-        r, c = np.meshgrid(np.arange(top, bottom), np.arange(left, right), indexing="ij")
-        flat = (r * width + c).ravel()
-        out[i] = flat[0] if flat.size else 0   # a tile too small to show: pixel 0, in the lamp strip, never floor
-        out[i, :flat.size] = flat
+    """int64[T, P]: flat pixel indices of the mark's ring in each pixel box (top, bottom, left, right), padded."""
+    rings = [np.flatnonzero(ring(bottom - top, right - left).ravel()) if bottom > top and right > left
+             else np.zeros(0, dtype=np.int64) for top, bottom, left, right in boxes]
+    out = np.zeros((boxes.shape[0], max(max(r.size for r in rings), 1)), dtype=np.int64)
+    for i, ((top, _, left, right), flat) in enumerate(zip(boxes, rings)):    # once per table, not per step
+        r, c = np.divmod(flat, right - left) if flat.size else (flat, flat)
+        pixels = (r + top) * width + c + left
+        out[i] = pixels[0] if pixels.size else 0   # a tile too small to show: pixel 0, in the lamp strip, never floor
+        out[i, :pixels.size] = pixels
     return out
 
 

@@ -1,7 +1,7 @@
 """Colours of every picture taskgen draws, chosen so each cue colour reads against the floor.
 
 Cue colours are Okabe & Ito's colour-blind-safe palette ("Color Universal Design", 2008) in
-the palette's order, without black. Yellow, orange and sky blue fall below 3:1 on white, so
+the palette's order, without black. Yellow, orange and sky blue lie below 3:1 on white, so
 the floor is near-black: every cue colour then has a contrast ratio of at least 3:1 with it
 (WCAG 2.1, success criterion 1.4.11), by the relative-luminance formula of WCAG 2.x.
 """
@@ -21,11 +21,11 @@ CUE_COLOURS: tuple[tuple[int, int, int], ...] = (
 FLOOR = (20, 20, 28)
 WALL = (150, 150, 160)
 AGENT = (255, 255, 255)
-# hidden-path fields have no cue colours: a mark is vermillion in the agent's view unless the
-# spec names another colour (layout.field.mark.colour, which may not be FLOOR, WALL or AGENT:
-# spec/schema.py repeats those three, a test keeps them equal); the path (bluish green) and its
-# end (yellow) appear only in ground-truth pictures
-MARK = (213, 94, 0)
+# hidden-path fields have no cue colours: a mark is a reddish-purple ring in the agent's view unless
+# the spec names another colour (layout.field.mark.colour, which may not be FLOOR, WALL or AGENT:
+# spec/schema.py repeats those three and this default, a test keeps them equal); the path (bluish
+# green) and its end (yellow) appear only in ground-truth pictures
+MARK = (204, 121, 167)
 PATH = (0, 158, 115)
 PATH_END = (240, 228, 66)
 

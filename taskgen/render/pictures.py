@@ -11,17 +11,19 @@ from PIL import Image, ImageDraw
 
 from ..generate.paths import GOAL, OFF
 from ..model import PathRule, TaskModel
-from .palette import AGENT, CUE_COLOURS, PATH, PATH_END
+from .palette import AGENT, PATH, PATH_END
 from .topdown import TopDownRenderer
 
 
 def truth_picture(renderer: TopDownRenderer, model: TaskModel, state: int) -> np.ndarray:
     """uint8[H, W, 3]: the whole map with the agent at ``state`` of the model and, in a cue task, the
-    lamp strip in the true cue's colour and the goals the true cue (a sequence of values) names outlined."""
-    picture = Image.fromarray(renderer.frame(int(model.obs_key[state])))
+    lamp lit in the true cue's colour and the goals the true cue (a sequence of values) names outlined."""
+    frame = renderer.frame(int(model.obs_key[state]))
     sequence = cue_sequence(model, state)
     if not sequence:
-        return np.asarray(picture, dtype=np.uint8)
+        return frame
+    renderer.light(frame, sequence[0])
+    picture = Image.fromarray(frame)
     draw = ImageDraw.Draw(picture)
     goals = model.layout.sites.get("goal", np.zeros(0, dtype=np.int64))
     for value in sequence:
@@ -29,7 +31,6 @@ def truth_picture(renderer: TopDownRenderer, model: TaskModel, state: int) -> np
             r, c = model.layout.cells[goals[value]]
             left, top, right, bottom = renderer.box(int(r), int(c))
             draw.rectangle((left - 1, top - 1, right + 1, bottom + 1), outline=AGENT, width=2)
-    draw.rectangle((0, 0, picture.width - 1, renderer.lamp_rows * renderer.px - 1), fill=CUE_COLOURS[sequence[0]])
     return np.asarray(picture, dtype=np.uint8)
 
 
@@ -73,11 +74,7 @@ class PathPictures:
         if kind is not None:
             for cell in np.flatnonzero(kind != OFF):
                 draw.rectangle(self._cell_box(int(cell), inset), fill=PATH_END if kind[cell] == GOAL else PATH)
-        for cell in np.flatnonzero(marked):
-            if kind is None:
-                draw.rectangle(self._cell_box(int(cell), inset), fill=self.rule.mark_colour)
-            else:   # an outline, so the path under a mark stays visible
-                draw.rectangle(self._cell_box(int(cell), inset), outline=self.rule.mark_colour,
-                               width=max(1, self.px // 5))
+        for cell in np.flatnonzero(marked):   # a ring, as in the agent's pixels (the path stays visible inside)
+            draw.ellipse(self._cell_box(int(cell), inset), outline=self.rule.mark_colour, width=max(1, self.px // 5))
         draw.ellipse(self._cell_box(agent_cell, max(1, self.px // 4)), fill=AGENT)
         return np.asarray(image, dtype=np.uint8)

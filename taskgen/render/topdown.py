@@ -6,19 +6,26 @@ import numpy as np
 from PIL import Image, ImageDraw
 
 from ..model import TaskModel
+from .lamp import draw_strip, light
 from .palette import AGENT, CUE_COLOURS, FLOOR, WALL
+
+#: Pixels per cell of the pictures the top-down tables are resized from (and of render()).
+TILE_PX = 12
+#: Cells across the window view when the spec does not say (as the grid view's default size).
+WINDOW = 5
 
 
 class TopDownRenderer:
     """Draws a model's layout once and the agent and cue per frame.
 
-    The grid gets a one-cell wall border and thin walls where a move is blocked; a lamp strip
-    above it shows the cue colour while the cue is visible and stays wall-coloured otherwise.
+    The grid gets a one-cell wall border and thin walls where a move is blocked; the lamp at the
+    right end of the strip above it (``render/lamp.py``) is lit in the cue colour while the cue is
+    visible and dark otherwise.
     Goals (arm ends) are filled with the colour of their cue value, so a viewer can match cue
     and goal; a cue site is marked with a diamond outline.
     """
 
-    def __init__(self, model: TaskModel, cell_px: int = 12) -> None:
+    def __init__(self, model: TaskModel, cell_px: int = TILE_PX) -> None:
         self.model = model
         self.px = cell_px
         rows, cols = model.layout.shape
@@ -47,7 +54,9 @@ class TopDownRenderer:
             mid_x, mid_y, half = (left + right) // 2, (top + bottom) // 2, max(2, cell_px // 4)
             draw.polygon([(mid_x, mid_y - half), (mid_x + half, mid_y), (mid_x, mid_y + half),
                           (mid_x - half, mid_y)], outline=AGENT)
-        self.background = np.asarray(image, dtype=np.uint8)
+        background = np.asarray(image, dtype=np.uint8).copy()
+        draw_strip(background[None], self.lamp_rows * cell_px, WALL, lamp=model.cue is not None)
+        self.background = background
         self.key_cue = model.shown_cue()
 
     def box(self, row: int, col: int) -> tuple[int, int, int, int]:
@@ -58,16 +67,22 @@ class TopDownRenderer:
 
     def frame(self, key: int) -> np.ndarray:
         """uint8[H, W, 3] picture of observation key ``key``."""
-        image = Image.fromarray(self.background.copy())
-        draw = ImageDraw.Draw(image)
+        picture = self.background.copy()
         cue = int(self.key_cue[key])
         if cue >= 0:
-            draw.rectangle((0, 0, image.width - 1, self.lamp_rows * self.px - 1), fill=CUE_COLOURS[cue])
+            self.light(picture, cue)
+        image = Image.fromarray(picture)
+        draw = ImageDraw.Draw(image)
         r, c = self.model.layout.cells[self.model.key_cell[key]]
         left, top, right, bottom = self.box(int(r), int(c))
         inset = max(1, self.px // 5)
         draw.ellipse((left + inset, top + inset, right - inset, bottom - inset), fill=AGENT)
-        return np.asarray(image, dtype=np.uint8)
+        return np.array(image, dtype=np.uint8)          # a writable copy: pictures draw on it
+
+    def light(self, picture: np.ndarray, value: int) -> None:
+        """Light the lamp of ``picture`` (uint8[H, W, 3], in place) in cue value ``value``'s colour."""
+        light(picture[None], self.lamp_rows * self.px, np.zeros(1, dtype=np.int64),
+              np.asarray([CUE_COLOURS[value]], dtype=np.uint8))
 
 
 def _nearest(size: int, source: int) -> np.ndarray:
@@ -76,14 +91,14 @@ def _nearest(size: int, source: int) -> np.ndarray:
 
 
 def lamp_rows(height: int) -> int:
-    """Rows of the lamp strip at the top of a top-down frame."""
+    """Rows of the lamp strip at the top of a top-down frame (the lamp is as tall as the strip)."""
     return max(1, height // 10)
 
 
-def tile_boxes(model: TaskModel, height: int, width: int, view: str = "full", window: int = 7) -> np.ndarray:
+def tile_boxes(model: TaskModel, height: int, width: int, view: str = "full", window: int = WINDOW) -> np.ndarray:
     """int[T, 4]: (top, bottom, left, right) pixel box of each floor tile a lure may light: every
     layout cell in the full view, every window position in the window view."""
-    renderer_px = 8
+    renderer_px = TILE_PX
     rows, cols = model.layout.shape
     lamp = lamp_rows(height)
     if view == "full":   # every cell but the goals, which already show a cue colour
@@ -104,10 +119,11 @@ def tile_boxes(model: TaskModel, height: int, width: int, view: str = "full", wi
     return out
 
 
-def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", window: int = 7) -> np.ndarray:
+def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", window: int = WINDOW) -> np.ndarray:
     """uint8[K, height, width, 3]: the top-down picture the agent gets for every observation key.
 
-    The top tenth of the frame is the lamp strip (the cue colour while the cue is shown). Below
+    The top tenth of the frame is the lamp strip (its lamp lit in the cue colour while the cue is
+    shown). Below
     it, ``view='full'`` shows the whole map with the agent as a white square; ``view='window'``
     shows ``window × window`` cells centred on the agent (outside the map is wall). Every key is
     drawn at once with numpy gathers, so the runtime only indexes this table.
@@ -116,7 +132,7 @@ def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", w
     lamp = lamp_rows(height)
     body_h = height - lamp
     frames = np.empty((K, height, width, 3), dtype=np.uint8)
-    renderer = TopDownRenderer(model, cell_px=8)
+    renderer = TopDownRenderer(model)
     px = renderer.px
     rows, cols = model.layout.shape
     cells = model.layout.cells[model.key_cell]                       # [K, 2]
@@ -157,9 +173,8 @@ def pixel_table(model: TaskModel, height: int, width: int, view: str = "full", w
         if not centre_c.any():
             centre_c[np.argmin(np.abs(ci - (half * px + px // 2)))] = True
         frames[:, lamp:][:, centre_r[:, None] & centre_c[None, :]] = AGENT
-    frames[:, :lamp] = WALL
+    draw_strip(frames, lamp, WALL, lamp=model.cue is not None)
     key_cue = model.shown_cue()
     shown = np.flatnonzero(key_cue >= 0)
-    colours = np.asarray(CUE_COLOURS, dtype=np.uint8)
-    frames[shown, :lamp] = colours[key_cue[shown]][:, None, None, :]
+    light(frames, lamp, shown, np.asarray(CUE_COLOURS, dtype=np.uint8)[key_cue[shown]])
     return frames

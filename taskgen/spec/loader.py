@@ -12,7 +12,7 @@ from pydantic import BaseModel, ValidationError
 
 from ..errors import Location, SpecError, SpecErrors
 from .params import describe
-from .schema import FAMILIES, CueLayout, FieldTaskLayout, Spec, spec_type
+from .schema import FAMILIES, RENAMED, CueLayout, FieldTaskLayout, Spec, spec_type
 
 PathKey = tuple[Any, ...]
 
@@ -182,6 +182,11 @@ def _translate(err: Mapping[str, Any], pos: _Positions, root: type[BaseModel]) -
     value = err.get("input")
     field = _dotted(path)
     if kind == "extra_forbidden":
+        block = _model_at(root, path[:-1])
+        renamed = RENAMED.get((block, str(path[-1]))) if block is not None else None
+        if renamed is not None:
+            return SpecError(pos.locate(path, field, at_key=True),
+                             f"expected '{renamed}' (the key '{path[-1]}' was renamed)", repr(str(path[-1])))
         known = _known_keys(root, path[:-1])
         found = repr(str(path[-1]))
         hint = difflib.get_close_matches(str(path[-1]), known, n=1)

@@ -1,7 +1,7 @@
 """The spec language, version 1, as pydantic models: the one place a spec is validated.
 
 A spec is a :data:`Spec`: a :class:`CueTaskSpec` (corridor or maze, with a cue) or a
-:class:`FieldSpec` (a field crossed on a hidden path, no cue), told apart by the layout family.
+:class:`FieldSpec` (a field traversed along a hidden path, no cue), told apart by the layout family.
 Every later stage trusts a validated spec. Field descriptions double as the
 spec reference, so keep them true when behaviour changes.
 """
@@ -127,15 +127,15 @@ class HiddenPath(Strict):
     width: int = Field(default=1, ge=1, le=4, description="Cells across the path.", examples=[1, 2])
 
 
-class Fall(Strict):
-    """What stepping off the hidden path does (it pays rewards.fall)."""
+class Misstep(Strict):
+    """What stepping off the hidden path does (it pays rewards.misstep)."""
 
     to: Literal["start", "stay"] = Field(
         default="start", description="start: the agent is sent back to the path's start cell; stay: "
         "it stays on the path cell it stepped from.", examples=["start"])
-    max_falls: int | None = Field(
-        default=None, ge=1, le=64, description="The fall that reaches this count ends the episode "
-        "(a failure); null: falls never end it.", examples=[None, 5])
+    limit: int | None = Field(
+        default=None, ge=1, le=64, description="The misstep that reaches this count ends the episode "
+        "(a failure); null: missteps never end it.", examples=[None, 5])
 
 
 MAX_MARK_STEPS = 1_000_000   # longer than any step limit taskgen can analyse: the same as 'episode'
@@ -149,17 +149,18 @@ def _mark_steps(value: Any) -> Any:
 
 class Mark(Strict):
     """A feedback mark on the cell where the agent stepped off: a bit of the vector's marks block,
-    a tile in the mark colour in top-down pixels and the grid view's mark channel."""
+    a ring in the mark colour on that cell's tile in top-down pixels and the grid view's mark channel."""
 
     steps: Annotated[
         Union[int, Literal["episode"]], BeforeValidator(_mark_steps),
         WithJsonSchema({"anyOf": [{"type": "integer", "minimum": 1, "maximum": MAX_MARK_STEPS},
                                   {"const": "episode"}]}),
     ] = Field(default="episode", description="How many observations the mark is part of, the one "
-              "right after the fall included; 'episode': until the episode ends.", examples=[3, "episode"])
+              "right after the misstep included; 'episode': until the episode ends.", examples=[3, "episode"])
     colour: Annotated[list[Annotated[int, Field(ge=0, le=255)]], Field(min_length=3, max_length=3)] = Field(
-        default=[213, 94, 0], description="The mark's colour in top-down pixels, [red, green, blue] 0–255 "
-        "(default vermillion); it may not be the floor, wall or agent colour.", examples=[[213, 94, 0]])
+        default=[204, 121, 167], description="The colour of the mark's ring in top-down pixels, [red, green, "
+        "blue] 0–255 (default reddish purple); it may not be the floor, wall or agent colour.",
+        examples=[[204, 121, 167]])
 
     @field_validator("colour")
     @classmethod
@@ -193,8 +194,8 @@ class FieldLayout(Strict):
         description="Cells down (north to south); like width.", examples=[6])
     path: HiddenPath = Field(default_factory=HiddenPath, description="The hidden safe path.",
                              examples=[{"start_side": "south", "turns": 2}])
-    fall: Fall = Field(default_factory=Fall, description="What stepping off the path does.",
-                       examples=[{"to": "start", "max_falls": None}])
+    misstep: Misstep = Field(default_factory=Misstep, description="What stepping off the path does.",
+                             examples=[{"to": "start", "limit": None}])
     mark: Mark | None = Field(default_factory=Mark, description="The feedback mark, or null for none.",
                               examples=[{"steps": 4}, None])
     maze: FieldMaze | None = Field(
@@ -248,7 +249,7 @@ class FieldTaskLayout(_OneFamily):
     """Where the agent walks in a hidden-path task: a field."""
 
     field: FieldLayout = Field(
-        description="A field, open or walled, crossed on a hidden path (no cue: the path is what the agent "
+        description="A field, open or walled, traversed along a hidden path (no cue: the path is what the agent "
         "must learn and remember within an episode).", examples=[{"width": 5, "height": 6, "path": {"turns": 2}}])
 
     @property
@@ -306,9 +307,9 @@ class Rewards(Strict):
         default=0.0, ge=-MAX_REWARD, le=MAX_REWARD, description="Added on the step that reaches the step limit without ending.",
         examples=[-0.5],
     )
-    fall: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD,
-                        description="Stepping off a field's hidden path (field layouts only; there "
-                        "'correct' pays for reaching the path's end).", examples=[-0.1])
+    misstep: float = Field(default=0.0, ge=-MAX_REWARD, le=MAX_REWARD,
+                           description="Stepping off a field's hidden path (field layouts only; there "
+                           "'correct' pays for reaching the path's end).", examples=[-0.1])
 
 
 def _max_steps(value: Any) -> Any:
@@ -398,22 +399,24 @@ class PixelNoise(Strict):
 
 
 class PixelObservation(Strict):
-    """A top-down RGB picture (uint8): a lamp strip showing the cue colour while the cue is shown,
-    above the map (full) or a window of cells centred on the agent."""
+    """A top-down RGB picture (uint8): a wall-coloured strip whose lamp at its right end is lit in the
+    cue colour while the cue is shown, above the map (full) or a window of cells centred on the agent."""
 
     height: int = Field(default=64, ge=8, le=512, description="Frame height in pixels.", examples=[64])
     width: int = Field(default=64, ge=8, le=512, description="Frame width in pixels.", examples=[64])
     view: Literal["full", "window"] = Field(default="full", description="The whole map, or a window "
                                             "around the agent.", examples=["full", "window"])
     window: Annotated[int, BeforeValidator(_odd)] = Field(
-        default=7, ge=1, le=31, description="Cells across the window view (odd).", examples=[7])
+        default=5, ge=1, le=31, description="Cells across the window view (odd; as the grid view's size).",
+        examples=[5])
     noise: PixelNoise | None = Field(default=None, description="Pixel noise, or null for none.",
                                      examples=[{"kind": "salt_pepper", "amplitude": 0.02}])
 
 
 class FirstPersonObservation(Strict):
     """A first-person RGB view (uint8) by raycasting: walls shaded by distance, goal walls in their
-    cue colour, a lamp strip in the cue colour while the cue is shown. Needs agent.actions: turns."""
+    cue colour, a strip along the top whose lamp is lit in the cue colour while the cue is shown.
+    Needs agent.actions: turns."""
 
     height: int = Field(default=64, ge=8, le=512, description="Frame height in pixels.", examples=[64])
     width: int = Field(default=64, ge=8, le=512, description="Frame width in pixels (one ray per column).",
@@ -429,7 +432,7 @@ class Distractors(Strict):
     decoy_probability: float = Field(
         default=0.0, ge=0.0, le=1.0, description="Chance per step that, while the real cue is not shown, a "
         "decoy cue value (uniform over the values, so it carries nothing about the real one) appears "
-        "wherever the cue would: vector cue bits, grid cue channel, lamp strips. In a field: that a "
+        "wherever the cue would: vector cue bits, grid cue channel, the lamp of pixel frames. In a field: that a "
         "decoy mark shows on a cell drawn uniformly among those the agent is not on, for that "
         "observation only (it says nothing about the path).", examples=[0.1])
     lure_probability: float = Field(
@@ -468,8 +471,8 @@ class Agent(Strict):
     """How the agent moves."""
 
     actions: Literal["moves", "turns"] = Field(
-        default="moves", description="moves: Discrete(4) north, east, south, west; turns: Discrete(3) turn "
-        "left, turn right, forward, with a heading (needed by first_person and the egocentric grid).",
+        default="moves", description="moves: Discrete(4) north, east, south, west; turns: Discrete(3) "
+        "forward, turn right, turn left, with a heading (needed by first_person and the egocentric grid).",
         examples=["moves", "turns"])
 
 
@@ -567,8 +570,8 @@ class FieldSpec(_Settings, _FieldParts, _Header):
     def _field_rules(self) -> "FieldSpec":
         for name, default in (("wrong", 0.0), ("per_goal", None)):
             if getattr(self.rewards, name) != default:
-                _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a fall "
-                        "pays rewards.fall)", f"rewards.{name}")
+                _refuse(f"rewards.{name}", "no rewards.wrong or rewards.per_goal with a field layout (a misstep "
+                        "pays rewards.misstep)", f"rewards.{name}")
         obs = self.observation
         if obs.first_person is not None:
             _refuse("observation.first_person", "observation.vector, grid and/or pixels with a field layout "
@@ -583,6 +586,15 @@ class FieldSpec(_Settings, _FieldParts, _Header):
             _refuse("observation.distractors.decoy_probability", "a mark block (layout.field.mark) for decoy "
                     "marks to imitate", "mark: null")
         return self
+
+
+#: Keys earlier versions of the spec language used, per block: (block, old key) → the key that replaced it.
+#: A spec that still uses one is refused with an error naming the new key (no silent alias).
+RENAMED: dict[tuple[type[BaseModel], str], str] = {
+    (FieldLayout, "fall"): "misstep",
+    (Misstep, "max_falls"): "limit",
+    (Rewards, "fall"): "misstep",
+}
 
 
 def _is_default_decision(data: Any) -> bool:

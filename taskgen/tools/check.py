@@ -79,7 +79,7 @@ class RunJSON(TypedDict):
     statistics: StatisticsJSON
     details: Annotated[dict[str, SpreadJSON | None], Field(
         description="Numbers only this kind summarises over its variants (cue: recall_distance; field: "
-        "shortest_crossing).")]
+        "shortest_route).")]
     variants: Annotated[list[VariantJSON], Field(description="One report per variant, in seed order.")]
 
 

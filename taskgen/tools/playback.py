@@ -48,7 +48,7 @@ def scaled(image: np.ndarray, height: int = VIEW_HEIGHT) -> Image.Image:
 
 def resolve_policy(spec: Spec, policy: str) -> str:
     """'auto' is the kind's first policy (the optimal agent for cue tasks; the explorer on fields, whose
-    optimal agent knows the path and never falls, so its episodes would show no marks)."""
+    optimal agent knows the path and never steps off, so its episodes would show no marks)."""
     policies = kind_of(spec).policies
     if policy == "auto":
         return next(iter(policies))

@@ -1,4 +1,5 @@
-"""Golden episode hashes: the first 1,000 steps of every example spec under a fixed seed and
+"""Golden episode hashes: the first 1,000 steps of every example spec, and of the variations in
+``VARIATIONS`` (turn actions and first-person pixels, which no example uses), under a fixed seed and
 action sequence. `python tests/golden/episodes.py` prints them as JSON; `--write` updates
 episodes.json. Update only when a change to the dynamics or the randomness is intended, and say
 so in CHANGELOG.md: old seeds then give new episodes."""
@@ -9,6 +10,7 @@ import hashlib
 import json
 import sys
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -16,11 +18,20 @@ import taskgen
 
 STEPS = 1000
 HERE = Path(__file__).resolve().parent
+#: Extra golden runs: name → (example spec, overrides).
+VARIATIONS: dict[str, tuple[str, dict[str, Any]]] = {
+    "orchard-hives+turns+first-person": ("orchard-hives", {
+        "agent__actions": "turns", "observation__vector": None,
+        "observation__first_person": {"height": 24, "width": 32}}),
+    "lantern-hall+turns+egocentric-grid": ("lantern-hall", {
+        "agent__actions": "turns", "observation__vector": None,
+        "observation__grid": {"size": 3, "frame": "egocentric"}}),
+}
 
 
-def episode_hash(spec_name: str) -> str:
+def episode_hash(spec_name: str, **overrides: Any) -> str:
     """sha256 of observations, rewards and flags of 1,000 steps (variant 0, reset seed 0)."""
-    env = taskgen.make(spec_name, seed=0)
+    env = taskgen.make(spec_name, seed=0, **overrides)
     actions = np.random.default_rng(2024).integers(env.action_space.n, size=STEPS)
     h = hashlib.sha256()
     obs, _ = env.reset(seed=0)
@@ -37,8 +48,10 @@ def episode_hash(spec_name: str) -> str:
 
 
 def all_hashes() -> dict[str, str]:
-    """The hash of every bundled spec."""
-    return {name: episode_hash(name) for name in sorted(taskgen.bundled_specs())}
+    """The hash of every bundled spec and of every variation."""
+    hashes = {name: episode_hash(name) for name in taskgen.bundled_specs()}
+    hashes.update({name: episode_hash(spec, **over) for name, (spec, over) in VARIATIONS.items()})
+    return dict(sorted(hashes.items()))
 
 
 if __name__ == "__main__":
