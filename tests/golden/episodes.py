@@ -26,7 +26,23 @@ VARIATIONS: dict[str, tuple[str, dict[str, Any]]] = {
     "lantern-hall+turns+egocentric-grid": ("lantern-hall", {
         "agent__actions": "turns", "observation__vector": None,
         "observation__grid": {"size": 3, "frame": "egocentric"}}),
+    "seed-cache+decoys+lures": ("seed-cache", {
+        "observation__grid": {"size": 3}, "observation__pixels": {"height": 24, "width": 24},
+        "observation__distractors": {"decoy_probability": 0.3, "lure_probability": 0.4}}),
+    "lantern-hall+vector+decoys": ("lantern-hall", {"observation__distractors": {"decoy_probability": 0.3}}),
+    "marsh-stones+decoy-marks": ("marsh-stones", {
+        "observation__pixels": {"height": 24, "width": 24}, "observation__distractors": {"decoy_probability": 0.3}}),
+    "marsh-stones+vector+decoy-marks": ("marsh-stones", {"observation__distractors": {"decoy_probability": 0.3}}),
 }
+
+
+def _digest(h: Any, obs: Any) -> None:
+    """Add an observation (an array, or a dict of them in key order) to hash ``h``."""
+    if isinstance(obs, dict):
+        for name in sorted(obs):
+            h.update(obs[name].tobytes())
+    else:
+        h.update(obs.tobytes())
 
 
 def episode_hash(spec_name: str, **overrides: Any) -> str:
@@ -35,15 +51,15 @@ def episode_hash(spec_name: str, **overrides: Any) -> str:
     actions = np.random.default_rng(2024).integers(env.action_space.n, size=STEPS)
     h = hashlib.sha256()
     obs, _ = env.reset(seed=0)
-    h.update(obs.tobytes())
+    _digest(h, obs)
     for a in actions:
         obs, reward, terminated, truncated, _ = env.step(int(a))
-        h.update(obs.tobytes())
+        _digest(h, obs)
         h.update(np.float64(reward).tobytes())
         h.update(bytes([terminated, truncated]))
         if terminated or truncated:
             obs, _ = env.reset()
-            h.update(obs.tobytes())
+            _digest(h, obs)
     return h.hexdigest()
 
 
