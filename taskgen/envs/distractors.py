@@ -1,7 +1,16 @@
 """Decoy cues and lure tiles, drawn per environment and step from the counter-based streams,
-applied the same way by the single and the batched runtime (one numpy pass over N envs)."""
+applied the same way by the single and the batched runtime.
+
+Each step has six draws per environment (``uniform(key, step, 6)``, purpose 'distractor'): 0 decides
+a decoy and 1 its value; 2 decides a lure, 3 its value, 4 its grid cell and 5 its pixel tile. The
+batch draws column 0 (and 2) for every environment and the rest only for the environments whose
+decoy (lure) shows, so the work follows what is shown; a single env reads the same draws from a
+:class:`~taskgen.envs.streams.DrawBlock` and calls the painters only on the steps where something shows.
+"""
 
 from __future__ import annotations
+
+from typing import Sequence
 
 import numpy as np
 
@@ -11,11 +20,55 @@ from ..render.lamp import light
 from ..render.observations import ObservationSet
 from ..render.palette import CUE_COLOURS, FLOOR
 from ..render.topdown import lamp_rows as topdown_lamp
-from .streams import uniform
+from .streams import uniform_column
 
+DRAWS = 6                                    # draws per environment and step
 _COLOURS = np.asarray(CUE_COLOURS, dtype=np.uint8)
+_FLOOR = np.asarray(FLOOR, dtype=np.uint8)
 _CUE = GRID_CHANNELS.index("cue")
 _OPEN = GRID_CHANNELS.index("open")
+_LAMPS = (("pixels", topdown_lamp), ("first_person", first_person_lamp))
+
+
+def _value(u: np.ndarray, k: int) -> np.ndarray:
+    """A cue value drawn uniformly from ``u``."""
+    return np.minimum((u * k).astype(np.int64), k - 1)
+
+
+def show_decoys(obs: ObservationSet, parts: dict[str, np.ndarray], rows: np.ndarray, value: np.ndarray) -> None:
+    """Show decoy cue ``value`` [n] in environments ``rows`` [n] of batched ``parts`` (in place): the
+    vector's cue bits, the grid's cue channel at the agent, the lamp of pixel frames."""
+    if "vector" in parts and obs.vector is not None and "cue" in obs.vector.blocks:
+        block = obs.vector.blocks["cue"]
+        parts["vector"][rows, block] = 0.0
+        parts["vector"][rows, block.start + value] = 1.0
+    if "grid" in parts:
+        half = parts["grid"].shape[1] // 2
+        parts["grid"][rows, half, half, _CUE] = value + 1
+    for name, lamp in _LAMPS:
+        if name in parts:
+            light(parts[name], lamp(parts[name].shape[1]), rows, _COLOURS[value])
+
+
+def show_lures(parts: dict[str, np.ndarray], rows: np.ndarray, value: np.ndarray, grid_u: np.ndarray | None,
+               tile_u: np.ndarray | None, tile_counts: np.ndarray, tile_offsets: np.ndarray,
+               tiles: np.ndarray | None) -> None:
+    """Flash lure cue ``value`` [n] in environments ``rows`` [n] of batched ``parts`` (in place): in the
+    grid view, on the open cell drawn by ``grid_u``; in top-down pixels, on the floor of the tile drawn
+    by ``tile_u`` among the environment's ``tile_counts`` tiles from ``tile_offsets`` in ``tiles``."""
+    if "grid" in parts and grid_u is not None:
+        grid = parts["grid"]
+        size = grid.shape[1]
+        r, c = np.divmod(np.minimum((grid_u * size * size).astype(np.int64), size * size - 1), size)
+        open_ = grid[rows, r, c, _OPEN] == 1
+        grid[rows[open_], r[open_], c[open_], _CUE] = value[open_] + 1
+    if "pixels" in parts and tiles is not None and tile_u is not None:
+        count = tile_counts[rows]
+        top, bottom, left, right = tiles[tile_offsets[rows] + np.minimum((tile_u * count).astype(np.int64),
+                                                                         count - 1)].T
+        for i, row in enumerate(rows.tolist()):       # one box per lured environment (about p·N of them)
+            box = parts["pixels"][row, top[i]:bottom[i], left[i]:right[i]]
+            box[(box == _FLOOR).all(axis=2)] = _COLOURS[value[i]]
 
 
 def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: np.ndarray, step: np.ndarray,
@@ -27,40 +80,28 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
     cue is in view (no decoy then); lure tiles of env i are rows ``tile_offsets[i] …
     + tile_counts[i]`` of ``tiles``.
     """
-    n = keys.shape[0]
-    draws = uniform(keys, step, 6)                                   # [N, 6]
     k = obs.cue_values
     if obs.decoy_probability > 0:
-        decoy = (draws[:, 0] < obs.decoy_probability) & ~cue_shown
-        value = np.minimum((draws[:, 1] * k).astype(np.int64), k - 1)
-        rows = np.flatnonzero(decoy)
+        rows = np.flatnonzero((uniform_column(keys, step, 0) < obs.decoy_probability) & ~cue_shown)
         if rows.size:
-            if "vector" in parts and obs.vector is not None and "cue" in obs.vector.blocks:
-                block = obs.vector.blocks["cue"]
-                parts["vector"][rows, block] = 0.0
-                parts["vector"][rows, block.start + value[rows]] = 1.0
-            if "grid" in parts:
-                half = parts["grid"].shape[1] // 2
-                parts["grid"][rows, half, half, _CUE] = value[rows] + 1
-            for name, lamp in (("pixels", topdown_lamp), ("first_person", first_person_lamp)):
-                if name in parts:
-                    light(parts[name], lamp(parts[name].shape[1]), rows, _COLOURS[value[rows]])
-    if obs.lure_probability > 0:
-        lure = draws[:, 2] < obs.lure_probability
-        value = np.minimum((draws[:, 3] * k).astype(np.int64), k - 1)
-        if "grid" in parts:
-            size = parts["grid"].shape[1]
-            where = np.minimum((draws[:, 4] * size * size).astype(np.int64), size * size - 1)
-            r, c = np.divmod(where, size)
-            rows = np.flatnonzero(lure & (parts["grid"][np.arange(n), r, c, _OPEN] == 1))
-            parts["grid"][rows, r[rows], c[rows], _CUE] = value[rows] + 1
-        if "pixels" in parts and tiles is not None:
-            pick = tile_offsets + np.minimum((draws[:, 5] * tile_counts).astype(np.int64), tile_counts - 1)
-            top, bottom, left, right = tiles[pick].T
-            frame = parts["pixels"]
-            h, w = frame.shape[1:3]
-            inside = (((np.arange(h)[None, :] >= top[:, None]) & (np.arange(h)[None, :] < bottom[:, None]))[:, :, None]
-                      & ((np.arange(w)[None, :] >= left[:, None]) & (np.arange(w)[None, :] < right[:, None]))[:, None, :])
-            floor = (frame == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3)
-            mask = inside & floor & lure[:, None, None]
-            frame[mask] = np.broadcast_to(_COLOURS[value][:, None, None, :], frame.shape)[mask]
+            show_decoys(obs, parts, rows, _value(uniform_column(keys[rows], step[rows], 1), k))
+    if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts):
+        rows = np.flatnonzero(uniform_column(keys, step, 2) < obs.lure_probability)
+        if rows.size:
+            keys, step = keys[rows], step[rows]
+            show_lures(parts, rows, _value(uniform_column(keys, step, 3), k),
+                       uniform_column(keys, step, 4) if "grid" in parts else None,
+                       uniform_column(keys, step, 5) if "pixels" in parts else None,
+                       tile_counts, tile_offsets, tiles)
+
+
+def distract_one(obs: ObservationSet, parts: dict[str, np.ndarray], draws: Sequence[float], cue_shown: bool,
+                 tile_count: np.ndarray, tile_offset: np.ndarray, tiles: np.ndarray | None) -> None:
+    """The same overlay for one environment, from its step's ``draws`` (a :class:`DrawBlock` row);
+    ``parts`` carry a batch axis of one. Nothing runs on a step where nothing shows."""
+    k, row = obs.cue_values, np.zeros(1, dtype=np.int64)
+    if obs.decoy_probability > 0 and not cue_shown and draws[0] < obs.decoy_probability:
+        show_decoys(obs, parts, row, _value(np.asarray(draws[1:2]), k))
+    if obs.lure_probability > 0 and draws[2] < obs.lure_probability and ("grid" in parts or "pixels" in parts):
+        show_lures(parts, row, _value(np.asarray(draws[3:4]), k), np.asarray(draws[4:5]), np.asarray(draws[5:6]),
+                   tile_count, tile_offset, tiles)

@@ -18,7 +18,8 @@ from ..model import PathRule, TaskModel
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from .core import Core
-from .streams import EpisodeNoise, add_pixel_noise, flip_threshold, noise_track, subkeys, uniform
+from .streams import (DrawBlock, EpisodeNoise, add_pixel_noise, flip_threshold, noise_track, subkeys, uniform,
+                      uniform_column)
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
               "or a split of a field holds one variant")
@@ -57,7 +58,8 @@ class PathCore(Core):
         self._tables: tuple[list[Any], ...] = ()
         self._noise_track = np.zeros((self.rule.horizon + 1, self.bits), dtype=np.float32)
         # a single env: its state and step as Python ints, and what its step reads, looked up once
-        self._vector_only = self.vector is not None and observations.names == ("vector",) and self.decoy == 0
+        self._vector_only = self.vector is not None and observations.names == ("vector",)
+        self._draws = DrawBlock(2)     # a single env's decoy draws (shown_marks: show, then which cell)
         self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
         self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
         self._cells = self.rule.state_cell
@@ -91,12 +93,12 @@ class PathCore(Core):
         step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
         marked = self.until > self.step_count[:, None]
         if self.decoy > 0:
-            draws = uniform(self.noise.distractor_keys, self.step_count, 2)
-            show = np.flatnonzero(draws[:, 0] < self.decoy)
-            if show.size:
+            keys, step = self.noise.distractor_keys, self.step_count
+            show = np.flatnonzero(uniform_column(keys, step, 0) < self.decoy)
+            if show.size:     # the second draw only where a decoy shows
                 C = self.rule.num_cells
                 cell = self.rule.state_cell[self.state[show]]
-                other = np.minimum((draws[show, 1] * (C - 1)).astype(np.int64), C - 2)
+                other = np.minimum((uniform_column(keys[show], step[show], 1) * (C - 1)).astype(np.int64), C - 2)
                 marked[show, other + (other >= cell)] = True        # every cell but the agent's
         return marked
 
@@ -192,6 +194,8 @@ class PathCore(Core):
             self._noise_track = noise_track(key, self.bits, self.vector.flip_probability,
                                             rule.horizon)[0].astype(np.float32)
         self._s, self._t, self._start = int(self.state[0]), 0, int(self.start[0])
+        if self.decoy > 0:
+            self._draws.begin(self.noise.distractor_keys[:1])
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
@@ -211,11 +215,7 @@ class PathCore(Core):
         if truncated:
             reward += self.rule.timeout_reward
         if self._vector_only:
-            obs = self._rows[self._cells[state]].copy()
-            if self._mark_block is not None:
-                obs[self._mark_block] = self.until[0] > step
-            if self.bits:
-                obs = np.concatenate((obs, self._noise_track[min(step, self._horizon)]))
+            obs = self._vector_one(state, step)
         else:
             if self.bits:
                 self.noise.now[0] = self._noise_track[min(step, self._horizon)] > 0.5
@@ -228,10 +228,21 @@ class PathCore(Core):
     def _observe_scalar(self) -> Any:
         if not self._vector_only:
             return assemble(self.observations, {k: v[0] for k, v in self.observe().items()})
-        step = self._t
-        out = self._rows[self._cells[self._s]].copy()     # the common case, kept short
-        if self._mark_block is not None:
-            out[self._mark_block] = self.until[0] > step
+        return self._vector_one(self._s, self._t)
+
+    def _vector_one(self, state: int, step: int) -> np.ndarray:
+        """A single env's vector (the common case, kept short): its row, the marks shown (with this
+        step's decoy mark, as :meth:`shown_marks` draws it) and the noise bits."""
+        out = self._rows[self._cells[state]].copy()
+        block = self._mark_block
+        if block is not None:
+            out[block] = self.until[0] > step
+            if self.decoy > 0:
+                draws = self._draws.at(step)
+                if draws[0] < self.decoy:
+                    C, cell = self.rule.num_cells, int(self._cells[state])
+                    other = min(int(draws[1] * (C - 1)), C - 2)
+                    out[block.start + other + (other >= cell)] = 1.0
         if self.bits:
             out = np.concatenate((out, self._noise_track[min(step, self._horizon)]))
         return out

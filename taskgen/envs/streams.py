@@ -99,6 +99,39 @@ def uniform(sub: np.ndarray, step: np.ndarray | int = 0, width: int | None = Non
         return (_mix(base) >> np.uint64(11)).astype(np.float64) * _TO_UNIT
 
 
+def uniform_column(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.ndarray:
+    """Column ``index`` of ``uniform(sub, step, width)`` alone, for any width > index: [N]. A consumer
+    that needs a later draw only for some rows computes it for those rows, with the same values."""
+    sub = np.asarray(sub, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        base = sub + np.asarray(step).astype(np.uint64) * _STEP + np.uint64(index + 1) * _GOLDEN
+        return (_mix(base) >> np.uint64(11)).astype(np.float64) * _TO_UNIT
+
+
+class DrawBlock:
+    """One episode's per-step draws of one purpose for a single env, ``width`` per step, computed
+    ``size`` steps at a time in one numpy call and read as Python floats (equal to ``uniform(key,
+    step, width)`` at every step; the batched runtimes draw the same values step by step)."""
+
+    def __init__(self, width: int, size: int = 256) -> None:
+        self.width, self.size = width, size
+        self.key = np.zeros(1, dtype=np.uint64)
+        self.first, self.rows = 0, [[0.0] * width]
+
+    def begin(self, key: np.ndarray) -> None:
+        """A new episode whose per-purpose key is ``key`` (uint64[1])."""
+        self.key, self.first, self.rows = key, -self.size, []
+
+    def at(self, step: int) -> list[float]:
+        """The ``width`` draws of ``step``."""
+        offset = step - self.first
+        if not 0 <= offset < self.size:
+            self.first, offset = step, 0
+            steps = np.arange(step, step + self.size)
+            self.rows = uniform(np.repeat(self.key, self.size), steps, self.width).tolist()
+        return self.rows[offset]
+
+
 def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:
     """Index drawn by uniform ``u`` [N] from rows of cumulative probabilities [N, K]."""
     return np.minimum((u[:, None] >= cumulative).sum(axis=1), cumulative.shape[1] - 1)

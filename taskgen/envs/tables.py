@@ -21,8 +21,9 @@ from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .core import Core
-from .distractors import apply_distractors
-from .streams import EpisodeNoise, add_pixel_noise, categorical, flip_threshold, noise_track, subkeys, uniform
+from .distractors import DRAWS, apply_distractors, distract_one
+from .streams import (DrawBlock, EpisodeNoise, add_pixel_noise, categorical, flip_threshold, noise_track, subkeys,
+                      uniform)
 
 
 @dataclass(frozen=True, eq=False)
@@ -100,10 +101,15 @@ class TableCore(Core):
         self._s, self._t, self._h = -1, 0, 0
         self._variant, self._variant_id, self._timeout_one = 0, "", 0.0
         self._noise_track = np.zeros((0, self._bits), dtype=np.float32)
-        self._pixel_key = self._distractor_key = np.zeros(1, dtype=np.uint64)
+        self._pixel_key = np.zeros(1, dtype=np.uint64)
+        self._draws = DrawBlock(DRAWS)                      # the episode's distractor draws
         self._rows = np.zeros((0, 0), dtype=np.float32)    # each state's vector (no columns without one)
         self._next_list: list[Any] = []
-        self._vector_only = self.observations.names == ("vector",) and not self._distracted
+        self._shown_list: list[bool] = []
+        self._vector_only = self.observations.names == ("vector",)       # lures never show in a vector
+        cue_bits = self.blocks.get("cue", slice(0, 0))          # a decoy shows in them (single env, vector only)
+        self._decoy = self.observations.decoy_probability if cue_bits.stop > cue_bits.start else 0.0
+        self._cue_start, self._cue_stop = cue_bits.start, cue_bits.stop
 
     @property
     def models(self) -> list[TaskModel]:
@@ -288,6 +294,7 @@ class TableCore(Core):
             self._next_list, self._reward_list = self._next.tolist(), self._reward.tolist()
             self._terminal_list, self._hidden_list = self._terminal.tolist(), self._hidden.tolist()
             self._local_list, self._key_list = self._local.tolist(), self._obs_key.tolist()
+            self._shown_list = (self._key_cue[self._obs_key] >= 0).tolist()
             self._rows = self._table[self._obs_key]
         j = int(self.env_variant[0])
         if self._draw:
@@ -302,7 +309,7 @@ class TableCore(Core):
         if self.observations.pixel_noise is not None:
             self._pixel_key = subkeys(key, "pixel_noise")
         if self._distracted:
-            self._distractor_key = subkeys(key, "distractor")
+            self._draws.begin(subkeys(key, "distractor"))
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
@@ -318,6 +325,12 @@ class TableCore(Core):
         if self._vector_only:
             obs = np.concatenate((self._rows[state], self._noise_track[min(t, self._h)])) if self._bits \
                 else self._rows[state].copy()
+            if self._decoy and not self._shown_list[state]:
+                draws = self._draws.at(t)
+                if draws[0] < self._decoy:      # a decoy cue value in the cue bits (distractors.show_decoys)
+                    k = self.observations.cue_values
+                    obs[self._cue_start:self._cue_stop] = 0.0
+                    obs[self._cue_start + min(int(draws[1] * k), k - 1)] = 1.0
         else:
             obs = self._observe_scalar()
         return obs, reward, terminated, truncated, {
@@ -344,9 +357,9 @@ class TableCore(Core):
             parts["first_person"] = self._first_person[key].copy()
         if self._distracted:
             j = self._variant
-            apply_distractors(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key,
-                              np.array([t]), np.array([self._key_cue[key] >= 0]),
-                              self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1], self._tiles)
+            distract_one(self.observations, {k: v[None] for k, v in parts.items()}, self._draws.at(t),
+                         bool(self._key_cue[key] >= 0), self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1],
+                         self._tiles)
         return assemble(self.observations, parts)
 
     def _info_scalar(self) -> dict[str, Any]:
