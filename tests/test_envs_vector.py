@@ -14,9 +14,18 @@ import taskgen
 STEPS = 3000
 
 
+def _parts(obs):
+    """An observation's arrays by name (one modality: a Box; several: a Dict)."""
+    return obs if isinstance(obs, dict) else {"obs": obs}
+
+
 def _assert_same(ours, theirs, where):
     """Observations, rewards, terminations, truncations and infos equal, dtypes included."""
-    for name, x, y in zip(("obs", "reward", "terminated", "truncated"), ours[:4], theirs[:4]):
+    assert set(_parts(ours[0])) == set(_parts(theirs[0])), where
+    for name, x in _parts(ours[0]).items():
+        y = _parts(theirs[0])[name]
+        assert x.dtype == y.dtype and np.array_equal(x, y), (where, name)
+    for name, x, y in zip(("reward", "terminated", "truncated"), ours[1:4], theirs[1:4]):
         assert x.dtype == y.dtype and np.array_equal(x, y), (where, name)
     oi, ti = ours[4], theirs[4]
     assert list(oi["variant_id"]) == list(ti["variant_id"]), where
@@ -26,23 +35,23 @@ def _assert_same(ours, theirs, where):
         assert np.array_equal(value, ti["analysis_only"][key]), (where, key)
 
 
-def _compare(spec_name, variants, reset_seed, steps=STEPS):
+def _compare(spec_name, variants, reset_seed, steps=STEPS, **overrides):
     """Step our batch and gymnasium's SyncVectorEnv of single envs with the same actions."""
     n = len(variants)
-    ours = taskgen.make_vec(spec_name, n, variants=variants)
-    theirs = gym.vector.SyncVectorEnv([lambda v=v: taskgen.make(spec_name, seed=v) for v in variants])
+    ours = taskgen.make_vec(spec_name, n, variants=variants, **overrides)
+    theirs = gym.vector.SyncVectorEnv([lambda v=v: taskgen.make(spec_name, seed=v, **overrides) for v in variants])
     assert theirs.metadata["autoreset_mode"] == ours.metadata["autoreset_mode"] == AutoresetMode.NEXT_STEP
     o1, i1 = ours.reset(seed=reset_seed)
     o2, i2 = theirs.reset(seed=reset_seed)
-    assert np.array_equal(o1, o2)
+    assert all(np.array_equal(x, _parts(o2)[name]) for name, x in _parts(o1).items())
     rng = np.random.default_rng(5)
     for t in range(steps):
-        a = rng.integers(4, size=n)
+        a = rng.integers(ours.single_action_space.n, size=n)
         _assert_same(ours.step(a), theirs.step(a), (spec_name, t))
     # a later unseeded reset continues every env's stream the same way
     o1, _ = ours.reset()
     o2, _ = theirs.reset()
-    assert np.array_equal(o1, o2)
+    assert all(np.array_equal(x, _parts(o2)[name]) for name, x in _parts(o1).items())
 
 
 @pytest.mark.parametrize("spec_name", sorted(taskgen.bundled_specs()))
@@ -51,6 +60,23 @@ def test_batch_equals_sync_vector_env_of_single_envs(spec_name):
     gives exactly what gymnasium's SyncVectorEnv of our single envs gives (gymnasium's own
     vector semantics, next-step autoreset, are the reference)."""
     _compare(spec_name, variants=[3] * 5, reset_seed=11)
+
+
+@pytest.mark.parametrize("spec_name, overrides", [
+    ("seed-cache", {"observation__grid": {"size": 3}, "observation__pixels": {"height": 24, "width": 24},
+                    "observation__distractors": {"decoy_probability": 0.3, "lure_probability": 0.4}}),
+    ("lantern-hall", {"observation__distractors": {"decoy_probability": 0.3}}),
+    ("orchard-hives", {"agent__actions": "turns", "observation__first_person": {"height": 16, "width": 20},
+                       "observation__distractors": {"decoy_probability": 0.5}}),
+    ("marsh-stones", {"observation__pixels": {"height": 24, "width": 24},
+                      "observation__distractors": {"decoy_probability": 0.3}}),
+    ("marsh-stones", {"observation__distractors": {"decoy_probability": 0.3}}),
+], ids=["cue-all-distractors", "cue-vector-decoys", "first-person-decoys", "field-pixel-decoys", "field-vector-decoys"])
+def test_batch_with_distractors_equals_single_envs(spec_name, overrides):
+    """Decoys and lures are drawn per environment and step from the episode's stream: the batch
+    (column draws) and the single envs (a draw block, a scalar decoy path) show the same ones
+    (gymnasium's SyncVectorEnv of our single envs is the reference)."""
+    _compare(spec_name, variants=[3] * 4, reset_seed=2, steps=1200, **overrides)
 
 
 @pytest.mark.parametrize("spec_name", ["seed-cache", "signal-tower"])
