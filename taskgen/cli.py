@@ -6,16 +6,17 @@ import json
 import os
 import sys
 import traceback
+from typing import Any
 
 import click
 
 from . import limits
 from .errors import TaskgenError
 from .analysis.policysearch import NODES
-from .factory import resolve_spec
+from .factory import bundled_specs, resolve_spec
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, report_schema, run_check
-from .tools.bench import format_bench, run_bench
+from .tools.bench import bench_title, format_all, format_bench, run_bench
 from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
@@ -66,22 +67,32 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
 
 
 @cli.command()
-@click.argument("spec", type=click.Path(dir_okay=False))
+@click.argument("specs", nargs=-1, type=click.Path(dir_okay=False))
+@click.option("--all", "every", is_flag=True, help="Every bundled spec (in place of SPECS).")
 @click.option("--num-envs", "-n", default=1024, show_default=True, type=click.IntRange(min=1),
               help="Environments in the batched runs.")
 @click.option("--seconds", default=1.0, show_default=True, type=click.FloatRange(min=0.05),
               help="About how long to time each runtime.")
 @click.option("--sync-envs", type=click.IntRange(min=1), help="Environments in the SyncVectorEnv runs "
               "(default: --num-envs).")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
-@click.option("--out", "-o", type=click.Path(dir_okay=False), help="Also write the JSON result to this file.")
-def bench(spec: str, num_envs: int, seconds: float, sync_envs: int | None, as_json: bool, out: str | None) -> None:
-    """Measure env-steps/s of SPEC's single and batched envs against references in the same run."""
-    result = run_bench(resolve_spec(spec), num_envs=num_envs, budget=seconds, sync_envs=sync_envs)
-    text = json.dumps(result, indent=2)
-    click.echo(text if as_json else format_bench(result))
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+@click.option("--out", "-o", type=click.Path(dir_okay=False),
+              help="Also write the result to this file: Markdown when it ends in .md, else JSON.")
+def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sync_envs: int | None, as_json: bool,
+          out: str | None) -> None:
+    """Measure env-steps/s of each SPEC's single and batched envs against references in the same run
+    (several SPECS or --all: one row per spec)."""
+    if every == bool(specs):
+        raise click.UsageError("give SPECS or --all (not both)")
+    names = sorted(bundled_specs()) if every else list(specs)
+    loaded = [resolve_spec(name) for name in names]       # every spec validated before any timing
+    results = [run_bench(spec, num_envs=num_envs, budget=seconds, sync_envs=sync_envs) for spec in loaded]
+    data: Any = results[0] if len(results) == 1 else results
+    text = json.dumps(data, indent=2)
+    table = format_bench(results[0]) if len(results) == 1 else format_all(results, bench_title())
+    click.echo(text if as_json else table)
     if out:
-        write_text_atomic(out, text + "\n")
+        write_text_atomic(out, (format_all(results, bench_title()) if out.endswith(".md") else text + "\n"))
 
 
 @cli.command()

@@ -109,23 +109,27 @@ def uniform_column(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.nd
 
 
 class DrawBlock:
-    """One episode's per-step draws of one purpose for a single env, ``width`` per step, computed
-    ``size`` steps at a time in one numpy call and read as Python floats (equal to ``uniform(key,
-    step, width)`` at every step; the batched runtimes draw the same values step by step)."""
+    """One episode's per-step draws of one purpose for a single env, ``width`` per step, computed a
+    block of steps at a time in one numpy call and read as Python floats (equal to ``uniform(key,
+    step, width)`` at every step; the batched runtimes draw the same values step by step). Blocks
+    start at 8 steps and double up to 256, so short episodes draw little and long ones seldom."""
 
-    def __init__(self, width: int, size: int = 256) -> None:
-        self.width, self.size = width, size
+    FIRST, LARGEST = 8, 256
+
+    def __init__(self, width: int) -> None:
+        self.width = width
         self.key = np.zeros(1, dtype=np.uint64)
-        self.first, self.rows = 0, [[0.0] * width]
+        self.first, self.size, self.rows = 0, 0, [[0.0] * width]
 
     def begin(self, key: np.ndarray) -> None:
         """A new episode whose per-purpose key is ``key`` (uint64[1])."""
-        self.key, self.first, self.rows = key, -self.size, []
+        self.key, self.first, self.size, self.rows = key, 0, 0, []
 
     def at(self, step: int) -> list[float]:
         """The ``width`` draws of ``step``."""
         offset = step - self.first
         if not 0 <= offset < self.size:
+            self.size = min(max(2 * self.size, self.FIRST), self.LARGEST)
             self.first, offset = step, 0
             steps = np.arange(step, step + self.size)
             self.rows = uniform(np.repeat(self.key, self.size), steps, self.width).tolist()

@@ -2,11 +2,16 @@
 
 Every figure is env-steps per second (a batch of N environments stepping once counts N), with
 uniform-random actions drawn before timing (a block of 4,096 steps, cycled). All environments are the raw classes, without
-gymnasium's checker wrappers, so the comparison is like for like.
+gymnasium's checker wrappers, so the comparison is like for like. Each spec is also timed with
+distractors switched on (``DISTRACTORS``: decoys, and lures where the kind has them) to give what
+they cost. ``--all`` times every bundled spec in one run and prints one row each.
 """
 
 from __future__ import annotations
 
+import datetime
+import os
+import platform
 import time
 from dataclasses import dataclass
 from typing import Any, Callable
@@ -17,6 +22,9 @@ import numpy as np
 from ..factory import make, make_vec
 from ..kinds import kind_of
 from ..spec import Spec
+
+#: The distractor probabilities of the "with distractors" runs (lures only where the kind has them).
+DISTRACTORS = {"decoy_probability": 0.2, "lure_probability": 0.2}
 
 def frozen_lake() -> gym.Env[Any, Any]:
     """The reference env: FrozenLake-v1, 8×8, not slippery, without gymnasium's checker wrappers."""
@@ -130,6 +138,29 @@ def _common_timings(spec: Spec, batched: Any, num_envs: int, sync_envs: int, bud
     ]
 
 
+def describe(spec: Spec) -> dict[str, Any]:
+    """What a spec's agent gets, for a bench header: its modalities, noise and distractors."""
+    obs = spec.observation
+    noise = []
+    if obs.vector is not None and obs.vector.noise is not None:
+        noise.append(f"{obs.vector.noise.bits} noise bits (flip {obs.vector.noise.flip_probability:g})")
+    if obs.pixels is not None and obs.pixels.noise is not None:
+        noise.append(f"{obs.pixels.noise.kind} pixel noise {obs.pixels.noise.amplitude:g}")
+    dist = obs.distractors
+    distractors = [f"{name} {value:g}" for name, value in (("decoys", dist.decoy_probability),
+                                                            ("lures", dist.lure_probability)) if value > 0]
+    return {"kind": kind_of(spec).name, "modalities": obs.modalities(), "noise": noise, "distractors": distractors}
+
+
+def _with_distractors(spec: Spec) -> dict[str, Any]:
+    """Overrides that switch the bench's distractors on (fields have no lures)."""
+    chosen = dict(spec.observation.distractors.model_dump())
+    chosen["decoy_probability"] = DISTRACTORS["decoy_probability"]
+    if kind_of(spec).name != "field":
+        chosen["lure_probability"] = DISTRACTORS["lure_probability"]
+    return {"observation__distractors": chosen}
+
+
 def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: int | None = None,
               seed: int = 0) -> dict[str, Any]:
     """Measure every runtime and the references; returns timings, ratios and memory."""
@@ -165,17 +196,38 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
     }
     if len(timings) > 8:
         ratios["first-person / SyncVectorEnv(FrozenLake)"] = timings[8].env_steps_per_s / fl_sync
+    distracted = _with_distractors(spec)
+    with_single = _timed("taskgen single env, distractors on", 1, _single_loop(make(spec, **distracted), rng), budget)
+    with_batched = _timed(f"taskgen batched env, distractors on ({num_envs})", num_envs,
+                          _vector_loop(make_vec(spec, num_envs, **distracted), rng), budget)
+    timings += [with_single, with_batched]
+    ratios["single with distractors / single"] = with_single.env_steps_per_s / single
+    ratios["batched with distractors / batched"] = with_batched.env_steps_per_s / vec
     memory = batched.memory_bytes()
     vector = batched.core.observations.vector
     return {"spec": spec.name, "num_envs": num_envs, "noise_bits": vector.noise_bits if vector is not None else 0,
+            "observes": describe(spec), "distractors_on": distracted["observation__distractors"],
             "timings": [t.__dict__ for t in timings], "env_steps_per_s": {t.name: t.env_steps_per_s for t in timings},
             "ratios": ratios, "memory_bytes": {"per_env": memory["per_env"], "shared_tables": memory["shared"]}}
 
 
+def _observes(result: dict[str, Any]) -> str:
+    """One line on what the spec's agent gets."""
+    what = result["observes"]
+    return (f"{what['kind']}; {', '.join(what['modalities'])}; noise: {', '.join(what['noise']) or 'none'}; "
+            f"distractors: {', '.join(what['distractors']) or 'none'}")
+
+
+def _distractors_on(result: dict[str, Any]) -> str:
+    on = result["distractors_on"]
+    return ", ".join(f"{name.split('_')[0]}s {value:g}" for name, value in on.items() if value > 0)
+
+
 def format_bench(result: dict[str, Any]) -> str:
     """A table of the timings, then the ratios and memory."""
-    lines = [f"{result['spec']}: {result['num_envs']} envs, {result['noise_bits']} noise bits, "
-             "uniform-random actions", "", f"  {'runtime':<46} {'env-steps/s':>14}"]
+    lines = [f"{result['spec']}: {result['num_envs']} envs, uniform-random actions",
+             f"  observes: {_observes(result)}",
+             f"  distractors on: {_distractors_on(result)}", "", f"  {'runtime':<46} {'env-steps/s':>14}"]
     for t in result["timings"]:
         lines.append(f"  {t['name']:<46} {t['env_steps_per_s']:>14,.0f}")
     lines += ["", "  ratios (same run)"]
@@ -185,3 +237,47 @@ def format_bench(result: dict[str, Any]) -> str:
     lines += ["", f"  memory: {mem['per_env']:,} bytes per environment, "
               f"{mem['shared_tables']:,} bytes of shared tables"]
     return "\n".join(lines)
+
+
+#: The columns of the --all table: (heading, ratio or timing name); timings are in env-steps/s.
+SUMMARY = (
+    ("single", "taskgen single env"),
+    ("batched", "taskgen batched env"),
+    ("batched / Sync(FrozenLake)", "batched / SyncVectorEnv(FrozenLake)"),
+    ("batched / raw table step", "batched / raw numpy table step"),
+    ("single / FrozenLake", "single / FrozenLake single"),
+    ("pixels / frame gather", "top-down pixels / numpy frame gather"),
+    ("first-person / Sync(FrozenLake)", "first-person / SyncVectorEnv(FrozenLake)"),
+    ("single, distractors on", "single with distractors / single"),
+    ("batched, distractors on", "batched with distractors / batched"),
+)
+
+
+def _figure(result: dict[str, Any], name: str) -> str:
+    if name in result["ratios"]:
+        return f"{result['ratios'][name]:.2f}×"
+    steps = next((v for k, v in result["env_steps_per_s"].items() if k.split(" (")[0] == name), None)
+    return "–" if steps is None else f"{steps:,.0f}"
+
+
+def bench_title() -> str:
+    """A title that dates a bench and names the machine's kind (CPUs, Python, numpy, gymnasium)."""
+    return (f"taskgen bench, {datetime.date.today().isoformat()}: {os.cpu_count()} CPUs ({platform.machine()}), "
+            f"Python {platform.python_version()}, numpy {np.__version__}, gymnasium {gym.__version__}")
+
+
+def format_all(results: list[dict[str, Any]], title: str = "") -> str:
+    """A Markdown report of several specs' benches: what each spec's agent gets, then one row per spec
+    with its steps/s and every ratio (all measured in one run)."""
+    num_envs = results[0]["num_envs"] if results else 0
+    lines = [f"# {title}" if title else "# taskgen bench", "",
+             f"Env-steps per second with uniform-random actions; batches of {num_envs}; every ratio is between "
+             "two runs of the same process. Ratios carry over between machines, absolute numbers do not.",
+             f"Distractors on: decoys {DISTRACTORS['decoy_probability']:g}, lures "
+             f"{DISTRACTORS['lure_probability']:g} (fields: decoy marks only).", "", "## What each spec observes", ""]
+    lines += [f"- `{r['spec']}`: {_observes(r)}" for r in results]
+    lines += ["", "## Figures", "", "| spec | " + " | ".join(h for h, _ in SUMMARY) + " |",
+              "|---|" + "---:|" * len(SUMMARY)]
+    lines += ["| " + " | ".join([f"`{r['spec']}`"] + [_figure(r, name) for _, name in SUMMARY]) + " |"
+              for r in results]
+    return "\n".join(lines) + "\n"
