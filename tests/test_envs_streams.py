@@ -1,10 +1,10 @@
-"""Counter-based streams: a column drawn alone and a single env's draw block equal the full draws."""
+"""Counter-based streams: a column drawn alone and a single env's scalar draw equal the full draws."""
 
 from __future__ import annotations
 
 import numpy as np
 
-from taskgen.envs.streams import DrawBlock, subkeys, uniform, uniform_column
+from taskgen.envs.streams import draw, subkeys, uniform, uniform_column
 
 
 def test_a_column_drawn_alone_equals_that_column_of_the_full_draw():
@@ -19,12 +19,32 @@ def test_a_column_drawn_alone_equals_that_column_of_the_full_draw():
         assert np.array_equal(uniform_column(keys, step, j), uniform(keys, step, j + 1)[:, j])
 
 
-def test_a_draw_block_equals_the_step_by_step_draws_across_block_edges():
-    """A single env's DrawBlock gives uniform(key, t, width) at every step t, across the edges of its
-    growing blocks and after a new episode begins (common practice)."""
-    block = DrawBlock(3)
-    for episode in (5, 9):
-        key = subkeys(np.array([episode], dtype=np.uint64), "distractor")
-        block.begin(key)
-        for t in range(600):
-            assert block.at(t) == uniform(key, t, 3)[0].tolist(), (episode, t)
+def test_a_single_draw_in_python_integers_equals_numpy_s():
+    """draw(key, t, j) — a single env's draw in Python ints — is the float uniform(key, t, width)
+    gives in column j, bit for bit, for keys and steps across the uint64 range (common practice:
+    splitmix64 is defined on wrapping 64-bit arithmetic, Steele, Lea & Flood, OOPSLA 2014)."""
+    rng = np.random.default_rng(3)
+    keys = np.concatenate([rng.integers(0, 2**63, size=20, dtype=np.uint64) * np.uint64(2),
+                           np.array([0, 2**64 - 1], dtype=np.uint64)])
+    for key in keys:
+        for t in (0, 1, 5, 999, 2**40):
+            full = uniform(np.array([key]), t, 6)[0]
+            assert [draw(int(key), t, j) for j in range(6)] == full.tolist(), (key, t)
+
+
+def test_the_streams_wrap_without_warnings_for_scalars_and_arrays():
+    """uint64 hashing wraps by design: with warnings as errors, every stream function runs on 0-d and
+    1-d inputs whose products overflow (numpy warns on overflow in scalar math, not in ufunc loops)."""
+    import warnings
+
+    from taskgen.envs.streams import episode_keys, flips, noise_track
+    big = np.array([2**64 - 1], dtype=np.uint64)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        keys = episode_keys(big, np.array([2**40]))
+        for step in (7, np.array([2**50])):
+            uniform(subkeys(keys, "cue"), step, 4)
+            uniform_column(keys, step, 3)
+            flips(keys, step, 9, 1000)
+        uniform(np.uint64(2**63 + 5), 2**40)
+        noise_track(keys, 5, 0.3, 12)

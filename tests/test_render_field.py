@@ -151,3 +151,24 @@ def test_a_mark_is_a_ring_with_the_floor_showing_inside():
     outer = min(h, w) / 2
     assert painted.any() and distance.max() <= outer and distance.min() >= 1.2 and distance.max() >= outer - 1
     assert (tile[h // 2 - 1:h // 2 + 1, w // 2 - 1:w // 2 + 1] == FLOOR).all()
+
+
+@pytest.mark.parametrize("view", ["full", "window"])
+def test_the_paint_table_paints_what_the_tiles_and_floor_masks_paint(view):
+    """Marks painted from the precomputed paint table equal marks painted from the tiles and the
+    agent's floor mask, for random sets of marks off the agent's cell in many environments at once
+    (common practice: a fast path checked against the plain one)."""
+    import dataclasses
+    model, obs, overlay = _built({"vector": None, "pixels": {"height": 52, "width": 44, "view": view, "window": 5}},
+                                 width=5, height=6)
+    assert overlay.paint is not None
+    plain = dataclasses.replace(overlay, paint=None)
+    rng = np.random.default_rng(4)
+    C = model.paths.num_cells
+    agent = rng.integers(C, size=300)
+    marked = rng.random((300, C)) < 0.3
+    marked[np.arange(300), agent] = False
+    fast, slow = {"pixels": obs.pixels[agent].copy()}, {"pixels": obs.pixels[agent].copy()}
+    overlay.apply(fast, agent, marked)
+    plain.apply(slow, agent, marked)
+    assert np.array_equal(fast["pixels"], slow["pixels"]) and not np.array_equal(fast["pixels"], obs.pixels[agent])

@@ -4,13 +4,11 @@ applied the same way by the single and the batched runtime.
 Each step has six draws per environment (``uniform(key, step, 6)``, purpose 'distractor'): 0 decides
 a decoy and 1 its value; 2 decides a lure, 3 its value, 4 its grid cell and 5 its pixel tile. The
 batch draws column 0 (and 2) for every environment and the rest only for the environments whose
-decoy (lure) shows, so the work follows what is shown; a single env reads the same draws from a
-:class:`~taskgen.envs.streams.DrawBlock` and calls the painters only on the steps where something shows.
+decoy (lure) shows, so the work follows what is shown; a single env draws the same numbers one at a
+time (:func:`~taskgen.envs.streams.draw`) and calls the painters only on the steps where something shows.
 """
 
 from __future__ import annotations
-
-from typing import Sequence
 
 import numpy as np
 
@@ -20,7 +18,7 @@ from ..render.lamp import light
 from ..render.observations import ObservationSet
 from ..render.palette import CUE_COLOURS, FLOOR
 from ..render.topdown import lamp_rows as topdown_lamp
-from .streams import uniform_column
+from .streams import draw, uniform_column
 
 DRAWS = 6                                    # draws per environment and step
 _COLOURS = np.asarray(CUE_COLOURS, dtype=np.uint8)
@@ -95,13 +93,14 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
                        tile_counts, tile_offsets, tiles)
 
 
-def distract_one(obs: ObservationSet, parts: dict[str, np.ndarray], draws: Sequence[float], cue_shown: bool,
+def distract_one(obs: ObservationSet, parts: dict[str, np.ndarray], key: int, step: int, cue_shown: bool,
                  tile_count: np.ndarray, tile_offset: np.ndarray, tiles: np.ndarray | None) -> None:
-    """The same overlay for one environment, from its step's ``draws`` (a :class:`DrawBlock` row);
-    ``parts`` carry a batch axis of one. Nothing runs on a step where nothing shows."""
+    """The same overlay for one environment whose 'distractor' key is ``key`` (a Python int), at
+    ``step``; ``parts`` carry a batch axis of one. Nothing is painted on a step where nothing shows."""
     k, row = obs.cue_values, np.zeros(1, dtype=np.int64)
-    if obs.decoy_probability > 0 and not cue_shown and draws[0] < obs.decoy_probability:
-        show_decoys(obs, parts, row, _value(np.asarray(draws[1:2]), k))
-    if obs.lure_probability > 0 and draws[2] < obs.lure_probability and ("grid" in parts or "pixels" in parts):
-        show_lures(parts, row, _value(np.asarray(draws[3:4]), k), np.asarray(draws[4:5]), np.asarray(draws[5:6]),
-                   tile_count, tile_offset, tiles)
+    if obs.decoy_probability > 0 and not cue_shown and draw(key, step, 0) < obs.decoy_probability:
+        show_decoys(obs, parts, row, _value(np.array([draw(key, step, 1)]), k))
+    if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts) and \
+            draw(key, step, 2) < obs.lure_probability:
+        show_lures(parts, row, _value(np.array([draw(key, step, 3)]), k), np.array([draw(key, step, 4)]),
+                   np.array([draw(key, step, 5)]), tile_count, tile_offset, tiles)

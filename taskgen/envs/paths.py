@@ -15,10 +15,11 @@ import numpy as np
 from gymnasium import spaces
 
 from ..model import PathRule, TaskModel
+from ..model.paths import MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from .core import Core
-from .streams import (DrawBlock, EpisodeNoise, add_pixel_noise, flip_threshold, noise_track, subkeys, uniform,
+from .streams import (EpisodeNoise, add_pixel_noise, draw, flip_threshold, noise_track, subkeys, uniform,
                       uniform_column)
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
@@ -55,14 +56,23 @@ class PathCore(Core):
         self._ids = np.full(n, model.variant_id, dtype=object)
         self._ids.flags.writeable = False    # shared by every info dict: read-only
         self._pictures: PathPictures | None = None
-        self._tables: tuple[list[Any], ...] = ()
+        self._kind_list: list[int] = []
         self._noise_track = np.zeros((self.rule.horizon + 1, self.bits), dtype=np.float32)
         # a single env: its state and step as Python ints, and what its step reads, looked up once
         self._vector_only = self.vector is not None and observations.names == ("vector",)
-        self._draws = DrawBlock(2)     # a single env's decoy draws (shown_marks: show, then which cell)
+        self._distractor_key = 0       # a single env's 'distractor' key (decoy marks, as shown_marks draws them)
         self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
         self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
+        self._table_bits = np.concatenate([self._rows, np.zeros((self._rows.shape[0], self.bits), np.float32)], axis=1) \
+            if self.bits else self._rows                   # the vector's rows with the noise bits' columns
+        # a single env's noise-free observations by (cell, marks shown), at most about 32 MiB of them
+        self._seen: dict[tuple[int, frozenset[int]], dict[str, np.ndarray]] = {}
+        row = sum(table[0].nbytes for table in (observations.grid, observations.pixels) if table is not None)
+        row += 4 * (self._rows.shape[1] + self.bits) if self.vector is not None else 0
+        self._seen_limit = max(16, min(4096, (32 << 20) // max(1, row)))
         self._cells = self.rule.state_cell
+        self._cell_list: list[int] = self._cells.tolist()
+        self._until_of: dict[int, int] = {}      # a single env: cell → the step its mark shows until (excluded)
         self._mark_block = self.overlay.block
         self._marks, self._horizon = self.rule.mark_steps > 0, self.rule.horizon
 
@@ -108,13 +118,16 @@ class PathCore(Core):
         rule = self.rule
         out = rule.outcome(self.state, actions, self.kind, self.start)
         step = self.step_count + 1
-        truncated = (step >= rule.horizon) & ~out.terminal
-        reward = out.reward + truncated * rule.timeout_reward
+        truncated = step >= rule.horizon
+        truncated &= ~out.terminal
+        reward = out.reward                       # a fresh array: the timeout is added in place
+        if rule.timeout_reward:
+            reward += truncated * rule.timeout_reward
         misstep = out.misstep
-        if moving is not None:
-            misstep = misstep & moving
-            self.state = np.where(moving, out.next_state, self.state)
-            self.step_count = np.where(moving, step, self.step_count)
+        if moving is not None:                    # in place: the rows that start anew keep theirs
+            misstep &= moving
+            np.copyto(self.state, out.next_state, where=moving)
+            np.copyto(self.step_count, step, where=moving)
         else:
             self.state, self.step_count = out.next_state, step
         self.missteps += misstep
@@ -124,18 +137,18 @@ class PathCore(Core):
 
     def observe(self) -> dict[str, np.ndarray]:
         """Observations of every environment: gathered rows, marks laid over, then noise."""
-        cell = self.rule.state_cell[self.state]
+        cell = np.take(self.rule.state_cell, self.state)
         parts: dict[str, np.ndarray] = {}
+        # rows are gathered with np.take along axis 0, several times faster than fancy indexing
         if self.vector is not None:
-            width = self.vector.table.shape[1]
-            out = np.empty((self.num_envs, width + self.bits), dtype=np.float32)
-            out[:, :width] = self.vector.table[cell]
-            out[:, width:] = self.noise.now
+            out = np.take(self._table_bits, cell, axis=0)
+            if self.bits:
+                out[:, -self.bits:] = self.noise.now
             parts["vector"] = out
         if self.observations.grid is not None:
-            parts["grid"] = self.observations.grid[cell]
+            parts["grid"] = np.take(self.observations.grid, cell, axis=0)
         if self.observations.pixels is not None:
-            parts["pixels"] = self.observations.pixels[cell]
+            parts["pixels"] = np.take(self.observations.pixels, cell, axis=0)
         self.overlay.apply(parts, cell, self.shown_marks())
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
@@ -158,13 +171,21 @@ class PathCore(Core):
             self._pictures = PathPictures(self.model)
         return self._pictures
 
+    def _sync_one(self) -> None:
+        """A single env keeps its state and step as Python ints while it steps; copy them into the
+        arrays the batched methods (pictures, shown_marks) read."""
+        if self._kind_list:
+            self.state[0], self.step_count[0] = self._s, self._t
+
     def picture(self, i: int) -> np.ndarray:
         """What environment i's agent could see, drawn larger: the agent and its marks, no path."""
+        self._sync_one()
         cell = int(self.rule.state_cell[self.state[i]])
         return self._pictures_now().agent(cell, self.shown_marks()[i])
 
     def ground_truth(self, i: int) -> np.ndarray:
         """The ground truth of environment i, with its path drawn (never an observation)."""
+        self._sync_one()
         cell = int(self.rule.state_cell[self.state[i]])
         return self._pictures_now().truth(self.kind[i], cell, self.shown_marks()[i])
 
@@ -179,46 +200,39 @@ class PathCore(Core):
             shared.append(self.overlay.tiles)
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
 
-    # -- one environment: the rule applied once per episode to every state of its path ---------------
+    # -- one environment: the rule in Python numbers, observations cached by what they show -------------
     def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
-        """Draw the episode's path; tabulate its moves so that a step is a lookup."""
+        """Draw the episode's path (its cells as a list, for the scalar rule) and the episode's noise."""
         rule = self.rule
         self.begin(np.zeros(1, dtype=np.int64), key)
-        S, A = rule.num_states, rule.num_actions
-        state, action = np.divmod(np.arange(S * A), A)
-        out = rule.outcome(state, action, self.kind, self.start, np.zeros(S * A, dtype=np.int64))
-        self._tables = tuple(a.reshape(S, A).tolist() for a in (out.next_state, out.reward, out.misstep, out.aim,
-                                                                 out.terminal))
+        self._kind_list = self.kind[0].tolist()
+        self._until_of = {}
         if self.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
             assert self.vector is not None
             self._noise_track = noise_track(key, self.bits, self.vector.flip_probability,
                                             rule.horizon)[0].astype(np.float32)
         self._s, self._t, self._start = int(self.state[0]), 0, int(self.start[0])
         if self.decoy > 0:
-            self._draws.begin(self.noise.distractor_keys[:1])
+            self._distractor_key = int(self.noise.distractor_keys[0])
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
         """Move on the hidden path; truncate at the step limit (kept short: it runs on every step)."""
-        nxt, pay, misstep, aim, ends = self._tables
-        s = self._s
-        self._s = state = nxt[s][action]
-        reward = pay[s][action]
-        self._t = step = self._t + 1
-        self.state[0], self.step_count[0] = state, step
-        if misstep[s][action]:
+        rule = self.rule
+        state, reward, misstep, aim, terminated = rule.outcome_one(self._s, action, self._kind_list, self._start)
+        self._s = state
+        self._t = step = self._t + 1             # self.state and self.step_count: see _sync_one
+        if misstep:
             self.missteps[0] += 1
             if self._marks:
-                self.until[0, aim[s][action]] = self.rule.mark_until(step)
-        terminated = ends[s][action]
+                self._until_of[aim] = until = min(step + rule.mark_steps, MARK_FOREVER)   # rule.mark_until
+                self.until[0, aim] = until
         truncated = not terminated and step >= self._horizon
         if truncated:
-            reward += self.rule.timeout_reward
+            reward += rule.timeout_reward
         if self._vector_only:
             obs = self._vector_one(state, step)
         else:
-            if self.bits:
-                self.noise.now[0] = self._noise_track[min(step, self._horizon)] > 0.5
             obs = self._observe_scalar()
         return obs, reward, terminated, truncated, {
             "variant_id": self._variant_id, "step": step,
@@ -226,9 +240,49 @@ class PathCore(Core):
                               "missteps": int(self.missteps[0])}}
 
     def _observe_scalar(self) -> Any:
-        if not self._vector_only:
-            return assemble(self.observations, {k: v[0] for k, v in self.observe().items()})
-        return self._vector_one(self._s, self._t)
+        """A single env's observation: the vector alone the short way; with other modalities, the
+        noise-free picture of (cell, marks shown) — made by the batched observe's overlay and kept,
+        since an agent sees the same ones again and again — with this step's noise laid over."""
+        if self._vector_only:
+            return self._vector_one(self._s, self._t)
+        step, cell = self._t, self._cell_list[self._s]
+        shown = [c for c, until in self._until_of.items() if until > step]     # as shown_marks, in ints
+        if self.decoy > 0 and draw(self._distractor_key, step, 0) < self.decoy:
+            C = self.rule.num_cells
+            other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
+            shown.append(other + (other >= cell))
+        key = (cell, frozenset(shown))
+        seen = self._seen.get(key)
+        if seen is None:
+            marked = np.zeros((1, self.rule.num_cells), dtype=bool)
+            marked[0, shown] = True
+            seen = self._noise_free(cell, marked)
+            if len(self._seen) >= self._seen_limit:
+                self._seen.clear()
+            self._seen[key] = seen
+        parts = {name: part.copy() for name, part in seen.items()}
+        if self.bits:
+            parts["vector"][-self.bits:] = self._noise_track[min(self._t, self._horizon)]
+        if "pixels" in parts and self.observations.pixel_noise is not None:
+            kind, amplitude = self.observations.pixel_noise
+            parts["pixels"] = add_pixel_noise(parts["pixels"][None], self.noise.pixel_keys[:1], np.array([self._t]),
+                                              kind, amplitude)[0]
+        return assemble(self.observations, parts)
+
+    def _noise_free(self, cell: int, marked: np.ndarray) -> dict[str, np.ndarray]:
+        """What :meth:`observe` shows an agent on ``cell`` with ``marked`` [1, C] shown, before noise."""
+        cells = np.array([cell])
+        parts: dict[str, np.ndarray] = {}
+        if self.vector is not None:
+            width = self.vector.table.shape[1]
+            parts["vector"] = np.zeros((1, width + self.bits), dtype=np.float32)
+            parts["vector"][:, :width] = self.vector.table[cells]
+        if self.observations.grid is not None:
+            parts["grid"] = self.observations.grid[cells]
+        if self.observations.pixels is not None:
+            parts["pixels"] = self.observations.pixels[cells]
+        self.overlay.apply(parts, cells, marked)
+        return {name: part[0] for name, part in parts.items()}
 
     def _vector_one(self, state: int, step: int) -> np.ndarray:
         """A single env's vector (the common case, kept short): its row, the marks shown (with this
@@ -237,12 +291,10 @@ class PathCore(Core):
         block = self._mark_block
         if block is not None:
             out[block] = self.until[0] > step
-            if self.decoy > 0:
-                draws = self._draws.at(step)
-                if draws[0] < self.decoy:
-                    C, cell = self.rule.num_cells, int(self._cells[state])
-                    other = min(int(draws[1] * (C - 1)), C - 2)
-                    out[block.start + other + (other >= cell)] = 1.0
+            if self.decoy > 0 and draw(self._distractor_key, step, 0) < self.decoy:
+                C, cell = self.rule.num_cells, int(self._cells[state])
+                other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
+                out[block.start + other + (other >= cell)] = 1.0
         if self.bits:
             out = np.concatenate((out, self._noise_track[min(step, self._horizon)]))
         return out

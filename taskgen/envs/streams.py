@@ -21,14 +21,26 @@ _M2 = np.uint64(0x94D049BB133111EB)
 _PURPOSE = {"cue": 1, "noise_init": 2, "noise_flip": 3, "variant": 4, "pixel_noise": 5, "distractor": 6,
             "path": 7}
 _TO_UNIT = 1.0 / (1 << 53)
+_S11 = np.uint64(11)
+_COLUMNS = np.multiply(np.arange(1, 65, dtype=np.uint64), _GOLDEN)   # the column offsets of uniform(..., width)
+
+
+# Wrapping uint64 arithmetic goes through the ufuncs (np.add, np.multiply), never Python operators:
+# numpy's scalar math (a 0-d operand) warns on overflow, its ufunc loops do not, and an
+# np.errstate around every call would cost more than the hash itself on a single env's path.
+_S30, _S27, _S31 = np.uint64(30), np.uint64(27), np.uint64(31)
 
 
 def _mix(x: np.ndarray) -> np.ndarray:
     """splitmix64's finaliser on a uint64 array (wrapping arithmetic)."""
-    with np.errstate(over="ignore"):
-        x = (x ^ (x >> np.uint64(30))) * _M1
-        x = (x ^ (x >> np.uint64(27))) * _M2
-    return x ^ (x >> np.uint64(31))
+    x = np.multiply(x ^ (x >> _S30), _M1)
+    x = np.multiply(x ^ (x >> _S27), _M2)
+    return x ^ (x >> _S31)
+
+
+def _at(keys: Any, step: Any) -> np.ndarray:
+    """keys + step · _STEP (uint64, wrapping), the counter of a draw."""
+    return np.add(np.asarray(keys, dtype=np.uint64), np.multiply(np.asarray(step).astype(np.uint64), _STEP))
 
 
 def stream_from(np_random: np.random.Generator) -> int:
@@ -77,63 +89,43 @@ def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:
     """uint64 key of each (stream, episode number)."""
-    with np.errstate(over="ignore"):
-        return _mix(_mix(np.asarray(streams, dtype=np.uint64) + _GOLDEN)
-                    + np.asarray(episodes).astype(np.uint64) * _GOLDEN)
+    return _mix(np.add(_mix(np.add(np.asarray(streams, dtype=np.uint64), _GOLDEN)),
+                       np.multiply(np.asarray(episodes).astype(np.uint64), _GOLDEN)))
 
 
 def subkeys(keys: np.ndarray, purpose: str) -> np.ndarray:
     """Per-episode key of one purpose (computed once per episode)."""
-    with np.errstate(over="ignore"):
-        return _mix(np.asarray(keys, dtype=np.uint64) + np.uint64(_PURPOSE[purpose]) * _STEP)
+    return _mix(_at(keys, _PURPOSE[purpose]))
 
 
 def uniform(sub: np.ndarray, step: np.ndarray | int = 0, width: int | None = None) -> np.ndarray:
     """Uniform [0, 1) draws of per-purpose keys ``sub`` [N] at ``step`` (scalar or [N]):
     shape [N], or [N, width] with one draw per index."""
-    sub = np.asarray(sub, dtype=np.uint64)
-    with np.errstate(over="ignore"):
-        base = sub + np.asarray(step).astype(np.uint64) * _STEP
-        if width is not None:
-            base = base[:, None] + np.arange(1, width + 1, dtype=np.uint64) * _GOLDEN
-        return (_mix(base) >> np.uint64(11)).astype(np.float64) * _TO_UNIT
+    base = _at(sub, step)
+    if width is not None:
+        base = np.add(base[:, None], _COLUMNS[:width] if width <= _COLUMNS.size else
+                      np.multiply(np.arange(1, width + 1, dtype=np.uint64), _GOLDEN))
+    return (_mix(base) >> _S11).astype(np.float64) * _TO_UNIT
 
 
 def uniform_column(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.ndarray:
     """Column ``index`` of ``uniform(sub, step, width)`` alone, for any width > index: [N]. A consumer
     that needs a later draw only for some rows computes it for those rows, with the same values."""
-    sub = np.asarray(sub, dtype=np.uint64)
-    with np.errstate(over="ignore"):
-        base = sub + np.asarray(step).astype(np.uint64) * _STEP + np.uint64(index + 1) * _GOLDEN
-        return (_mix(base) >> np.uint64(11)).astype(np.float64) * _TO_UNIT
+    base = np.add(_at(sub, step), np.multiply(np.uint64(index + 1), _GOLDEN, dtype=np.uint64))
+    return (_mix(base) >> _S11).astype(np.float64) * _TO_UNIT
 
 
-class DrawBlock:
-    """One episode's per-step draws of one purpose for a single env, ``width`` per step, computed a
-    block of steps at a time in one numpy call and read as Python floats (equal to ``uniform(key,
-    step, width)`` at every step; the batched runtimes draw the same values step by step). Blocks
-    start at 8 steps and double up to 256, so short episodes draw little and long ones seldom."""
+_MASK = (1 << 64) - 1
+_STEP_INT, _GOLDEN_INT, _M1_INT, _M2_INT = int(_STEP), int(_GOLDEN), int(_M1), int(_M2)
 
-    FIRST, LARGEST = 8, 256
 
-    def __init__(self, width: int) -> None:
-        self.width = width
-        self.key = np.zeros(1, dtype=np.uint64)
-        self.first, self.size, self.rows = 0, 0, [[0.0] * width]
-
-    def begin(self, key: np.ndarray) -> None:
-        """A new episode whose per-purpose key is ``key`` (uint64[1])."""
-        self.key, self.first, self.size, self.rows = key, 0, 0, []
-
-    def at(self, step: int) -> list[float]:
-        """The ``width`` draws of ``step``."""
-        offset = step - self.first
-        if not 0 <= offset < self.size:
-            self.size = min(max(2 * self.size, self.FIRST), self.LARGEST)
-            self.first, offset = step, 0
-            steps = np.arange(step, step + self.size)
-            self.rows = uniform(np.repeat(self.key, self.size), steps, self.width).tolist()
-        return self.rows[offset]
+def draw(key: int, step: int, index: int) -> float:
+    """``uniform(key, step, width)[index]`` for one key, in Python integers: the same float (a
+    single env draws one or two numbers a step, where numpy's per-call overhead would dominate)."""
+    x = (key + step * _STEP_INT + (index + 1) * _GOLDEN_INT) & _MASK
+    x = ((x ^ (x >> 30)) * _M1_INT) & _MASK
+    x = ((x ^ (x >> 27)) * _M2_INT) & _MASK
+    return ((x ^ (x >> 31)) >> 11) * _TO_UNIT
 
 
 def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:
@@ -151,9 +143,8 @@ def flips(flip_keys: np.ndarray, step: np.ndarray | int, bits: int, threshold: n
     """bool[N, bits]: which noise bits flip at ``step``. One 64-bit hash yields four 16-bit
     draws, so flipping B bits costs ceil(B / 4) hashes per environment and step."""
     words = -(-bits // 4)
-    with np.errstate(over="ignore"):
-        base = np.asarray(flip_keys, dtype=np.uint64) + np.asarray(step).astype(np.uint64) * _STEP
-        h = _mix(base[..., None] + np.arange(1, words + 1, dtype=np.uint64) * _GOLDEN)
+    base = _at(flip_keys, step)
+    h = _mix(np.add(base[..., None], np.multiply(np.arange(1, words + 1, dtype=np.uint64), _GOLDEN)))
     # the four 16-bit parts of each hash, low to high, read through a little-endian view
     draws = h.astype("<u8", copy=False).view("<u2")[..., :bits]
     return draws < np.asarray(threshold, dtype=np.uint32)[..., None]

@@ -21,8 +21,8 @@ from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .core import Core
-from .distractors import DRAWS, apply_distractors, distract_one
-from .streams import (DrawBlock, EpisodeNoise, add_pixel_noise, categorical, flip_threshold, noise_track, subkeys,
+from .distractors import apply_distractors, distract_one
+from .streams import (EpisodeNoise, add_pixel_noise, categorical, draw, flip_threshold, noise_track, subkeys,
                       uniform)
 
 
@@ -102,7 +102,7 @@ class TableCore(Core):
         self._variant, self._variant_id, self._timeout_one = 0, "", 0.0
         self._noise_track = np.zeros((0, self._bits), dtype=np.float32)
         self._pixel_key = np.zeros(1, dtype=np.uint64)
-        self._draws = DrawBlock(DRAWS)                      # the episode's distractor draws
+        self._distractor_key = 0                            # the episode's 'distractor' key
         self._rows = np.zeros((0, 0), dtype=np.float32)    # each state's vector (no columns without one)
         self._next_list: list[Any] = []
         self._shown_list: list[bool] = []
@@ -139,6 +139,8 @@ class TableCore(Core):
             if sets[0].first_person is not None else None
         first = sets[0].vector
         self._bits = first.noise_bits if first is not None else 0
+        self._table_bits = np.concatenate([self._table, np.zeros((self._table.shape[0], self._bits), np.float32)],
+                                          axis=1) if self._bits else self._table   # noise bits' columns appended
         self._key_cue = np.concatenate([m.shown_cue() for m in models])
         tiles = [o.lure_tiles if o.lure_tiles is not None else np.zeros((1, 4), dtype=np.int64) for o in sets]
         self._tiles = np.concatenate(tiles)
@@ -204,45 +206,44 @@ class TableCore(Core):
     def advance(self, actions: np.ndarray,
                 moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Gathers of next state, reward and terminal; noise flips; only ``moving`` rows change."""
-        s = self.state
-        flat = s * self.num_actions + actions
-        next_state = self._next_flat[flat]
-        reward = self._reward_flat[flat]
+        flat = self.state * self.num_actions
+        flat += actions
+        next_state = np.take(self._next_flat, flat)
+        reward = np.take(self._reward_flat, flat)
         step = self.step_count + 1
-        terminated = self._terminal[next_state]
-        truncated = (step >= self._horizon) & ~terminated
+        terminated = np.take(self._terminal, next_state)
+        truncated = step >= self._horizon
+        truncated &= ~terminated
         if self._timeout_any:
             reward += truncated * self._timeout
         self.noise.flip(step, self._threshold, moving)
-        if moving is not None:
-            self.state = np.where(moving, next_state, s)
-            self.step_count = np.where(moving, step, self.step_count)
+        if moving is not None:                    # in place: the rows that start anew keep theirs
+            np.copyto(self.state, next_state, where=moving)
+            np.copyto(self.step_count, step, where=moving)
         else:
             self.state, self.step_count = next_state, step
         return reward, terminated, truncated
 
     def observe(self) -> dict[str, np.ndarray]:
         """Gathered rows of every modality, noise bits appended, pixel noise and distractors laid over."""
-        keys = self._obs_key[self.state]
+        keys = np.take(self._obs_key, self.state)
         parts: dict[str, np.ndarray] = {}
+        # rows are gathered with np.take along axis 0, several times faster than fancy indexing
         if self._has_vector:
-            if self._bits:   # one output array; the bool bits are cast as they are copied in
-                out = np.empty((self.num_envs, self._width + self._bits), dtype=np.float32)
-                out[:, :self._width] = self._table[keys]
-                out[:, self._width:] = self.noise.now
-                parts["vector"] = out
-            else:
-                parts["vector"] = self._table[keys]
+            vector = np.take(self._table_bits, keys, axis=0)
+            if self._bits:   # the bool bits are cast as they are copied into the zero columns
+                vector[:, self._width:] = self.noise.now
+            parts["vector"] = vector
         if self._grid is not None:
-            parts["grid"] = self._grid[keys]
+            parts["grid"] = np.take(self._grid, keys, axis=0)
         if self._pixels is not None:
-            frames = self._pixels[keys]
+            frames = np.take(self._pixels, keys, axis=0)
             if self.observations.pixel_noise is not None:
                 kind, amplitude = self.observations.pixel_noise
                 frames = add_pixel_noise(frames, self.noise.pixel_keys, self.step_count, kind, amplitude)
             parts["pixels"] = frames
         if self._first_person is not None:
-            parts["first_person"] = self._first_person[keys]
+            parts["first_person"] = np.take(self._first_person, keys, axis=0)
         if self._distracted:
             apply_distractors(self.observations, parts, self.noise.distractor_keys, self.step_count,
                               self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
@@ -284,6 +285,7 @@ class TableCore(Core):
         per_env = [self.state, self.step_count, *self.noise.arrays(), self._starts, self._cumulative,
                    self._threshold, self._horizon, self._timeout, self._state_offset, self.env_variant]
         shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
+        shared += [self._table_bits] if self._table_bits is not self._table else []
         shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
 
@@ -309,7 +311,7 @@ class TableCore(Core):
         if self.observations.pixel_noise is not None:
             self._pixel_key = subkeys(key, "pixel_noise")
         if self._distracted:
-            self._draws.begin(subkeys(key, "distractor"))
+            self._distractor_key = int(subkeys(key, "distractor")[0])
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
@@ -325,12 +327,10 @@ class TableCore(Core):
         if self._vector_only:
             obs = np.concatenate((self._rows[state], self._noise_track[min(t, self._h)])) if self._bits \
                 else self._rows[state].copy()
-            if self._decoy and not self._shown_list[state]:
-                draws = self._draws.at(t)
-                if draws[0] < self._decoy:      # a decoy cue value in the cue bits (distractors.show_decoys)
-                    k = self.observations.cue_values
-                    obs[self._cue_start:self._cue_stop] = 0.0
-                    obs[self._cue_start + min(int(draws[1] * k), k - 1)] = 1.0
+            if self._decoy and not self._shown_list[state] and draw(self._distractor_key, t, 0) < self._decoy:
+                k = self.observations.cue_values      # a decoy cue value in the cue bits (distractors.show_decoys)
+                obs[self._cue_start:self._cue_stop] = 0.0
+                obs[self._cue_start + min(int(draw(self._distractor_key, t, 1) * k), k - 1)] = 1.0
         else:
             obs = self._observe_scalar()
         return obs, reward, terminated, truncated, {
@@ -357,7 +357,7 @@ class TableCore(Core):
             parts["first_person"] = self._first_person[key].copy()
         if self._distracted:
             j = self._variant
-            distract_one(self.observations, {k: v[None] for k, v in parts.items()}, self._draws.at(t),
+            distract_one(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key, t,
                          bool(self._key_cue[key] >= 0), self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1],
                          self._tiles)
         return assemble(self.observations, parts)

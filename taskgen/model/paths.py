@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -128,16 +129,60 @@ class PathRule:
         """One step of each query: ``state`` and ``action`` [n] on the path in row ``path[i]``
         (default i) of ``kind`` [P, C] and ``start`` [P]."""
         path = np.arange(state.shape[0]) if path is None else path
-        aim = self.aim[state, action]
-        k = kind[path, aim]
+        row = path * kind.shape[1]                                         # each query's path row, flat
+        flat_kind = kind.reshape(-1)
+        move = state * self.aim.shape[1] + action
+        aim = self._aim_flat[move]
+        k = flat_kind[row + aim]
         misstep = k == OFF
-        misstep_to = self.misstep_next[state, action] + (start[path] if self.to_start else 0)
-        nxt = np.where(misstep, misstep_to, self.move_next[state, action])
-        reward = (self.step_reward + np.where(k == GOAL, self.goal_reward, 0.0)
-                  + np.where(misstep, self.misstep_reward, 0.0))
-        reached = kind[path, self.state_cell[nxt]] == GOAL
+        misstep_to = self._misstep_flat[move]
+        if self.to_start:
+            misstep_to += start[path]
+        nxt = np.where(misstep, misstep_to, self._move_flat[move])
+        reward = self._reward_of_kind[k]
+        reached = flat_kind[row + self.state_cell[nxt]] == GOAL
         out = self.state_out[nxt]
         return Outcome(nxt, reward, misstep, aim, reached | out, reached & ~out)
+
+    def outcome_one(self, state: int, action: int, kind: list[int], start: int) -> tuple[int, float, bool, int, bool]:
+        """:meth:`outcome` of one query in Python numbers (a single env's step): (next state, reward,
+        misstep, aim, terminal) on the path ``kind`` (a list over cells) from ``start``."""
+        aim_of, move_next, misstep_next, cell_of, out_of, reward_of = self._lists
+        aim = aim_of[state][action]
+        k = kind[aim]
+        if k == OFF:
+            nxt = misstep_next[state][action] + (start if self.to_start else 0)
+        else:
+            nxt = move_next[state][action]
+        return nxt, reward_of[k], k == OFF, aim, kind[cell_of[nxt]] == GOAL or out_of[nxt]
+
+    @cached_property
+    def _lists(self) -> tuple[list[Any], ...]:
+        """The rule's tables as Python lists, made once per variant for :meth:`outcome_one`."""
+        return (self.aim.tolist(), self.move_next.tolist(), self.misstep_next.tolist(), self.state_cell.tolist(),
+                self.state_out.tolist(), self._reward_of_kind.tolist())
+
+    @cached_property
+    def _reward_of_kind(self) -> np.ndarray:
+        """float64[3]: a step's reward by the kind of cell it aims at (OFF, ON, GOAL), summed in the
+        order step + goal + misstep, so every runtime and analysis adds the same floats."""
+        table = np.zeros(3)
+        table[OFF] = self.step_reward + 0.0 + self.misstep_reward
+        table[ON] = self.step_reward + 0.0 + 0.0
+        table[GOAL] = self.step_reward + self.goal_reward + 0.0
+        return table
+
+    @cached_property
+    def _aim_flat(self) -> np.ndarray:
+        return self.aim.reshape(-1)
+
+    @cached_property
+    def _move_flat(self) -> np.ndarray:
+        return self.move_next.reshape(-1)
+
+    @cached_property
+    def _misstep_flat(self) -> np.ndarray:
+        return self.misstep_next.reshape(-1)
 
     def mark_after(self, until: np.ndarray, misstep: np.ndarray, aim: np.ndarray, rows: np.ndarray,
                    now: np.ndarray) -> None:

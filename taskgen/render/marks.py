@@ -40,6 +40,9 @@ class MarkOverlay:
                                       # cell (marks paint floor only, never walls or the agent)
     grid: int = 0                # cells across the grid view (0: no grid view)
     colour: tuple[int, int, int] = MARK   # of a mark in pixels
+    paint: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+    # the floor pixels of every mark ring, made once (see paint_table): (flat pixel indices, start[K, T],
+    # count[K, T]) by (agent cell, window tile) in the window view, by tile (K = 1) in the full view
 
     def seen(self, agent_cell: int, marked: frozenset[int]) -> tuple[frozenset[Any], ...]:
         """What the agent's noise-free observation shows of the marks on cells ``marked`` when it stands
@@ -90,6 +93,19 @@ class MarkOverlay:
             tile = cell
         frames = parts["pixels"]
         n, h, w, _ = frames.shape
+        if self.paint is not None and frames.flags.c_contiguous:
+            # the precomputed floor pixels of each (row, tile) ring, gathered as one ragged run
+            index, start, count = self.paint
+            row = agent_cell[env] if self.window else np.zeros_like(env)
+            first, size = start[row, tile], count[row, tile]
+            ends = np.cumsum(size)
+            at = np.arange(int(ends[-1]) if ends.size else 0) + np.repeat(first - (ends - size), size)
+            where = index[at] + np.repeat(env * (h * w), size)
+            flat = frames.reshape(-1)                       # a view: the frames are contiguous
+            where *= 3
+            for channel, value in enumerate(self.colour):   # three scatters of bytes, not one of triples
+                flat[where + channel] = value
+            return
         pixels = self.tiles[tile]                                            # [pairs, P]
         assert self.floor is not None       # pixels come with their floor masks
         paint = self.floor[agent_cell[env][:, None], pixels]
@@ -121,6 +137,32 @@ def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
         out[i] = pixels[0] if pixels.size else 0   # a tile too small to show: pixel 0, in the lamp strip, never floor
         out[i, :pixels.size] = pixels
     return out
+
+
+PAINT_ENTRIES = 4_000_000   # the largest paint table made; past it marks are painted from the tiles
+
+
+def paint_table(tiles: np.ndarray, floor: np.ndarray, window: int) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """The floor pixels of every mark ring, so that painting marks is one ragged gather: by (agent cell,
+    window position) in the window view, where what lies under a window tile depends on the agent's
+    cell; by tile alone in the full view, where the floor of a tile changes only when the agent stands
+    on it, which never happens to a marked cell (marks lie off the path, decoys never on the agent).
+    None when the table would exceed PAINT_ENTRIES."""
+    T, P = tiles.shape
+    C = floor.shape[0]
+    rows = C if window else 1
+    if rows * T * P > PAINT_ENTRIES:
+        return None
+    valid = np.ones((T, P), dtype=bool)
+    valid[:, 1:] = tiles[:, 1:] != tiles[:, :1]         # _tile_pixels pads by repeating the first pixel
+    if window:
+        chosen = floor[:, tiles] & valid                 # [C, T, P]
+    else:   # tile t: the floor of a frame whose agent stands elsewhere
+        chosen = (floor[(np.arange(T) + 1) % C][np.arange(T)[:, None], tiles] & valid)[None]
+    count = chosen.sum(axis=2)
+    start = (np.cumsum(count.ravel()) - count.ravel()).reshape(count.shape)
+    index = np.broadcast_to(tiles, chosen.shape)[chosen].astype(np.int64)
+    return index, start, count
 
 
 def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
@@ -158,8 +200,9 @@ def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
             floor = (pixels == np.asarray(FLOOR, dtype=np.uint8)).all(axis=3).reshape(pixels.shape[0], -1)
     pixel_noise = (spec.pixels.noise.kind, spec.pixels.noise.amplitude) if spec.pixels and spec.pixels.noise else None
     marks = rule.mark_steps > 0
+    paint = paint_table(tiles, floor, window) if tiles is not None and floor is not None else None
     overlay = MarkOverlay(block, tiles, window, model.layout.cells, floor=floor,
                           grid=spec.grid.size if marks and spec.grid is not None else 0,
-                          colour=rule.mark_colour)
+                          colour=rule.mark_colour, paint=paint)
     return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, pixel_noise, cue_values=0,
                           decoy_probability=spec.distractors.decoy_probability, marks=overlay)
