@@ -48,3 +48,35 @@ def test_the_streams_wrap_without_warnings_for_scalars_and_arrays():
             flips(keys, step, 9, 1000)
         uniform(np.uint64(2**63 + 5), 2**40)
         noise_track(keys, 5, 0.3, 12)
+
+
+def test_below_compares_draws_with_a_probability_exactly():
+    """below(keys, t, j, p) is uniform_column(keys, t, j) < p for every draw, including probabilities
+    that are draws themselves (the boundary) and 0 and 1 (common practice: an integer threshold
+    for a 53-bit uniform, as in the conversion m · 2⁻⁵³)."""
+    from taskgen.envs.streams import below
+    keys = subkeys(np.arange(1, 4001, dtype=np.uint64), "distractor")
+    step = np.arange(4000) % 17
+    u = uniform_column(keys, step, 1)
+    for p in (0.0, 0.2, 1 / 3, 0.5, 1.0, float(u[7]), float(u[9]) + 1e-17, np.nextafter(u[11], 1.0)):
+        assert np.array_equal(below(keys, step, 1, p), u < p), p
+
+
+def test_the_single_env_draws_in_python_integers_equal_the_numpy_ones():
+    """episode_key, subkey, uniform_one and categorical_one (a single env's reset, in Python ints)
+    give bit for bit what episode_keys, subkeys, uniform and categorical give (common practice)."""
+    from taskgen.envs.streams import (categorical, categorical_one, episode_key, episode_keys, subkey,
+                                      uniform_one)
+    rng = np.random.default_rng(8)
+    for stream, episode in zip(rng.integers(0, 2**63 - 1, size=30), rng.integers(0, 2**40, size=30)):
+        key = episode_key(int(stream), int(episode))
+        assert key == int(episode_keys(np.array([stream]), np.array([episode]))[0])
+        for purpose in ("cue", "variant", "distractor", "pixel_noise"):
+            sub = subkey(key, purpose)
+            assert sub == int(subkeys(np.array([key], dtype=np.uint64), purpose)[0])
+            for t in (0, 3):
+                assert uniform_one(sub, t) == float(uniform(np.array([sub], dtype=np.uint64), t)[0])
+    cumulative = np.cumsum(rng.random(5))
+    cumulative /= cumulative[-1]
+    for u in np.concatenate([rng.random(200), cumulative, [0.0, 0.999999]]):
+        assert categorical_one(float(u), cumulative.tolist()) == int(categorical(np.array([u]), cumulative[None])[0])

@@ -18,7 +18,7 @@ from ..render.lamp import light
 from ..render.observations import ObservationSet
 from ..render.palette import CUE_COLOURS, FLOOR
 from ..render.topdown import lamp_rows as topdown_lamp
-from .streams import draw, uniform_column
+from .streams import below, draw, uniform_column
 
 DRAWS = 6                                    # draws per environment and step
 _COLOURS = np.asarray(CUE_COLOURS, dtype=np.uint8)
@@ -80,11 +80,11 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
     """
     k = obs.cue_values
     if obs.decoy_probability > 0:
-        rows = np.flatnonzero((uniform_column(keys, step, 0) < obs.decoy_probability) & ~cue_shown)
+        rows = np.flatnonzero(below(keys, step, 0, obs.decoy_probability) & ~cue_shown)
         if rows.size:
             show_decoys(obs, parts, rows, _value(uniform_column(keys[rows], step[rows], 1), k))
     if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts):
-        rows = np.flatnonzero(uniform_column(keys, step, 2) < obs.lure_probability)
+        rows = np.flatnonzero(below(keys, step, 2, obs.lure_probability))
         if rows.size:
             keys, step = keys[rows], step[rows]
             show_lures(parts, rows, _value(uniform_column(keys, step, 3), k),

@@ -19,7 +19,7 @@ from ..model.paths import MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from .core import Core
-from .streams import (EpisodeNoise, add_pixel_noise, draw, flip_threshold, noise_track, subkeys, uniform,
+from .streams import (EpisodeNoise, add_pixel_noise, below, draw, flip_threshold, noise_track, subkeys, uniform,
                       uniform_column)
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
@@ -104,7 +104,7 @@ class PathCore(Core):
         marked = self.until > self.step_count[:, None]
         if self.decoy > 0:
             keys, step = self.noise.distractor_keys, self.step_count
-            show = np.flatnonzero(uniform_column(keys, step, 0) < self.decoy)
+            show = np.flatnonzero(below(keys, step, 0, self.decoy))
             if show.size:     # the second draw only where a decoy shows
                 C = self.rule.num_cells
                 cell = self.rule.state_cell[self.state[show]]

@@ -9,6 +9,7 @@ Flood, "Fast splittable pseudorandom number generators", OOPSLA 2014) applied to
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 import numpy as np
@@ -56,7 +57,7 @@ def next_episode(stream: int | None, episode: int, seeded: bool,
         stream, episode = stream_from(np_random), 0
     else:
         episode += 1
-    return stream, episode, episode_keys(np.array([stream]), np.array([episode]))
+    return stream, episode, np.array([episode_key(stream, episode)], dtype=np.uint64)
 
 
 def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.Generator | None],
@@ -115,17 +116,49 @@ def uniform_column(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.nd
     return (_mix(base) >> _S11).astype(np.float64) * _TO_UNIT
 
 
+def below(sub: np.ndarray, step: np.ndarray | int, index: int, probability: float) -> np.ndarray:
+    """``uniform_column(sub, step, index) < probability``, compared as integers: a draw is m · 2⁻⁵³
+    for a 53-bit integer m, and m · 2⁻⁵³ < p exactly when m < ceil(p · 2⁵³) (p · 2⁵³ is exact)."""
+    base = np.add(_at(sub, step), np.multiply(np.uint64(index + 1), _GOLDEN, dtype=np.uint64))
+    return (_mix(base) >> _S11) < np.uint64(math.ceil(probability * (1 << 53)))
+
+
 _MASK = (1 << 64) - 1
 _STEP_INT, _GOLDEN_INT, _M1_INT, _M2_INT = int(_STEP), int(_GOLDEN), int(_M1), int(_M2)
 
 
-def draw(key: int, step: int, index: int) -> float:
-    """``uniform(key, step, width)[index]`` for one key, in Python integers: the same float (a
-    single env draws one or two numbers a step, where numpy's per-call overhead would dominate)."""
-    x = (key + step * _STEP_INT + (index + 1) * _GOLDEN_INT) & _MASK
+# A single env's draws in Python integers: bit for bit the numpy functions above on one key, where
+# numpy's per-call overhead would cost more than the arithmetic (a test compares every pair).
+def mix_one(x: int) -> int:
+    """:func:`_mix` of one uint64 as a Python int."""
     x = ((x ^ (x >> 30)) * _M1_INT) & _MASK
     x = ((x ^ (x >> 27)) * _M2_INT) & _MASK
-    return ((x ^ (x >> 31)) >> 11) * _TO_UNIT
+    return x ^ (x >> 31)
+
+
+def episode_key(stream: int, episode: int) -> int:
+    """:func:`episode_keys` of one (stream, episode)."""
+    return mix_one((mix_one((stream + _GOLDEN_INT) & _MASK) + episode * _GOLDEN_INT) & _MASK)
+
+
+def subkey(key: int, purpose: str) -> int:
+    """:func:`subkeys` of one key."""
+    return mix_one((key + _PURPOSE[purpose] * _STEP_INT) & _MASK)
+
+
+def uniform_one(sub: int, step: int = 0) -> float:
+    """:func:`uniform` of one key without a width."""
+    return (mix_one((sub + step * _STEP_INT) & _MASK) >> 11) * _TO_UNIT
+
+
+def draw(key: int, step: int, index: int) -> float:
+    """``uniform(key, step, width)[index]`` for one key (a single env draws one or two numbers a step)."""
+    return (mix_one((key + step * _STEP_INT + (index + 1) * _GOLDEN_INT) & _MASK) >> 11) * _TO_UNIT
+
+
+def categorical_one(u: float, cumulative: list[float]) -> int:
+    """:func:`categorical` of one uniform and one row of cumulative probabilities."""
+    return min(sum(u >= c for c in cumulative), len(cumulative) - 1)
 
 
 def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:

@@ -22,8 +22,8 @@ from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table
 from .core import Core
 from .distractors import apply_distractors, distract_one
-from .streams import (EpisodeNoise, add_pixel_noise, categorical, draw, flip_threshold, noise_track, subkeys,
-                      uniform)
+from .streams import (EpisodeNoise, add_pixel_noise, categorical, categorical_one, draw, flip_threshold, noise_track,
+                      subkey, subkeys, uniform, uniform_one)
 
 
 @dataclass(frozen=True, eq=False)
@@ -106,6 +106,8 @@ class TableCore(Core):
         self._rows = np.zeros((0, 0), dtype=np.float32)    # each state's vector (no columns without one)
         self._next_list: list[Any] = []
         self._shown_list: list[bool] = []
+        self._start_list: list[list[int]] = []
+        self._cumulative_list: list[list[float]] = []
         self._vector_only = self.observations.names == ("vector",)       # lures never show in a vector
         cue_bits = self.blocks.get("cue", slice(0, 0))          # a decoy shows in them (single env, vector only)
         self._decoy = self.observations.decoy_probability if cue_bits.stop > cue_bits.start else 0.0
@@ -297,21 +299,23 @@ class TableCore(Core):
             self._terminal_list, self._hidden_list = self._terminal.tolist(), self._hidden.tolist()
             self._local_list, self._key_list = self._local.tolist(), self._obs_key.tolist()
             self._shown_list = (self._key_cue[self._obs_key] >= 0).tolist()
+            self._start_list, self._cumulative_list = self._per.starts.tolist(), self._per.cumulative.tolist()
             self._rows = self._table[self._obs_key]
         j = int(self.env_variant[0])
+        episode = int(key[0])                   # the draws in Python ints: equal to begin's, and quicker for one
         if self._draw:
             count = len(self._models)
-            j = min(int(uniform(subkeys(key, "variant"))[0] * count), count - 1)
+            j = min(int(uniform_one(subkey(episode, "variant")) * count), count - 1)
         per = self._per
-        state = int(per.starts[j, categorical(uniform(subkeys(key, "cue")), per.cumulative[j:j + 1])[0]])
+        state = self._start_list[j][categorical_one(uniform_one(subkey(episode, "cue")), self._cumulative_list[j])]
         self._s, self._t, self._h = state, 0, int(per.horizon[j])
         self._variant, self._variant_id, self._timeout_one = j, str(per.variant_ids[j]), float(per.timeout[j])
         if self._bits:    # the whole episode's noise bits at once: one numpy call per reset
             self._noise_track = noise_track(key, self._bits, float(per.flip[j]), self._h)[0].astype(np.float32)
         if self.observations.pixel_noise is not None:
-            self._pixel_key = subkeys(key, "pixel_noise")
+            self._pixel_key = np.array([subkey(episode, "pixel_noise")], dtype=np.uint64)
         if self._distracted:
-            self._distractor_key = int(subkeys(key, "distractor")[0])
+            self._distractor_key = subkey(episode, "distractor")
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
