@@ -101,10 +101,8 @@ class MarkOverlay:
             ends = np.cumsum(size)
             at = np.arange(int(ends[-1]) if ends.size else 0) + np.repeat(first - (ends - size), size)
             where = index[at] + np.repeat(env * (h * w), size)
-            flat = frames.reshape(-1)                       # a view: the frames are contiguous
-            where *= 3
-            for channel, value in enumerate(self.colour):   # three scatters of bytes, not one of triples
-                flat[where + channel] = value
+            pixels = frames.reshape(-1).view("V3")          # a view: one 3-byte item per pixel
+            pixels[where] = np.asarray([self.colour], dtype=np.uint8).view("V3")[0]   # one scatter
             return
         pixels = self.tiles[tile]                                            # [pairs, P]
         assert self.floor is not None       # pixels come with their floor masks
