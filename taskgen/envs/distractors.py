@@ -20,7 +20,6 @@ from ..render.palette import CUE_COLOURS, FLOOR
 from ..render.topdown import lamp_rows as topdown_lamp
 from .streams import below, draw, uniform_column
 
-DRAWS = 6                                    # draws per environment and step
 _COLOURS = np.asarray(CUE_COLOURS, dtype=np.uint8)
 _FLOOR = np.asarray(FLOOR, dtype=np.uint8)
 _CUE = GRID_CHANNELS.index("cue")

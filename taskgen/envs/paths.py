@@ -138,21 +138,25 @@ class PathCore(Core):
     def observe(self) -> dict[str, np.ndarray]:
         """Observations of every environment: gathered rows, marks laid over, then noise."""
         cell = np.take(self.rule.state_cell, self.state)
-        parts: dict[str, np.ndarray] = {}
-        # rows are gathered with np.take along axis 0, several times faster than fancy indexing
-        if self.vector is not None:
-            out = np.take(self._table_bits, cell, axis=0)
-            if self.bits:
-                out[:, -self.bits:] = self.noise.now
-            parts["vector"] = out
-        if self.observations.grid is not None:
-            parts["grid"] = np.take(self.observations.grid, cell, axis=0)
-        if self.observations.pixels is not None:
-            parts["pixels"] = np.take(self.observations.pixels, cell, axis=0)
+        parts = self._gathered(cell)
+        if self.bits:
+            parts["vector"][:, -self.bits:] = self.noise.now
         self.overlay.apply(parts, cell, self.shown_marks())
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
             parts["pixels"] = add_pixel_noise(parts["pixels"], self.noise.pixel_keys, self.step_count, kind, amplitude)
+        return parts
+
+    def _gathered(self, cell: np.ndarray) -> dict[str, np.ndarray]:
+        """The rows of cells ``cell`` [n] in every modality (the vector's noise bits still zero), gathered
+        with np.take along axis 0, several times faster than fancy indexing."""
+        parts: dict[str, np.ndarray] = {}
+        if self.vector is not None:
+            parts["vector"] = np.take(self._table_bits, cell, axis=0)
+        if self.observations.grid is not None:
+            parts["grid"] = np.take(self.observations.grid, cell, axis=0)
+        if self.observations.pixels is not None:
+            parts["pixels"] = np.take(self.observations.pixels, cell, axis=0)
         return parts
 
     def infos(self) -> dict[str, Any]:
@@ -272,15 +276,7 @@ class PathCore(Core):
     def _noise_free(self, cell: int, marked: np.ndarray) -> dict[str, np.ndarray]:
         """What :meth:`observe` shows an agent on ``cell`` with ``marked`` [1, C] shown, before noise."""
         cells = np.array([cell])
-        parts: dict[str, np.ndarray] = {}
-        if self.vector is not None:
-            width = self.vector.table.shape[1]
-            parts["vector"] = np.zeros((1, width + self.bits), dtype=np.float32)
-            parts["vector"][:, :width] = self.vector.table[cells]
-        if self.observations.grid is not None:
-            parts["grid"] = self.observations.grid[cells]
-        if self.observations.pixels is not None:
-            parts["pixels"] = self.observations.pixels[cells]
+        parts = self._gathered(cells)
         self.overlay.apply(parts, cells, marked)
         return {name: part[0] for name, part in parts.items()}
 
