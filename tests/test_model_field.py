@@ -119,3 +119,25 @@ def test_one_path_model_agrees_with_the_shared_step_rule():
     assert np.allclose(path.reward.ravel()[live], out.reward[live])
     assert np.array_equal(path.terminal[out.next_state[live]], out.terminal[live])
     assert np.array_equal(path.success[out.next_state[live]], out.success[live])
+
+
+@pytest.mark.parametrize("fields", [
+    dict(width=5, height=6, turns=3, start="random", misstep={"limit": 3}),
+    dict(width=4, height=5, turns=2, start="random", misstep={"to": "stay"}),
+], ids=["to start, limited", "stay"])
+def test_the_scalar_step_rule_equals_the_array_rule(fields):
+    """PathRule.outcome_one (a single env's step, in Python numbers) gives for every (state, action)
+    on sampled paths exactly what PathRule.outcome gives: next state, reward, misstep, aimed cell
+    and end (common practice: a fast path checked against the plain one)."""
+    rule = field_model(rewards={"step": -0.02, "misstep": -0.3, "correct": 2.0, "timeout": -1.0}, **fields)
+    kind, start = rule.draw(np.random.default_rng(9).random((6, rule.draws)))
+    S, A = rule.num_states, rule.num_actions
+    s, a = np.divmod(np.arange(S * A), A)
+    for k, st in zip(kind, start):
+        out = rule.outcome(s, a, np.repeat(k[None], S * A, axis=0), np.repeat(st, S * A))
+        scalar = [rule.outcome_one(int(x), int(y), k.tolist(), int(st)) for x, y in zip(s, a)]
+        assert [o[0] for o in scalar] == out.next_state.tolist()
+        assert [o[1] for o in scalar] == out.reward.tolist()
+        assert [o[2] for o in scalar] == out.misstep.tolist()
+        assert [o[3] for o in scalar] == out.aim.tolist()
+        assert [o[4] for o in scalar] == out.terminal.tolist()
