@@ -141,3 +141,16 @@ def test_the_scalar_step_rule_equals_the_array_rule(fields):
         assert [o[2] for o in scalar] == out.misstep.tolist()
         assert [o[3] for o in scalar] == out.aim.tolist()
         assert [o[4] for o in scalar] == out.terminal.tolist()
+
+
+@pytest.mark.parametrize("fields", [dict(width=5, height=7, turns=3, start="random"),
+                                    dict(width=4, height=4, turns=0, start="middle")], ids=["winding", "straight"])
+def test_a_single_env_s_draw_equals_the_batch_draw(fields):
+    """PathRule.draw_one (a single env's reset, keeping paths by signature) returns for every row
+    of uniforms what PathRule.draw returns for the whole batch (common practice)."""
+    rule = field_model(**fields)
+    u = np.random.default_rng(2).random((500, rule.draws))
+    kind, start = rule.draw(u)
+    for i, row in enumerate(u):
+        one, listed, first = rule.draw_one(row.tolist())
+        assert np.array_equal(one, kind[i]) and listed == kind[i].tolist() and first == start[i]

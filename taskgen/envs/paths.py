@@ -18,9 +18,9 @@ from ..model import PathRule, TaskModel
 from ..model.paths import MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
-from .core import Core
-from .streams import (EpisodeNoise, add_pixel_noise, below, draw, flip_threshold, noise_track, subkeys, uniform,
-                      uniform_column)
+from .core import ROW, Core
+from .streams import (EpisodeNoise, add_pixel_noise, below, draw, flip_threshold, noise_track, subkey, subkeys,
+                      uniform, uniform_column)
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
               "or a split of a field holds one variant")
@@ -73,6 +73,7 @@ class PathCore(Core):
         self._cells = self.rule.state_cell
         self._cell_list: list[int] = self._cells.tolist()
         self._until_of: dict[int, int] = {}      # a single env: cell → the step its mark shows until (excluded)
+        self._missteps = 0
         self._mark_block = self.overlay.block
         self._marks, self._horizon = self.rule.mark_steps > 0, self.rule.horizon
 
@@ -176,10 +177,10 @@ class PathCore(Core):
         return self._pictures
 
     def _sync_one(self) -> None:
-        """A single env keeps its state and step as Python ints while it steps; copy them into the
-        arrays the batched methods (pictures, shown_marks) read."""
+        """A single env keeps its state, step and missteps as Python ints while it steps; copy them
+        into the arrays the batched methods (pictures, shown_marks) read."""
         if self._kind_list:
-            self.state[0], self.step_count[0] = self._s, self._t
+            self.state[0], self.step_count[0], self.missteps[0] = self._s, self._t, self._missteps
 
     def picture(self, i: int) -> np.ndarray:
         """What environment i's agent could see, drawn larger: the agent and its marks, no path."""
@@ -208,8 +209,11 @@ class PathCore(Core):
     def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
         """Draw the episode's path (its cells as a list, for the scalar rule) and the episode's noise."""
         rule = self.rule
-        self.begin(np.zeros(1, dtype=np.int64), key)
-        self._kind_list = self.kind[0].tolist()
+        path = subkey(int(key[0]), "path")        # begin's draws, in Python ints (equal, and quicker for one)
+        kind, self._kind_list, start = rule.draw_one([draw(path, 0, j) for j in range(rule.draws)])
+        self.kind[0], self.start[0], self.state[0] = kind, start, start
+        self.step_count[0] = self.until[0] = self.missteps[0] = self._missteps = 0
+        self.noise.begin(ROW, key)
         self._until_of = {}
         if self.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
             assert self.vector is not None
@@ -227,7 +231,7 @@ class PathCore(Core):
         self._s = state
         self._t = step = self._t + 1             # self.state and self.step_count: see _sync_one
         if misstep:
-            self.missteps[0] += 1
+            self._missteps += 1
             if self._marks:
                 self._until_of[aim] = until = min(step + rule.mark_steps, MARK_FOREVER)   # rule.mark_until
                 self.until[0, aim] = until
@@ -241,7 +245,7 @@ class PathCore(Core):
         return obs, reward, terminated, truncated, {
             "variant_id": self._variant_id, "step": step,
             "analysis_only": {"path": self.kind[0].copy(), "start": self._start, "state": state,
-                              "missteps": int(self.missteps[0])}}
+                              "missteps": self._missteps}}
 
     def _observe_scalar(self) -> Any:
         """A single env's observation: the vector alone the short way; with other modalities, the
@@ -283,12 +287,12 @@ class PathCore(Core):
     def _vector_one(self, state: int, step: int) -> np.ndarray:
         """A single env's vector (the common case, kept short): its row, the marks shown (with this
         step's decoy mark, as :meth:`shown_marks` draws it) and the noise bits."""
-        out = self._rows[self._cells[state]].copy()
+        out = self._rows[self._cell_list[state]].copy()
         block = self._mark_block
         if block is not None:
             out[block] = self.until[0] > step
             if self.decoy > 0 and draw(self._distractor_key, step, 0) < self.decoy:
-                C, cell = self.rule.num_cells, int(self._cells[state])
+                C, cell = self.rule.num_cells, self._cell_list[state]
                 other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
                 out[block.start + other + (other >= cell)] = 1.0
         if self.bits:
@@ -298,4 +302,4 @@ class PathCore(Core):
     def _info_scalar(self) -> dict[str, Any]:
         return {"variant_id": self._variant_id, "step": self._t,
                 "analysis_only": {"path": self.kind[0].copy(), "start": self._start,
-                                  "state": self._s, "missteps": int(self.missteps[0])}}
+                                  "state": self._s, "missteps": self._missteps}}

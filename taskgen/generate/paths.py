@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cached_property
+from typing import Sequence
 
 import numpy as np
 
@@ -123,6 +124,20 @@ def draw_paths(shape: PathShape, u: np.ndarray, centre: bool = True) -> DrawnPat
                           length=np.zeros(n, dtype=np.int64))
     line, length = _compact(_trace(enter, leave))
     return DrawnPaths(kind=kind, start=start, centre=line, length=length)
+
+
+def path_signature(shape: PathShape, u: Sequence[float]) -> tuple[int, ...]:
+    """The choices one row of uniforms ``u`` makes in :func:`draw_paths` — the start position, the
+    rows where sideways runs begin (the ``turns // 2`` smallest keys, ties to the lower row, as the
+    stable sort there) and each run's shift — which alone decide the path: equal signatures give
+    equal paths, so a single env can keep the paths it has drawn by signature."""
+    span, inner = shape.positions, max(shape.depth - 2, 0)
+    x = (span - 1) // 2 if shape.start == "middle" else min(int(u[0] * span), span - 1)
+    keys = u[1:1 + inner]
+    rows = sorted(sorted(range(inner), key=lambda j: (keys[j], j))[:shape.turns // 2])
+    side = u[1 + inner:]
+    shifts = [1 + min(int(side[k] * (span - 1)), span - 2) for k in range((shape.turns + 1) // 2)]
+    return (x, *rows, *shifts)
 
 
 def _trace(enter: np.ndarray, leave: np.ndarray) -> np.ndarray:

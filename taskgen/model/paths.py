@@ -22,13 +22,14 @@ from typing import Any
 import numpy as np
 
 from ..generate import MOVE_NAMES, GridLayout
-from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths
+from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths, path_signature
 from ..variant import SAMPLE_STREAM, Params, variant_rng
 from .graph import reachable
 from .hidden import SampledSet
 from .tables import Deferred, Tables, TaskModel
 
 MARK_FOREVER = np.iinfo(np.int64).max // 2   # a mark that lasts until the episode ends
+DRAWN_KEPT = 4096                             # open-field paths a single env keeps by signature
 
 
 @dataclass(frozen=True, eq=False)
@@ -118,6 +119,26 @@ class PathRule:
         last = np.minimum((u[:, 1] * across).astype(np.int64), across - 1)
         rows = first * across + last
         return self.bank_kind[rows].copy(), self.bank_start[rows].copy()
+
+    def draw_one(self, u: list[float]) -> tuple[np.ndarray, list[int], int]:
+        """:meth:`draw` of one row of uniforms, for a single env's reset: (kind int8[C], the same as a
+        list, start cell). A walled field reads its bank; an open field keeps the paths it has drawn by
+        their signature (few per variant unless the field is large; at most DRAWN_KEPT of them)."""
+        if self.bank_kind is not None:
+            kind, start = self.draw(np.array([u]))
+            return kind[0], kind[0].tolist(), int(start[0])
+        key = path_signature(self.shape, u)
+        drawn = self._drawn.get(key)
+        if drawn is None:
+            kind, start = self.draw(np.array([u]))
+            if len(self._drawn) >= DRAWN_KEPT:
+                self._drawn.clear()
+            self._drawn[key] = drawn = (kind[0], kind[0].tolist(), int(start[0]))
+        return drawn
+
+    @cached_property
+    def _drawn(self) -> dict[tuple[int, ...], tuple[np.ndarray, list[int], int]]:
+        return {}
 
     def sample(self, seed: int, count: int) -> PathSample:
         """``count`` paths from the variant seed's sample stream (same seed, same paths)."""
