@@ -1,8 +1,9 @@
 """`taskgen bench`: environment steps per second, with references measured in the same run.
 
 Every figure is env-steps per second (a batch of N environments stepping once counts N), with
-uniform-random actions drawn before timing (a block of 4,096 steps, cycled). All environments are the raw classes, without
-gymnasium's checker wrappers, so the comparison is like for like. Each spec is also timed with
+uniform-random actions drawn before timing (a block of 4,096 steps, cycled). All environments are the raw classes,
+without gymnasium's checker wrappers, so the comparison is like for like. The runtimes are timed in
+interleaved rounds and each one's fastest run counts. Each spec is also timed with
 distractors switched on (``DISTRACTORS``: decoys, and lures where the kind has them) to give what
 they cost. ``--all`` times every bundled spec in one run and prints one row each.
 """
@@ -41,27 +42,39 @@ class Timing:
     env_steps: int
 
 
-REPEATS = 3   # timed runs per runtime; the fastest counts
+REPEATS = 3   # timed rounds; each runtime's fastest run counts
+
+#: A runtime to time: its name, the environments one call steps, and run(steps).
+Runtime = tuple[str, int, Callable[[int], None]]
 
 
-def _timed(name: str, envs: int, run: Callable[[int], None], budget: float) -> Timing:
-    """Time ``run(steps)``: find a step count that lasts about ``budget / REPEATS`` seconds, run it
-    REPEATS times and keep the fastest (as timeit advises: slower runs measure other load on the
-    machine, not the code)."""
-    run(10)  # warm up
-    steps, share = 16, budget / REPEATS
+def _calibrate(run: Callable[[int], None], share: float) -> int:
+    """A step count for which ``run`` lasts about ``share`` seconds (after a warm-up)."""
+    run(10)
+    steps = 16
     while True:
         start = time.perf_counter()
         run(steps)
         elapsed = time.perf_counter() - start
         if elapsed >= share or steps >= 1 << 26:
-            break
+            return steps
         steps = int(steps * max(2.0, 1.2 * share / max(elapsed, 1e-6)))
-    for _ in range(REPEATS - 1):
-        start = time.perf_counter()
-        run(steps)
-        elapsed = min(elapsed, time.perf_counter() - start)
-    return Timing(name, steps * envs / elapsed, elapsed, steps * envs)
+
+
+def _time_all(runtimes: list[Runtime], budget: float) -> list[Timing]:
+    """Time each runtime for about ``budget`` seconds: REPEATS rounds, each running every runtime
+    once in turn, keeping each one's fastest run. Interleaving puts a drift in the machine's
+    speed on every runtime alike, so ratios hold; the fastest run leaves out other load (timeit's
+    advice)."""
+    steps = [_calibrate(run, budget / REPEATS) for _, _, run in runtimes]
+    best = [float("inf")] * len(runtimes)
+    for _ in range(REPEATS):
+        for i, (_, _, run) in enumerate(runtimes):
+            start = time.perf_counter()
+            run(steps[i])
+            best[i] = min(best[i], time.perf_counter() - start)
+    return [Timing(name, n * envs / elapsed, elapsed, n * envs)
+            for (name, envs, _), n, elapsed in zip(runtimes, steps, best)]
 
 
 ACTION_BLOCK = 4096   # actions are drawn before timing and cycled through
@@ -132,19 +145,17 @@ def _frame_gather_loop(table: np.ndarray, num_envs: int, rng: np.random.Generato
     return run
 
 
-def _common_timings(spec: Spec, batched: Any, num_envs: int, sync_envs: int, budget: float,
-                    rng: np.random.Generator) -> list[Timing]:
+def _common_runtimes(spec: Spec, batched: Any, num_envs: int, sync_envs: int,
+                     rng: np.random.Generator) -> list[Runtime]:
     """Our single, batched and SyncVectorEnv runs, and FrozenLake's single and SyncVectorEnv runs."""
     return [
-        _timed("taskgen single env", 1, _single_loop(make(spec), rng), budget),
-        _timed(f"taskgen batched env ({num_envs})", num_envs, _vector_loop(batched, rng), budget),
-        _timed(f"SyncVectorEnv over taskgen env ({sync_envs})", sync_envs,
-               _vector_loop(gym.vector.SyncVectorEnv([lambda: make(spec)] * sync_envs), rng), budget),
-        _timed("FrozenLake-v1 8x8 single env", 1,
-               _single_loop(frozen_lake(), rng), budget),
-        _timed(f"SyncVectorEnv over FrozenLake-v1 ({sync_envs})", sync_envs,
-               _vector_loop(gym.vector.SyncVectorEnv([frozen_lake] * sync_envs),
-                            rng), budget),
+        ("taskgen single env", 1, _single_loop(make(spec), rng)),
+        (f"taskgen batched env ({num_envs})", num_envs, _vector_loop(batched, rng)),
+        (f"SyncVectorEnv over taskgen env ({sync_envs})", sync_envs,
+         _vector_loop(gym.vector.SyncVectorEnv([lambda: make(spec)] * sync_envs), rng)),
+        ("FrozenLake-v1 8x8 single env", 1, _single_loop(frozen_lake(), rng)),
+        (f"SyncVectorEnv over FrozenLake-v1 ({sync_envs})", sync_envs,
+         _vector_loop(gym.vector.SyncVectorEnv([frozen_lake] * sync_envs), rng)),
     ]
 
 
@@ -177,24 +188,27 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
     rng = np.random.default_rng(seed)
     sync_envs = sync_envs or num_envs
     batched = make_vec(spec, num_envs)
-    timings = _common_timings(spec, batched, num_envs, sync_envs, budget, rng)
-    timings.append(_timed(f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng),
-                          budget))
+    runtimes = _common_runtimes(spec, batched, num_envs, sync_envs, rng)
+    runtimes.append((f"raw numpy table step ({num_envs})", num_envs, _raw_numpy_loop(batched, num_envs, rng)))
     pixels = make_vec(spec, num_envs, observation__vector=None, observation__grid=None,
                       observation__pixels={"height": 64, "width": 64})
     frames = pixels.core.observations.pixels
     assert frames is not None
-    timings += [
-        _timed(f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng), budget),
-        _timed(f"numpy gather of 64×64×3 frames ({num_envs})", num_envs,
-               _frame_gather_loop(frames, num_envs, rng), budget),
+    runtimes += [
+        (f"taskgen batched top-down 64×64 pixels ({num_envs})", num_envs, _vector_loop(pixels, rng)),
+        (f"numpy gather of 64×64×3 frames ({num_envs})", num_envs, _frame_gather_loop(frames, num_envs, rng)),
     ]
     if "first_person" in kind_of(spec).modalities:
         first_person = make_vec(spec, num_envs, agent__actions="turns", observation__vector=None,
                                 observation__grid=None, observation__pixels=None,
                                 observation__first_person={"height": 64, "width": 64})
-        timings.append(_timed(f"taskgen batched first-person 64×64 ({num_envs})", num_envs,
-                              _vector_loop(first_person, rng), budget))
+        runtimes.append((f"taskgen batched first-person 64×64 ({num_envs})", num_envs,
+                         _vector_loop(first_person, rng)))
+    distracted = _with_distractors(spec)
+    runtimes += [("taskgen single env, distractors on", 1, _single_loop(make(spec, **distracted), rng)),
+                 (f"taskgen batched env, distractors on ({num_envs})", num_envs,
+                  _vector_loop(make_vec(spec, num_envs, **distracted), rng))]
+    timings = _time_all(runtimes, budget)
     single, vec, sync_ours, fl_single, fl_sync, raw, pix, gather = (t.env_steps_per_s for t in timings[:8])
     ratios = {
         "batched / SyncVectorEnv(FrozenLake)": vec / fl_sync,
@@ -204,15 +218,11 @@ def run_bench(spec: Spec, num_envs: int = 1024, budget: float = 1.0, sync_envs: 
         "batched / single": vec / single,
         "top-down pixels / numpy frame gather": pix / gather,
     }
-    if len(timings) > 8:
+    if len(timings) > 10:
         ratios["first-person / SyncVectorEnv(FrozenLake)"] = timings[8].env_steps_per_s / fl_sync
-    distracted = _with_distractors(spec)
-    with_single = _timed("taskgen single env, distractors on", 1, _single_loop(make(spec, **distracted), rng), budget)
-    with_batched = _timed(f"taskgen batched env, distractors on ({num_envs})", num_envs,
-                          _vector_loop(make_vec(spec, num_envs, **distracted), rng), budget)
-    timings += [with_single, with_batched]
-    ratios["single with distractors / single"] = with_single.env_steps_per_s / single
-    ratios["batched with distractors / batched"] = with_batched.env_steps_per_s / vec
+    with_single, with_batched = (t.env_steps_per_s for t in timings[-2:])
+    ratios["single with distractors / single"] = with_single / single
+    ratios["batched with distractors / batched"] = with_batched / vec
     memory = batched.memory_bytes()
     vector = batched.core.observations.vector
     return {"spec": spec.name, "num_envs": num_envs, "noise_bits": vector.noise_bits if vector is not None else 0,
