@@ -140,3 +140,28 @@ def test_a_path_signature_decides_the_path(shape):
         by_signature[key] = kind
     paths = {kind.tobytes() for kind in drawn.kind}
     assert len(paths) == len(by_signature) > 10
+
+
+@pytest.mark.parametrize("shape", [PathShape(depth=7, across=5, turns=3), PathShape(depth=9, across=6, turns=4, width=2),
+                                   PathShape(depth=6, across=5, turns=3, start="middle"),
+                                   PathShape(depth=5, across=4, turns=0), PathShape(depth=2, across=3, turns=1)],
+                         ids=["odd turns", "wide", "middle start", "straight", "two rows"])
+def test_a_bank_row_is_the_path_draw_paths_draws(shape):
+    """For 2,000 rows of uniforms (and rows at the edges of [0, 1)), the open-field bank's row holds
+    the kind and start draw_paths gives, and the bank holds as many distinct paths as it has rows
+    (common practice: a lookup table checked against the function it tabulates)."""
+    from taskgen.generate.paths import open_bank
+    bank = open_bank(shape)
+    assert bank is not None
+    u = np.random.default_rng(6).random((2000, shape.draws))
+    u[0], u[1] = 0.0, np.nextafter(1.0, 0.0)
+    drawn = draw_paths(shape, u, centre=False)
+    row = bank.index(shape, u)
+    assert np.array_equal(bank.drawn.kind[row], drawn.kind) and np.array_equal(bank.drawn.start[row], drawn.start)
+    assert len({kind.tobytes() for kind in bank.drawn.kind}) == bank.drawn.kind.shape[0]
+
+
+def test_a_shape_with_too_many_paths_has_no_bank():
+    """A 31-row field with 10 turns has far more than BANK_PATHS paths: no bank, draw_paths draws."""
+    from taskgen.generate.paths import open_bank
+    assert open_bank(PathShape(depth=31, across=31, turns=10)) is None

@@ -154,3 +154,15 @@ def test_a_single_env_s_draw_equals_the_batch_draw(fields):
     for i, row in enumerate(u):
         one, listed, first = rule.draw_one(row.tolist())
         assert np.array_equal(one, kind[i]) and listed == kind[i].tolist() and first == start[i]
+
+
+def test_an_open_field_draws_from_its_bank_what_draw_paths_draws():
+    """A small open field's PathRule.draw reads its bank; the paths equal draw_paths' in field cells
+    for 1,000 rows of uniforms (common practice)."""
+    from taskgen.generate.paths import draw_paths
+    rule = field_model(width=5, height=7, turns=3, start="random")
+    assert rule._open_bank is not None
+    u = np.random.default_rng(13).random((1000, rule.draws))
+    kind, start = rule.draw(u)
+    want_kind, want_start = rule.frame.to_field(draw_paths(rule.shape, u, centre=False))
+    assert np.array_equal(kind, want_kind) and np.array_equal(start, want_start)

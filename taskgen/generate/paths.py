@@ -15,6 +15,7 @@ environment in one call; the single runtime and the analyses call the same funct
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from functools import cached_property
 from typing import Sequence
@@ -138,6 +139,58 @@ def path_signature(shape: PathShape, u: Sequence[float]) -> tuple[int, ...]:
     side = u[1 + inner:]
     shifts = [1 + min(int(side[k] * (span - 1)), span - 2) for k in range((shape.turns + 1) // 2)]
     return (x, *rows, *shifts)
+
+
+BANK_PATHS = 1 << 16        # the most paths a shape's bank holds
+BANK_ROWS = 16              # the most rows that may hold a turn, for a bank (its subset table has 2**rows entries)
+
+
+@dataclass(frozen=True)
+class PathBank:
+    """Every path of a small shape, drawn once, and how a row of uniforms finds its own: the index
+    of :func:`path_signature`'s choices (start position, turn rows, shifts) in mixed radix."""
+
+    drawn: DrawnPaths       # kind and start of every path (centre lines not traced)
+    subset: np.ndarray      # int64[2**rows]: the number of each set of turn rows (bit j: row j + 1), −1 if none
+    combos: int             # how many sets of turn rows there are
+
+    def index(self, shape: PathShape, u: np.ndarray) -> np.ndarray:
+        """int64[n]: the bank row of each row of uniforms ``u`` [n, draws]; the row holds the path
+        :func:`draw_paths` draws from it (the same choices, read the same way)."""
+        n, span, inner = u.shape[0], shape.positions, max(shape.depth - 2, 0)
+        x = np.zeros(n, dtype=np.int64) if shape.start == "middle" else \
+            np.minimum((u[:, 0] * span).astype(np.int64), span - 1)
+        keys = u[:, 1:1 + inner]
+        ranks = np.argsort(np.argsort(keys, axis=1, kind="stable"), axis=1, kind="stable")
+        bits = (ranks < shape.turns // 2).astype(np.int64) @ (np.int64(1) << np.arange(inner, dtype=np.int64))
+        index = x * self.combos + self.subset[bits]
+        for k in range((shape.turns + 1) // 2):
+            index = index * (span - 1) + np.minimum((u[:, 1 + inner + k] * (span - 1)).astype(np.int64), span - 2)
+        return index
+
+
+def open_bank(shape: PathShape) -> PathBank | None:
+    """The bank of every path of ``shape``, or None when there would be more than BANK_PATHS of them
+    (or more than BANK_ROWS rows that may hold a turn). Each path is drawn by :func:`draw_paths` from
+    a row of uniforms that makes its choices, so the bank holds exactly what draw_paths gives."""
+    span, inner, k, runs = shape.positions, max(shape.depth - 2, 0), shape.turns // 2, (shape.turns + 1) // 2
+    if shape.problem() is not None or inner > BANK_ROWS:
+        return None
+    subsets = [s for s in itertools.combinations(range(inner), k)]
+    starts = 1 if shape.start == "middle" else span
+    count = starts * len(subsets) * (span - 1) ** runs
+    if count > BANK_PATHS:
+        return None
+    subset = -np.ones(1 << inner, dtype=np.int64)
+    for number, rows in enumerate(subsets):
+        subset[sum(1 << j for j in rows)] = number
+    u = np.empty((count, shape.draws))
+    for i, (x, rows, shifts) in enumerate(itertools.product(range(starts), subsets,
+                                                             itertools.product(range(span - 1), repeat=runs))):
+        u[i, 0] = (x + 0.5) / span
+        u[i, 1:1 + inner] = [0.1 + 1e-3 * j if j in rows else 0.6 + 1e-3 * j for j in range(inner)]
+        u[i, 1 + inner:] = [(s + 0.5) / max(span - 1, 1) for s in shifts]
+    return PathBank(drawn=draw_paths(shape, u, centre=False), subset=subset, combos=len(subsets))
 
 
 def _trace(enter: np.ndarray, leave: np.ndarray) -> np.ndarray:

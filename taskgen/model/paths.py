@@ -22,7 +22,7 @@ from typing import Any
 import numpy as np
 
 from ..generate import MOVE_NAMES, GridLayout
-from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathShape, draw_paths, path_signature
+from ..generate.paths import GOAL, OFF, ON, FieldFrame, PathBank, PathShape, draw_paths, open_bank, path_signature
 from ..variant import SAMPLE_STREAM, Params, variant_rng
 from .graph import reachable
 from .hidden import SampledSet
@@ -111,7 +111,12 @@ class PathRule:
         field draws its path's shape; a walled field draws a start (or takes the middle one) and
         an end along its sides and takes the way between them from its bank."""
         if self.bank_kind is None or self.bank_start is None:
-            return self.frame.to_field(draw_paths(self.shape, u, centre=False))
+            parts = self._open_bank
+            if parts is None:
+                return self.frame.to_field(draw_paths(self.shape, u, centre=False))
+            bank, kind, start = parts
+            row = bank.index(self.shape, np.atleast_2d(np.asarray(u, dtype=np.float64)))
+            return kind[row], start[row]
         u = np.atleast_2d(u)
         across = self.frame.across
         first = np.full(u.shape[0], (across - 1) // 2) if self.shape.start == "middle" else \
@@ -119,6 +124,16 @@ class PathRule:
         last = np.minimum((u[:, 1] * across).astype(np.int64), across - 1)
         rows = first * across + last
         return self.bank_kind[rows].copy(), self.bank_start[rows].copy()
+
+    @cached_property
+    def _open_bank(self) -> tuple[PathBank, np.ndarray, np.ndarray] | None:
+        """An open field's every path in field cells (kind, start), when its shape has few (see
+        open_bank): drawing a batch's paths is then a lookup instead of draw_paths' numpy calls."""
+        bank = open_bank(self.shape)
+        if bank is None:
+            return None
+        kind, start = self.frame.to_field(bank.drawn)
+        return bank, kind, start
 
     def draw_one(self, u: list[float]) -> tuple[np.ndarray, list[int], int]:
         """:meth:`draw` of one row of uniforms, for a single env's reset: (kind int8[C], the same as a
