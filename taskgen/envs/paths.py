@@ -3,8 +3,9 @@
 Every reset draws a new path for the environment from its episode key (purpose ``path``), so
 the same seed gives the same sequence of paths, and N environments draw theirs in one numpy
 call. A step applies ``PathRule.outcome`` to all environments' paths at once, leaves the missteps'
-marks, then gathers observation rows and lays the visible marks over them. A single env applies
-the rule once per reset to every state of its path, so that a step is a table lookup.
+marks, then gathers observation rows and lays the visible marks over them. A single env draws
+the same numbers in Python integers and steps by the rule's scalar form (``PathRule.outcome_one``),
+keeping the noise-free observations it has made by what they show.
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from typing import Any, Sequence
 import numpy as np
 from gymnasium import spaces
 
-from ..model import PathRule, TaskModel
+from ..model import TaskModel
 from ..model.paths import MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
