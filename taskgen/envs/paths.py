@@ -19,6 +19,7 @@ from ..model import TaskModel
 from ..model.paths import MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
+from ..render.vector import with_noise_columns
 from .core import ROW, Core
 from .streams import (EpisodeNoise, add_pixel_noise, below, draw, flip_threshold, noise_track, subkey, subkeys,
                       uniform, uniform_column)
@@ -64,8 +65,7 @@ class PathCore(Core):
         self._distractor_key = 0       # a single env's 'distractor' key (decoy marks, as shown_marks draws them)
         self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
         self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
-        self._table_bits = np.concatenate([self._rows, np.zeros((self._rows.shape[0], self.bits), np.float32)], axis=1) \
-            if self.bits else self._rows                   # the vector's rows with the noise bits' columns
+        self._table_bits = with_noise_columns(self._rows, self.bits)
         # a single env's noise-free observations by (cell, marks shown), at most about 32 MiB of them
         self._seen: dict[tuple[int, frozenset[int]], dict[str, np.ndarray]] = {}
         row = sum(table[0].nbytes for table in (observations.grid, observations.pixels) if table is not None)
@@ -256,10 +256,9 @@ class PathCore(Core):
             return self._vector_one(self._s, self._t)
         step, cell = self._t, self._cell_list[self._s]
         shown = [c for c, until in self._until_of.items() if until > step]     # as shown_marks, in ints
-        if self.decoy > 0 and draw(self._distractor_key, step, 0) < self.decoy:
-            C = self.rule.num_cells
-            other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
-            shown.append(other + (other >= cell))
+        decoy = self._decoy_one(cell, step)
+        if decoy >= 0:
+            shown.append(decoy)
         key = (cell, frozenset(shown))
         seen = self._seen.get(key)
         if seen is None:
@@ -292,13 +291,21 @@ class PathCore(Core):
         block = self._mark_block
         if block is not None:
             out[block] = self.until[0] > step
-            if self.decoy > 0 and draw(self._distractor_key, step, 0) < self.decoy:
-                C, cell = self.rule.num_cells, self._cell_list[state]
-                other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
-                out[block.start + other + (other >= cell)] = 1.0
+            decoy = self._decoy_one(self._cell_list[state], step)
+            if decoy >= 0:
+                out[block.start + decoy] = 1.0
         if self.bits:
             out = np.concatenate((out, self._noise_track[min(step, self._horizon)]))
         return out
+
+    def _decoy_one(self, cell: int, step: int) -> int:
+        """A single env's decoy mark at ``step`` when the agent is on ``cell`` (−1: none), drawn as
+        :meth:`shown_marks` draws it: a cell other than the agent's."""
+        if self.decoy == 0 or draw(self._distractor_key, step, 0) >= self.decoy:
+            return -1
+        C = self.rule.num_cells
+        other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
+        return other + (other >= cell)
 
     def _info_scalar(self) -> dict[str, Any]:
         return {"variant_id": self._variant_id, "step": self._t,

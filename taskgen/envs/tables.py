@@ -19,7 +19,7 @@ from gymnasium import spaces
 from ..model import TaskModel
 from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
-from ..render.vector import common_blocks, padded_table
+from ..render.vector import common_blocks, padded_table, with_noise_columns
 from .core import Core
 from .distractors import apply_distractors, distract_one
 from .streams import (EpisodeNoise, add_pixel_noise, categorical, categorical_one, draw, flip_threshold, noise_track,
@@ -141,8 +141,7 @@ class TableCore(Core):
             if sets[0].first_person is not None else None
         first = sets[0].vector
         self._bits = first.noise_bits if first is not None else 0
-        self._table_bits = np.concatenate([self._table, np.zeros((self._table.shape[0], self._bits), np.float32)],
-                                          axis=1) if self._bits else self._table   # noise bits' columns appended
+        self._table_bits = with_noise_columns(self._table, self._bits)
         self._key_cue = np.concatenate([m.shown_cue() for m in models])
         tiles = [o.lure_tiles if o.lure_tiles is not None else np.zeros((1, 4), dtype=np.int64) for o in sets]
         self._tiles = np.concatenate(tiles)

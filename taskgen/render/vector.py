@@ -66,6 +66,14 @@ def vector_layout(model: TaskModel, spec: VectorObservation) -> VectorLayout:
                         flip_probability=noise.flip_probability if noise else 0.0)
 
 
+def with_noise_columns(table: np.ndarray, bits: int) -> np.ndarray:
+    """A vector table's rows with ``bits`` zero columns appended, where a runtime writes each step's
+    noise bits after one row gather (the table itself when there are none)."""
+    if not bits:
+        return table
+    return np.concatenate([table, np.zeros((table.shape[0], bits), dtype=table.dtype)], axis=1)
+
+
 def common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:
     """One block layout wide enough for every variant (each block as wide as its widest)."""
     names = list(layouts[0].blocks)
