@@ -11,11 +11,12 @@ from importlib.metadata import PackageNotFoundError, version
 from .analysis import Report
 from .envs import TaskEnv, TaskVectorEnv
 from .errors import AnalysisError, LayoutError, SpecError, TaskgenError
-from .factory import build_model, bundled_specs, make, make_vec, register_bundled
+from .factory import build_model, bundled_specs, make, make_vec, register, register_bundled
 from .kinds import analyse, compile_variant, kind_of, make_variant, observation_set
 from .model import TaskModel
 from .spec import CueTaskSpec, FieldSpec, Spec, load_spec, load_spec_text
 from .tools import check_variant
+from .tools.evaluate import Evaluation, evaluate
 from .variant import Variant
 
 try:
@@ -26,8 +27,8 @@ except PackageNotFoundError:  # a source checkout that was never installed
 register_bundled()
 
 __all__ = [
-    "AnalysisError", "CueTaskSpec", "FieldSpec", "LayoutError", "Report", "Spec", "SpecError", "TaskEnv",
+    "AnalysisError", "CueTaskSpec", "Evaluation", "FieldSpec", "LayoutError", "Report", "Spec", "SpecError", "TaskEnv",
     "TaskModel", "TaskVectorEnv", "TaskgenError", "Variant", "__version__", "analyse", "build_model",
-    "bundled_specs", "check_variant", "compile_variant", "kind_of", "load_spec", "load_spec_text", "make",
-    "make_variant", "make_vec", "observation_set", "register_bundled",
+    "bundled_specs", "check_variant", "compile_variant", "evaluate", "kind_of", "load_spec", "load_spec_text", "make",
+    "make_variant", "make_vec", "observation_set", "register", "register_bundled",
 ]

@@ -14,12 +14,18 @@ from . import limits
 from .errors import TaskgenError
 from .analysis.policysearch import NODES
 from .factory import bundled_specs, resolve_spec
+from .spec.loader import parse_assignments
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, report_schema, run_check
 from .tools.bench import bench_title, format_all, format_bench, run_bench
 from .tools.output import write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
+
+set_option = click.option(
+    "--set", "sets", multiple=True, metavar="KEY=VALUE",
+    help="Override a spec field for this run: a dotted key and a YAML value, e.g. --set layout.corridor.length=20 "
+    "(repeatable; validated as the spec is).")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -47,8 +53,9 @@ def cli() -> None:
 @click.option("--chance-budget", default=NODES, show_default=True, type=click.IntRange(min=1),
               help="Nodes the search for the best memoryless policy may visit per variant; when it ends first, "
               "chance is an interval (bounded) and a check it cannot decide is undecided.")
+@set_option
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
-          max_bytes: float | None, paths: int, chance_budget: int) -> None:
+          max_bytes: float | None, paths: int, chance_budget: int, sets: tuple[str, ...]) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
@@ -59,7 +66,7 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     when every check passes, 1 when one fails or cannot be decided, 2 on a bad spec.
     """
     with limits.raised(max_work, max_bytes):
-        loaded = resolve_spec(spec)
+        loaded = resolve_spec(spec, **parse_assignments(sets))
         run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
                         budget=chance_budget)
     click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
@@ -78,14 +85,16 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
 @click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
 @click.option("--out", "-o", type=click.Path(dir_okay=False),
               help="Also write the result to this file: Markdown when it ends in .md, else JSON.")
+@set_option
 def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sync_envs: int | None, as_json: bool,
-          out: str | None) -> None:
+          out: str | None, sets: tuple[str, ...]) -> None:
     """Measure env-steps/s of each SPEC's single and batched envs against references in the same run
     (several SPECS or --all: one row per spec)."""
     if every == bool(specs):
         raise click.UsageError("give SPECS or --all (not both)")
     names = sorted(bundled_specs()) if every else list(specs)
-    loaded = [resolve_spec(name) for name in names]       # every spec validated before any timing
+    overrides = parse_assignments(sets)
+    loaded = [resolve_spec(name, **overrides) for name in names]       # every spec validated before any timing
     results = [run_bench(spec, num_envs=num_envs, budget=seconds, sync_envs=sync_envs) for spec in loaded]
     data: Any = results[0] if len(results) == 1 else results
     text = json.dumps(data, indent=2)
@@ -113,8 +122,10 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
               help="First variant seed; candidates take consecutive seeds.")
 @click.option("--workers", "-j", default=1, show_default=True, type=click.IntRange(min=1),
               help="Processes for drawing and analysing (the manifest is the same for any number).")
+@set_option
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
-             disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int) -> None:
+             disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
+             sets: tuple[str, ...]) -> None:
     """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml."""
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
 
@@ -122,7 +133,7 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
         splits=parse_splits(splits) if splits else (("train", 1000), ("test", 200)),
         sweeps=tuple(parse_assignment(item) for item in sweeps), zipped=zipped, disjoint_layouts=disjoint,
         holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed)
-    manifest = build_suite(resolve_spec(spec), request, workers=workers)
+    manifest = build_suite(resolve_spec(spec, **parse_assignments(sets)), request, workers=workers)
     path = write_manifest(manifest, out)
     counts: dict[str, int] = {}
     for v in manifest["variants"]:
@@ -131,6 +142,58 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
     click.echo(f"wrote {path}: " + ", ".join(f"{n} {name}" for name, n in counts.items())
                + f" variants, {layouts} distinct layouts"
                + (f" (the family has {manifest['family_size']:,})" if manifest["family_size"] else ""))
+
+
+@cli.command()
+@click.argument("manifest", type=click.Path(dir_okay=False, exists=True))
+@click.option("--policy", required=True, metavar="MODULE:FACTORY",
+              help="Where your policy comes from: FACTORY(observation_space, action_space) returns a callable from "
+              "a batch of observations to a batch of actions (optionally with reset(mask) for recurrent state).")
+@click.option("--split", default="test", show_default=True, help="The split to play.")
+@click.option("--episodes", "-n", default=100, show_default=True, type=click.IntRange(min=1),
+              help="Episodes per variant.")
+@click.option("--num-envs", default=64, show_default=True, type=click.IntRange(min=1),
+              help="Environments stepped together (each plays a fixed share of a variant's episodes).")
+@click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
+              help="Reset seed of the first environment (env i gets seed + i).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@click.option("--out", "-o", type=click.Path(file_okay=False),
+              help="Also write DIR/evaluation.json and DIR/episodes.jsonl (which `taskgen score` reads).")
+def evaluate(manifest: str, policy: str, split: str, episodes: int, num_envs: int, seed: int, as_json: bool,
+             out: str | None) -> None:
+    """Run a policy on every variant of a split of MANIFEST and score it against the suite's baselines.
+
+    Per variant: success rate with an exact (Clopper–Pearson) interval, mean return ± SE, the score
+    normalised between chance and optimal, and a one-sided exact binomial test of success against the
+    chance success rate, Holm-corrected across variants.
+    """
+    from .tools.evaluate import format_evaluation, load_policy, run_policy, score, suite_spaces, write_episodes
+    from .manifest import load_manifest
+
+    chosen = load_policy(policy, *suite_spaces(manifest, split))
+    played = run_policy(chosen, manifest, split, episodes=episodes, num_envs=num_envs, seed=seed)
+    result = score(played, load_manifest(manifest), split)
+    text = json.dumps(result.to_dict(), indent=2)
+    click.echo(text if as_json else format_evaluation(result), nl=as_json)
+    if out:
+        write_episodes(played, os.path.join(out, "episodes.jsonl"))
+        write_text_atomic(os.path.join(out, "evaluation.json"), text + "\n")
+        click.echo(f"wrote {os.path.join(out, 'evaluation.json')} and episodes.jsonl", err=True)
+
+
+@cli.command(name="score")
+@click.argument("episodes", type=click.Path(dir_okay=False, exists=True))
+@click.option("--manifest", "-m", required=True, type=click.Path(dir_okay=False, exists=True),
+              help="The suite the episodes were played on.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+def score_command(episodes: str, manifest: str, as_json: bool) -> None:
+    """Score episodes you logged (EPISODES: one JSON line each, {"variant_id", "return", "success"}) against
+    the baselines of MANIFEST, as `taskgen evaluate` does."""
+    from .tools.evaluate import format_evaluation, read_episodes, score
+    from .manifest import load_manifest
+
+    result = score(read_episodes(episodes), load_manifest(manifest), "logged")
+    click.echo(json.dumps(result.to_dict(), indent=2) if as_json else format_evaluation(result), nl=as_json)
 
 
 @cli.command(name="gallery")
@@ -145,11 +208,14 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first episode.")
 @click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
-def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int) -> None:
+@set_option
+def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int,
+                    sets: tuple[str, ...]) -> None:
     """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
     from .tools.gallery import gallery
 
-    pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant)
+    pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
+                    overrides=parse_assignments(sets))
     for page in pages:
         click.echo(f"wrote {page}")
 

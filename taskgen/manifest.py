@@ -8,17 +8,22 @@ differently fails loudly instead of training on something else.
 
 from __future__ import annotations
 
+import json
 import os
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import yaml
+from gymnasium import spaces
+from gymnasium.spaces import Space
 
 from .errors import TaskgenError
-from .kinds import compile_variant, kind_of, make_variant
+from .kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
 from .model import TaskModel
 from .render import ObservationSet
 from .spec import Spec, load_spec_text
+from .spec.loader import record_overrides
 
 MANIFEST_KEY = "taskgen_manifest"
 MANIFEST_FORMAT = 1
@@ -49,6 +54,16 @@ def is_manifest(path: str | os.PathLike[str]) -> bool:
         return False
 
 
+def describe_space(space: Space[Any]) -> dict[str, Any]:
+    """An observation space as plain data (a manifest records its suite's space; tests compare them)."""
+    if isinstance(space, spaces.Dict):
+        return {"dict": {name: describe_space(part) for name, part in space.spaces.items()}}
+    if isinstance(space, spaces.Box):
+        return {"box": {"shape": list(space.shape), "dtype": str(space.dtype),
+                        "low": float(np.min(space.low)), "high": float(np.max(space.high))}}
+    return {"other": str(space)}
+
+
 def load_manifest(path: str | os.PathLike[str]) -> dict[str, Any]:
     """Read a manifest (safe loader; the C loader when PyYAML has it, for large suites)."""
     loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
@@ -72,8 +87,12 @@ def split_entries(manifest: dict[str, Any], split: str, source: str = "manifest"
 
 def entry_spec(manifest: dict[str, Any], entry: dict[str, Any] | None, source: str = "manifest") -> Spec:
     """The embedded spec, with a listed variant's overrides (its sweep point, held-out values) applied."""
-    overrides = {key.replace(".", "__"): value for key, value in ((entry or {}).get("overrides") or {}).items()}
-    return load_spec_text(yaml.safe_dump(manifest["spec"]), f"{source} (embedded spec)", **overrides)
+    overrides = dict((entry or {}).get("overrides") or {})
+    spec = load_spec_text(yaml.safe_dump(manifest["spec"]), f"{source} (embedded spec)", **overrides)
+    applied = manifest.get("spec_overrides") or {}
+    if applied:    # the suite's spec was given overrides (already in its embedded text): they tag the ids
+        record_overrides(spec, {**applied, **overrides})
+    return spec
 
 
 def entry_model(manifest: dict[str, Any], entry: dict[str, Any], source: str = "manifest") -> tuple[Spec, TaskModel]:
@@ -96,7 +115,18 @@ def split_variants(path: str | os.PathLike[str], split: str) -> tuple[Spec, list
         raise ManifestError(f"{path}: the variants of a {kind.name} suite differ in size, so they load one at a "
                             "time: taskgen.make(manifest, split=..., index=...)")
     out = []
+    widths = suite_widths(manifest, str(path))
     for entry in split_entries(manifest, split, str(path)):
         variant_spec, model = entry_model(manifest, entry, str(path))
-        out.append((model, kind.observations(model, variant_spec.observation)))
+        out.append((model, family_observations(model, variant_spec, widths)))
     return spec, out
+
+
+def suite_widths(manifest: dict[str, Any], source: str = "manifest") -> dict[str, int]:
+    """The vector block widths every variant of a suite is laid out in (recorded when it was written;
+    for an older manifest, computed from the spec at every sweep point it lists)."""
+    recorded = (manifest.get("observation") or {}).get("widths")
+    if recorded is not None:
+        return {str(name): int(width) for name, width in recorded.items()}
+    points = {json.dumps(v.get("overrides") or {}, sort_keys=True): v for v in manifest["variants"]}
+    return family_widths([entry_spec(manifest, entry, source) for entry in points.values()])

@@ -42,13 +42,14 @@ class Variant:
 
     @property
     def variant_id(self) -> str:
-        """Stable name of this variant: ``<spec name>-s<seed>``."""
+        """Stable name of this variant: ``<spec name>-s<seed>`` (see :func:`variant_name`)."""
         return variant_name(self.spec, self.seed)
 
 
 def variant_name(spec: Spec, seed: int) -> str:
-    """``<spec name>-s<seed>``: how reports, errors and infos name a variant."""
-    return f"{spec.name}-s{seed}"
+    """``<spec name>-s<seed>``, or ``<spec name>+<digest>-s<seed>`` for a spec loaded with overrides:
+    how reports, errors and infos name a variant."""
+    return f"{spec.name}{spec.override_tag}-s{seed}"
 
 
 def check_seed(seed: Any) -> int:

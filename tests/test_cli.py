@@ -126,3 +126,34 @@ def test_a_chance_budget_too_small_to_decide_exits_1_with_an_interval(tmp_path):
     decided = json.loads(_run("check", str(spec), "--json").stdout)["variants"][0]   # the default budget decides
     assert "undecided" not in {c["verdict"] for c in decided["checks"]}
     assert decided["baselines"]["chance"]["method"] == "exact"
+
+
+def test_set_overrides_a_spec_field_on_check_variants_and_gallery(tmp_path):
+    """--set KEY=VALUE (dotted key, YAML value) changes the spec for one run: check reports the overridden
+    variant under an id of its own; a suite written with --set loads with the same ids; a gallery goes to a
+    folder of its own; a bad key or value is a located error (exit 2)."""
+    path = str(taskgen.bundled_specs()["lantern-hall"])
+    out = _run("check", path, "--set", "layout.corridor.length=3", "--set", "episode.max_steps=30", "--json")
+    assert out.returncode == 0, out.stderr
+    data = json.loads(out.stdout)
+    (variant,) = data["variants"]
+    assert variant["params"]["length"] == 3 and variant["variant_id"].startswith("lantern-hall+")
+    suite = _run("variants", path, "--out", str(tmp_path / "suite"), "--split", "train=2",
+                 "--set", "layout.corridor.length={range: [2, 4]}")
+    assert suite.returncode == 0, suite.stderr
+    manifest = tmp_path / "suite" / "manifest.yaml"
+    env = taskgen.make(str(manifest), split="train", index=0)
+    _, info = env.reset(seed=0)
+    assert info["variant_id"].startswith("lantern-hall+") and env.model.params.length in (2, 3, 4)
+    assert info["variant_id"] in manifest.read_text()
+    shown = _run("gallery", path, "--out", str(tmp_path / "g"), "-n", "1", "--set", "layout.corridor.length=2")
+    assert shown.returncode == 0, shown.stderr
+    (folder,) = [p for p in (tmp_path / "g").iterdir() if p.is_dir()]
+    assert folder.name.startswith("lantern-hall+") and "layout.corridor.length=2" in (folder / "index.md").read_text()
+    for bad, message in (("layout.corridor.length=-1", "layout.corridor.length: expected an integer ≥ 0, got -1"),
+                         ("layout.corridor.lenght=3", "did you mean 'length'"),
+                         ("layout.corridor.length", "expected KEY=VALUE"),
+                         ("layout.corridor.length=[1,", "--set layout.corridor.length:1:")):
+        refused = _run("check", path, "--set", bad)
+        assert refused.returncode == 2 and message in refused.stderr and "Traceback" not in refused.stderr, \
+            (bad, refused.stderr)

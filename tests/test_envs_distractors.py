@@ -12,7 +12,7 @@ OVER = dict(observation__grid={"size": 3}, observation__pixels={"height": 30, "w
 
 
 def _run(steps=3000, num_envs=8):
-    env = taskgen.make_vec("seed-cache", num_envs, **OVER)
+    env = taskgen.make_vec("seed-cache", num_envs, **OVER, analysis_info=True)
     obs, info = env.reset(seed=0)
     rng = np.random.default_rng(1)
     records = []
@@ -51,7 +51,7 @@ def test_decoys_appear_at_their_rate_and_carry_no_cue():
 def test_lures_light_floor_tiles_at_their_rate():
     """A frame shows a cue colour on a floor tile with probability 0.4 (binomial, 4 standard
     errors); only floor pixels change."""
-    env = taskgen.make("seed-cache", **OVER)
+    env = taskgen.make("seed-cache", **OVER, analysis_info=True)
     obs, info = env.reset(seed=3)
     seen = total = 0
     for _ in range(2000):

@@ -37,7 +37,7 @@ def _spec(observation=None, **fields):
 def test_gymnasium_checker_passes(modality):
     """gymnasium.utils.env_checker.check_env accepts a field env in each modality, with no warning."""
     env = taskgen.make(_spec(MODALITIES[modality], width=5, height=6, turns=2, start="random"),
-                       render_mode="rgb_array")
+                       render_mode="rgb_array", analysis_info=True)
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         warnings.filterwarnings("ignore", message=".*render modes.*")   # no registry id: nothing to check
@@ -50,8 +50,8 @@ def test_batch_equals_sync_vector_env_of_single_envs(modality):
     gymnasium's SyncVectorEnv of single envs gives (gymnasium's vector semantics are the reference)."""
     spec = _spec(MODALITIES[modality], width=5, height=6, turns=2, start="random", mark={"steps": 3},
                  misstep={"limit": 4}, rewards={"step": -0.01, "misstep": -0.2}, episode={"max_steps": 30})
-    ours = taskgen.make_vec(spec, 4)
-    theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec)] * 4)
+    ours = taskgen.make_vec(spec, 4, analysis_info=True)
+    theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec, analysis_info=True)] * 4)
     rng = np.random.default_rng(3)
     first = ours.reset(seed=[5, 6, 7, 8]), theirs.reset(seed=[5, 6, 7, 8])
     results = [first]
@@ -69,7 +69,7 @@ def test_batch_equals_sync_vector_env_of_single_envs(modality):
 
 
 def _paths(seed: int, episodes: int = 6) -> list[list[int]]:
-    env = taskgen.make("marsh-stones")
+    env = taskgen.make("marsh-stones", analysis_info=True)
     out = []
     for e in range(episodes):
         _, info = env.reset(seed=seed if e == 0 else None)
@@ -82,7 +82,7 @@ def test_the_same_seed_gives_the_same_paths_in_a_fresh_process():
     sequence of paths (common practice: reproducibility across processes)."""
     here = _paths(11)
     assert len({json.dumps(p) for p in here}) == len(here)
-    code = ("import json, taskgen; env = taskgen.make('marsh-stones'); out = []\n"
+    code = ("import json, taskgen; env = taskgen.make('marsh-stones', analysis_info=True); out = []\n"
             "for e in range(6):\n    _, info = env.reset(seed=11 if e == 0 else None); "
             "out.append(info['analysis_only']['path'].tolist())\nprint(json.dumps(out))")
     there = json.loads(subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
@@ -98,7 +98,7 @@ def test_two_different_paths_look_the_same_at_the_start(modality):
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, observation={
         k: (v if v is None or k == "grid" else {**v, "noise": None}) for k, v in MODALITIES[modality].items()
         if k != "distractors"}))
-    env = taskgen.make(spec)
+    env = taskgen.make(spec, analysis_info=True)
     seen = {}
     for seed in range(40):
         obs, info = env.reset(seed=seed)
@@ -118,7 +118,7 @@ def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
     observations (the one right after the misstep included), or until the episode ends (common practice)."""
     spec = _spec({"vector": {"position": "one_hot", "walls": False}}, width=3, height=6, mark={"steps": steps},
                  episode={"max_steps": 40})
-    env = taskgen.make(spec)
+    env = taskgen.make(spec, analysis_info=True)
     obs, info = env.reset(seed=0)
     block = env.observation_blocks["marks"]
     start = info["analysis_only"]["start"]
@@ -135,7 +135,7 @@ def test_a_mark_shows_where_the_agent_stepped_off_for_its_steps(steps):
 
 def test_no_mark_means_no_marks_block():
     """mark: null leaves the vector without a marks block (common practice)."""
-    env = taskgen.make(_spec(mark=None))
+    env = taskgen.make(_spec(mark=None), analysis_info=True)
     assert "marks" not in env.observation_blocks
 
 
@@ -150,7 +150,7 @@ def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
     finished or ended by missteps in most episodes, so missteps counted after an episode's end would show."""
     spec = _spec({"vector": {"position": "one_hot"}}, rewards={"step": -0.02, "misstep": -0.1, "correct": 1.0,
                                                                "timeout": -0.3}, **fields)
-    env = taskgen.make_vec(spec, 64)
+    env = taskgen.make_vec(spec, 64, analysis_info=True)
     model = env.model
     rng = np.random.default_rng(9)
     exact: dict[bytes, tuple[float, float]] = {}
@@ -186,7 +186,7 @@ def test_monte_carlo_agrees_with_the_exact_per_path_figures(fields):
 def test_render_and_ground_truth_pictures():
     """render() shows what the agent could see (no path colour); ground_truth() draws the path (common practice)."""
     from taskgen.render.palette import PATH
-    env = taskgen.make(_spec(width=5, height=6, turns=2), render_mode="rgb_array")
+    env = taskgen.make(_spec(width=5, height=6, turns=2), render_mode="rgb_array", analysis_info=True)
     env.reset(seed=0)
     colour = np.asarray(PATH, dtype=np.uint8)
     assert not (env.render() == colour).all(axis=2).any()
@@ -204,9 +204,9 @@ def test_a_walled_field_runs_and_batches_like_single_envs():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         warnings.filterwarnings("ignore", message=".*render modes.*")
-        check_env(taskgen.make(spec))
-    ours = taskgen.make_vec(spec, 3)
-    theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec)] * 3)
+        check_env(taskgen.make(spec, analysis_info=True))
+    ours = taskgen.make_vec(spec, 3, analysis_info=True)
+    theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec, analysis_info=True)] * 3)
     o1, i1 = ours.reset(seed=2)
     o2, i2 = theirs.reset(seed=2)
     rng = np.random.default_rng(5)
@@ -225,7 +225,7 @@ def test_decoy_marks_show_at_their_rate_never_on_the_agent_and_not_in_the_figure
     from taskgen.tools.check import check_variant
     fields = dict(width=5, height=6, turns=2, start="random", mark={"steps": 1}, episode={"max_steps": 40})
     spec = _spec({"vector": {"position": "one_hot"}, "distractors": {"decoy_probability": 0.25}}, **fields)
-    env = taskgen.make_vec(spec, 32)
+    env = taskgen.make_vec(spec, 32, analysis_info=True)
     block = env.observation_blocks["marks"]
     obs, info = env.reset(seed=4)
     shown, count = 0, 0

@@ -101,10 +101,11 @@ def test_impossible_rules_name_the_variant_and_seed():
 
 
 def test_maze_env_passes_gymnasiums_checker():
-    """A maze env is a valid gymnasium.Env (gymnasium's env checker)."""
+    """A maze env is a valid gymnasium.Env (gymnasium's env checker, every warning an error: env.spec
+    lets it test the render modes too)."""
     env = taskgen.make(load_spec_text(maze_text(width=5, height=5)), render_mode="rgb_array")
     with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", message=".*render modes.*")
+        warnings.simplefilter("error")
         check_env(env)
 
 
@@ -131,7 +132,7 @@ def test_sequence_elements_are_shown_in_turn():
     """Element j of the sequence is the cue block's value in observations j·n … (j+1)·n − 1."""
     env = taskgen.make(load_spec_text(yaml.safe_dump({
         "format_version": 1, "name": "test-sequence", "layout": {"corridor": {"length": 8}},
-        "cue": {"values": 3, "sequence_length": 3, "visible_steps": 2}})))
+        "cue": {"values": 3, "sequence_length": 3, "visible_steps": 2}})), analysis_info=True)
     for seed in range(5):
         obs, info = env.reset(seed=seed)
         h = info["analysis_only"]["cue"]

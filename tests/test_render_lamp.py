@@ -46,7 +46,7 @@ def test_the_lamp_is_lit_only_while_the_cue_is_shown(modality):
     over = {"observation__" + modality: {"height": 40, "width": 48}, "cue__visible_steps": 2}
     if modality == "first_person":
         over["agent__actions"] = "turns"
-    env = taskgen.make("lantern-hall", **over)
+    env = taskgen.make("lantern-hall", **over, analysis_info=True)
     rows = (topdown_rows if modality == "pixels" else first_person_rows)(40)
     disc = lamp_disc(rows, 48)
     rng = np.random.default_rng(0)
@@ -71,7 +71,7 @@ def test_a_decoy_lights_the_lamp_in_a_uniform_cue_colour():
     step and the vector's cue bits name the same value (a decoy shows wherever the cue would);
     the values cover all the cue colours (common practice)."""
     env = taskgen.make("lantern-hall", observation__pixels={"height": 40, "width": 40},
-                       observation__distractors={"decoy_probability": 1.0})
+                       observation__distractors={"decoy_probability": 1.0}, analysis_info=True)
     disc = lamp_disc(topdown_rows(40), 40)
     seen = set()
     obs, _ = env.reset(seed=3)
@@ -91,7 +91,7 @@ def test_a_decoy_lights_the_lamp_in_a_uniform_cue_colour():
 def test_the_ground_truth_lights_the_true_cue_and_render_only_what_the_agent_sees():
     """ground_truth() (for people) shows the true cue in the lamp at every step; render() shows only
     what the agent could see: the lamp lit while the cue is shown, dark after (common practice)."""
-    env = taskgen.make("lantern-hall", render_mode="rgb_array")
+    env = taskgen.make("lantern-hall", render_mode="rgb_array", analysis_info=True)
     _, info = env.reset(seed=5)
     cue = info["analysis_only"]["cue"]
     rows = TopDownRenderer(env.model).lamp_rows * TopDownRenderer(env.model).px

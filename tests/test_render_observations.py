@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import warnings
 
+import gymnasium as gym
 import numpy as np
 import pytest
 from gymnasium.utils.env_checker import check_env
@@ -33,7 +34,7 @@ from conftest import CUE_SPECS
 @pytest.mark.parametrize("spec_name", CUE_SPECS)
 def test_every_example_runs_in_every_modality(spec_name, modality):
     """gymnasium's env checker passes and every observation of a long rollout is in the space."""
-    env = taskgen.make(spec_name, **MODALITIES[modality])
+    env = taskgen.make(spec_name, **MODALITIES[modality], analysis_info=True)
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         warnings.filterwarnings("ignore", message=".*render modes.*")   # no registry id: nothing to check
@@ -63,7 +64,7 @@ def _wall_pixels(kind, amplitude, steps=60):
     """Noisy values of the wall-coloured pixels of the first frames of an episode."""
     env = taskgen.make("lantern-hall", observation__vector=None,
                        observation__pixels={"height": 32, "width": 32,
-                                            "noise": {"kind": kind, "amplitude": amplitude}})
+                                            "noise": {"kind": kind, "amplitude": amplitude}}, analysis_info=True)
     clean = env.observations.pixels
     obs, info = env.reset(seed=5)
     values, flags = [], []
@@ -72,7 +73,9 @@ def _wall_pixels(kind, amplitude, steps=60):
         wall = (clean[key] == WALL).all(axis=2)
         values.append(obs[wall].astype(float) - np.asarray(WALL, dtype=float))
         flags.append(obs[wall])
-        obs, _, _, _, info = env.step(0)      # a wall: the episode goes on
+        obs, _, terminated, truncated, info = env.step(0)      # a wall: the episode goes on to its time limit
+        if terminated or truncated:
+            obs, info = env.reset()
     return np.concatenate(values), np.concatenate(flags)
 
 
@@ -103,7 +106,7 @@ def test_pixels_and_grid_show_the_cue_only_in_its_window():
     """The lamp is the cue colour and the grid's cue channel is value + 1 in the first
     visible_steps observations, and neither shows the cue afterwards."""
     env = taskgen.make("seed-cache", observation__grid={"size": 3},
-                       observation__pixels={"height": 30, "width": 30})
+                       observation__pixels={"height": 30, "width": 30}, analysis_info=True)
     cue_channel = GRID_CHANNELS.index("cue")
     for seed in range(4):
         obs, info = env.reset(seed=seed)
@@ -118,7 +121,7 @@ def test_pixels_and_grid_show_the_cue_only_in_its_window():
 
 def test_grid_walls_follow_the_layout():
     """The grid view's wall bits at the centre are the agent cell's blocked moves."""
-    env = taskgen.make("orchard-hives", observation__vector=None, observation__grid={"size": 5})
+    env = taskgen.make("orchard-hives", observation__vector=None, observation__grid={"size": 5}, analysis_info=True)
     model = env.model
     for key in range(model.num_keys):
         walls = env.observations.grid[key, 2, 2, 1:5].astype(bool)
@@ -129,7 +132,7 @@ def test_leak_check_reads_the_pixels():
     """A cue left in view after its window is found in the pixel modality (the lamp)."""
     import dataclasses
 
-    env = taskgen.make("lantern-hall", observation__vector=None, observation__pixels={"height": 20, "width": 40})
+    env = taskgen.make("lantern-hall", observation__vector=None, observation__pixels={"height": 20, "width": 40}, analysis_info=True)
     model = env.model
     keys, obs_key = np.unique(np.stack([model.cell, model.value], axis=1), axis=0, return_inverse=True)
     leaky = dataclasses.replace(model, source=dataclasses.replace(model.tables, obs_key=obs_key.ravel()),
@@ -140,3 +143,22 @@ def test_leak_check_reads_the_pixels():
     leak = static_leak(leaky, observation_tables(leaky, spec))
     assert leak is not None and leak.parts == ("pixels.pixels",) and leak.step == 1
     assert analyse(model, observation_set(model, spec.observation)).ok
+
+
+@pytest.mark.parametrize("spec_name", ["lantern-hall", "orchard-hives", "seed-cache", "marsh-stones"])
+def test_grid_space_bounds_are_the_true_channel_ranges(spec_name):
+    """The grid view's Box has each channel's real maximum as its high (goal and cue: the number of cue
+    values; agent: 1, or 4 with headings; the rest 1), so a library's bounds-based scaling is right:
+    for a cue task every bound is reached somewhere in the table, and every row lies inside it."""
+    for turns in (False, True):
+        extra = {"agent__actions": "turns"} if turns and spec_name != "marsh-stones" else {}
+        env = taskgen.make(spec_name, observation__grid={"size": 3}, **extra)
+        space = env.observation_space["grid"] if isinstance(env.observation_space, gym.spaces.Dict) \
+            else env.observation_space
+        table = env.observations.grid
+        assert all(space.contains(row) for row in table)
+        high = space.high.reshape(-1, table.shape[-1]).max(axis=0)
+        reached = table.reshape(-1, table.shape[-1]).max(axis=0)
+        if spec_name != "marsh-stones":
+            assert np.array_equal(high[:8], reached[:8]), (spec_name, turns, high, reached)
+        assert high.max() <= max(4, env.observations.cue_values)

@@ -19,6 +19,7 @@ from taskgen.analysis.fingerprint import fingerprint
 from taskgen.generate.maze import maze_layout
 from taskgen.tools.variants import SuiteError, SuiteRequest, build_suite, manifest_text, write_manifest
 from taskgen.kinds.cue import MazeParams
+from taskgen.manifest import describe_space
 from taskgen.variant import Variant
 
 LANTERN = str(taskgen.bundled_specs()["lantern-hall"])
@@ -50,7 +51,7 @@ def test_fingerprint_ignores_state_numbering():
     breadth-first labelling; common practice for graph hashing)."""
     rng = np.random.default_rng(0)
     for name in ("lantern-hall", "orchard-hives", "hedge-chimes"):
-        model = taskgen.build_model(name, seed=2)
+        model = taskgen.build_model(name, variant=2)
         assert fingerprint(_permuted(model, rng)) == fingerprint(model)
 
 
@@ -192,6 +193,36 @@ def test_manifest_records_what_it_promises():
         for figures in v["baselines"].values():
             baseline.validate(figures)
     assert manifest_text(manifest).startswith("taskgen_manifest: 1\n")
+
+
+def test_every_split_of_a_suite_has_one_observation_space(tmp_path):
+    """A suite whose splits differ in corridor length (a held-out range and a sweep point past the
+    spec's range) gives every split, every listed variant and every batch the one observation space
+    the manifest records; each variant's own elements (observation_mask) are its unpadded vector."""
+    spec = taskgen.load_spec(LANTERN)
+    request = SuiteRequest(splits=(("train", 6), ("test", 3)), holdout=("layout.corridor.length", (6,)),
+                           sweeps=(("layout.corridor.length", ({"range": [6, 12]}, 15)),))
+    manifest = build_suite(spec, request)
+    path = write_manifest(manifest, str(tmp_path))
+    recorded = manifest["observation"]["space"]
+    seen = set()
+    for split in ("train", "test"):
+        spaces = {str(taskgen.make(path, split=split).observation_space),
+                  str(taskgen.make_vec(path, 2, split=split).single_observation_space)}
+        for index in range(sum(v["split"] == split for v in manifest["variants"])):
+            env = taskgen.make(path, split=split, index=index, analysis_info=True)
+            spaces.add(str(env.observation_space))
+            assert describe_space(env.observation_space) == recorded
+            obs, info = env.reset(seed=index)
+            own = taskgen.observation_set(env.model, spec.observation).vector.table
+            key = env.model.obs_key[info["analysis_only"]["state"]]
+            mask = env.observation_mask()
+            assert np.array_equal(obs[mask], own[key]) and not obs[~mask].any()
+            seen.add(env.model.params.length)
+        assert len(spaces) == 1, spaces
+    assert 15 in seen and len(seen) > 2
+    # cue bits 2; one-hot cells of the longest hall (15), its spine (2k − 1 = 3 rows) and two arms of 2; walls 4
+    assert recorded["box"]["shape"] == [2 + 15 + 3 + 2 * 2 + 4]
 
 
 def test_a_manifest_is_not_taken_for_a_spec(tmp_path):

@@ -31,6 +31,7 @@ class Core(ABC):
 
     num_envs: int
     num_actions: int
+    analysis_info: bool = False     # infos carry "analysis_only" (the hidden value, the state) when set
     observations: ObservationSet    # every variant's modalities, blocks and noise (those of the first)
     blocks: dict[str, slice]        # the vector's named blocks, as wide as the widest variant's
 
@@ -59,8 +60,13 @@ class Core(ABC):
     @abstractmethod
     def infos(self) -> dict[str, Any]:
         """Every environment's info as arrays, without masks: ``variant_id`` (object[N]), ``step``
-        (int64[N], a copy) and ``analysis_only``, a dict of arrays with the hidden value and the state,
-        for analyses only (an agent that reads them is no longer tested on memory)."""
+        (int64[N], a copy) and, when :attr:`analysis_info` is set, ``analysis_only``, a dict of arrays
+        with the hidden value and the state, for analyses only (an agent that reads them is no longer
+        tested on memory)."""
+
+    @abstractmethod
+    def success(self) -> np.ndarray:
+        """bool[N]: whether each environment's state counts as solving the task (read at an episode's end)."""
 
     @abstractmethod
     def model_of(self, i: int) -> TaskModel:
@@ -73,6 +79,11 @@ class Core(ABC):
     @abstractmethod
     def ground_truth(self, i: int) -> np.ndarray:
         """uint8[H, W, 3]: the ground truth of environment i (the hidden value drawn), for people."""
+
+    @abstractmethod
+    def vector_mask(self) -> np.ndarray:
+        """bool[N, D]: the vector elements each environment's variant fills; the rest pad its blocks to the
+        spec family's widths and are always 0 (ValueError without a vector)."""
 
     @abstractmethod
     def memory_bytes(self) -> dict[str, int]:
@@ -96,5 +107,11 @@ class Core(ABC):
     def info_one(self) -> dict[str, Any]:
         """The info of a core of one."""
         info = self.infos()
-        hidden = {name: value[0] for name, value in info["analysis_only"].items()}
-        return {"variant_id": str(info["variant_id"][0]), "step": int(info["step"][0]), "analysis_only": hidden}
+        out: dict[str, Any] = {"variant_id": str(info["variant_id"][0]), "step": int(info["step"][0])}
+        if self.analysis_info:
+            out["analysis_only"] = {name: value[0] for name, value in info["analysis_only"].items()}
+        return out
+
+    def success_one(self) -> bool:
+        """Whether a core of one's state counts as solving the task."""
+        return bool(self.success()[0])

@@ -16,7 +16,7 @@ import numpy as np
 from gymnasium import spaces
 
 from ..model import TaskModel
-from ..model.paths import MARK_FOREVER
+from ..model.paths import GOAL, MARK_FOREVER
 from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import with_noise_columns
@@ -164,9 +164,27 @@ class PathCore(Core):
     def infos(self) -> dict[str, Any]:
         """The one variant's id, the step, and each environment's path (int8 per cell: 0 off, 1 on, 2
         its end), its start cell, the state and the missteps so far."""
-        return {"variant_id": self._ids, "step": self.step_count.copy(),
-                "analysis_only": {"path": self.kind.copy(), "start": self.start.copy(), "state": self.state.copy(),
-                                  "missteps": self.missteps.copy()}}
+        info: dict[str, Any] = {"variant_id": self._ids, "step": self.step_count.copy()}
+        if self.analysis_info:
+            info["analysis_only"] = {"path": self.kind.copy(), "start": self.start.copy(),
+                                     "state": self.state.copy(), "missteps": self.missteps.copy()}
+        return info
+
+    def success(self) -> np.ndarray:
+        """Whether each environment stands on its path's end, not out of the field."""
+        cell = np.take(self.rule.state_cell, self.state)
+        return (self.kind[self.rows, cell] == GOAL) & ~np.take(self.rule.state_out, self.state)
+
+    def success_one(self) -> bool:
+        """A single env's success, read from its Python-int state."""
+        return self._kind_list[self._cell_list[self._s]] == GOAL and not bool(self.rule.state_out[self._s])
+
+    def vector_mask(self) -> np.ndarray:
+        """The elements the one variant fills, for every environment."""
+        if self.vector is None:
+            raise ValueError("these environments observe no vector")
+        used = self.observations.used if self.observations.used is not None else np.ones(self.vector.size, bool)
+        return np.broadcast_to(used, (self.num_envs, used.size))
 
     def model_of(self, i: int) -> TaskModel:
         """The one variant."""
@@ -243,6 +261,8 @@ class PathCore(Core):
             obs = self._vector_one(state, step)
         else:
             obs = self._observe_scalar()
+        if not self.analysis_info:
+            return obs, reward, terminated, truncated, {"variant_id": self._variant_id, "step": step}
         return obs, reward, terminated, truncated, {
             "variant_id": self._variant_id, "step": step,
             "analysis_only": {"path": self.kind[0].copy(), "start": self._start, "state": state,
@@ -308,6 +328,8 @@ class PathCore(Core):
         return other + (other >= cell)
 
     def _info_scalar(self) -> dict[str, Any]:
+        if not self.analysis_info:
+            return {"variant_id": self._variant_id, "step": self._t}
         return {"variant_id": self._variant_id, "step": self._t,
                 "analysis_only": {"path": self.kind[0].copy(), "start": self._start,
                                   "state": self._s, "missteps": self._missteps}}

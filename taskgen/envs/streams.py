@@ -61,12 +61,15 @@ def next_episode(stream: int | None, episode: int, seeded: bool,
 
 
 def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.Generator | None],
-                      streams: np.ndarray, episodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(episodes, keys) of a batched reset; ``seed`` is None, an int (env i gets seed + i) or a
-    list. A seeded env (or one never seeded) draws a new stream from its generator and starts
-    at episode 0; the others go on to their stream's next episode. Updates ``seeded``,
-    ``generators`` and ``streams`` in place, as N single envs' resets would."""
+                      streams: np.ndarray, episodes: np.ndarray,
+                      rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """(episodes, keys) of a batched reset of environments ``rows`` (None: all); ``seed`` is None,
+    an int (env i gets seed + i) or a list with one entry per environment. A seeded env (or one
+    never seeded) draws a new stream from its generator and starts at episode 0; the others go
+    on to their stream's next episode. Updates ``seeded``, ``generators`` and ``streams`` in place,
+    as the single envs' resets would; returns the episodes and keys of ``rows`` only."""
     n = seeded.shape[0]
+    rows = np.arange(n) if rows is None else rows
     if seed is None:
         seeds: list[int | None] = [None] * n
     elif isinstance(seed, (int, np.integer)):
@@ -75,17 +78,18 @@ def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.
         seeds = list(seed)
         if len(seeds) != n:
             raise ValueError(f"reset needs {n} seeds, got {len(seeds)}")
-    fresh = np.zeros(n, dtype=bool)
-    for i, s in enumerate(seeds):   # once per reset call, not per step
+    fresh = np.zeros(rows.size, dtype=bool)
+    for j, i in enumerate(rows.tolist()):   # once per reset call, not per step
+        s = seeds[i]
         if s is not None or not seeded[i]:
             generator = generators[i]
             if s is not None or generator is None:
                 generator, _ = seeding.np_random(s)
                 generators[i] = generator
             streams[i] = stream_from(generator)
-            seeded[i] = fresh[i] = True
-    episodes = np.where(fresh, 0, episodes + 1)
-    return episodes, episode_keys(streams, episodes)
+            seeded[i] = fresh[j] = True
+    chosen = np.where(fresh, 0, episodes[rows] + 1)
+    return chosen, episode_keys(streams[rows], chosen)
 
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:

@@ -19,7 +19,7 @@ from gymnasium import spaces
 from ..model import TaskModel
 from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
-from ..render.vector import common_blocks, padded_table, with_noise_columns
+from ..render.vector import common_blocks, padded_table, scatter_index, with_noise_columns
 from .core import Core
 from .distractors import apply_distractors, distract_one
 from .streams import (EpisodeNoise, add_pixel_noise, categorical, categorical_one, draw, flip_threshold, noise_track,
@@ -128,9 +128,15 @@ class TableCore(Core):
         self._terminal = np.concatenate([m.terminal for m in models])
         self._obs_key = np.concatenate([m.obs_key + o for m, o in zip(models, key_off)])
         self._hidden = np.concatenate([m.value for m in models])
+        self._success = np.concatenate([m.success for m in models])
         self._local = np.concatenate([m.local for m in models])
         if self._has_vector:
             self._table = np.concatenate([padded_table(o.vector, self.blocks) for o in sets if o.vector is not None])
+            size = max(b.stop for b in self.blocks.values())
+            self._used = np.zeros((len(sets), size), dtype=bool)
+            for j, o in enumerate(sets):
+                assert o.vector is not None
+                self._used[j, scatter_index(o.vector, self.blocks)] = True if o.used is None else o.used
         else:
             self._table = np.zeros((int(key_off[-1]), 0), dtype=np.float32)
         self._width = self._table.shape[1]
@@ -253,8 +259,27 @@ class TableCore(Core):
     def infos(self) -> dict[str, Any]:
         """The variant each environment plays (a fresh copy while environments draw variants), the step,
         and the cue and the model state (numbered within the environment's variant)."""
-        return {"variant_id": self._ids.copy() if self._draw else self._every_id, "step": self.step_count.copy(),
-                "analysis_only": {"cue": self._hidden[self.state], "state": self.state - self._state_offset}}
+        info: dict[str, Any] = {"variant_id": self._ids.copy() if self._draw else self._every_id,
+                                "step": self.step_count.copy()}
+        if self.analysis_info:
+            info["analysis_only"] = {"cue": self._hidden[self.state], "state": self.state - self._state_offset}
+        return info
+
+    def success(self) -> np.ndarray:
+        """Whether each environment's state is a success state of its variant."""
+        return np.take(self._success, self.state)
+
+    def success_one(self) -> bool:
+        """A single env's success, read from its Python-int state."""
+        return bool(self._success[self._s])
+
+    def vector_mask(self) -> np.ndarray:
+        """The elements each environment's current variant fills."""
+        if not self._has_vector:
+            raise ValueError("these environments observe no vector")
+        if self._s >= 0:
+            return self._used[[self._variant]]
+        return self._used[self.env_variant]
 
     def model_of(self, i: int) -> TaskModel:
         """Environment i's current variant."""
@@ -336,9 +361,11 @@ class TableCore(Core):
                 obs[self._cue_start + min(int(draw(self._distractor_key, t, 1) * k), k - 1)] = 1.0
         else:
             obs = self._observe_scalar()
-        return obs, reward, terminated, truncated, {
-            "variant_id": self._variant_id, "step": t,
-            "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
+        if self.analysis_info:
+            return obs, reward, terminated, truncated, {
+                "variant_id": self._variant_id, "step": t,
+                "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
+        return obs, reward, terminated, truncated, {"variant_id": self._variant_id, "step": t}
 
     def _observe_scalar(self) -> Any:
         """The single env's observation, every modality (the vector-only case is inlined in step_one)."""
@@ -367,6 +394,8 @@ class TableCore(Core):
 
     def _info_scalar(self) -> dict[str, Any]:
         state = self._s
+        if not self.analysis_info:
+            return {"variant_id": self._variant_id, "step": self._t}
         return {"variant_id": self._variant_id, "step": self._t,
                 "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
 

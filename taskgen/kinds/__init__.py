@@ -14,13 +14,14 @@ never branch on the family.
 
 from __future__ import annotations
 
-from typing import Any, Callable, Protocol, Sequence
+from typing import Any, Callable, Mapping, Protocol, Sequence
 
 from ..analysis import Report
 from ..analysis.policysearch import NODES
 from ..envs.core import Core
 from ..model import TaskModel
 from ..render import ObservationSet
+from ..render.observations import widened
 from ..spec import Spec
 from ..spec.schema import Observation
 from ..variant import Variant, check_seed
@@ -62,6 +63,10 @@ class TaskKind(Protocol):
 
     def fingerprint(self, model: TaskModel) -> str:
         """A hash that equal layouts (and task settings) share however they were generated."""
+
+    def widest(self, spec: Spec) -> dict[str, int]:
+        """The width of each vector block that varies between variants, at its widest over the spec's
+        parameter ranges (one-hot position, goals, marks): every variant is laid out in these."""
 
     def family_size(self, spec: Spec) -> int | None:
         """How many distinct variants the spec can produce, where that is countable (else None)."""
@@ -117,6 +122,22 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
     return kind_of(model).observations(model, spec)
 
 
+def family_widths(specs: Sequence[Spec]) -> dict[str, int]:
+    """Block widths wide enough for every variant of every spec given (a spec, or a suite's sweep points)."""
+    out: dict[str, int] = {}
+    for spec in specs:
+        for name, width in kind_of(spec).widest(spec).items():
+            out[name] = max(out.get(name, 0), width)
+    return out
+
+
+def family_observations(model: TaskModel, spec: Spec, widths: Mapping[str, int] | None = None) -> ObservationSet:
+    """What the agent of a variant of ``spec`` sees, laid out in its family's observation space (``widths``
+    from :func:`family_widths`; by default the spec's own), so that every variant has the same space."""
+    observations = kind_of(model).observations(model, spec.observation)
+    return widened(observations, family_widths([spec]) if widths is None else widths)
+
+
 def analyse(model: TaskModel, observations: ObservationSet | None = None, min_gap: float = 0.0,
             budget: int = NODES) -> Report:
     """Every figure and check of one compiled variant (``observations``: what its agent sees, from
@@ -125,5 +146,5 @@ def analyse(model: TaskModel, observations: ObservationSet | None = None, min_ga
     return kind_of(model).analyse(model, observations, min_gap, budget)
 
 
-__all__ = ["SAMPLES", "Policy", "TaskKind", "all_kinds", "analyse", "compile_variant", "kind_of", "make_variant",
-           "observation_set"]
+__all__ = ["SAMPLES", "Policy", "TaskKind", "all_kinds", "analyse", "compile_variant", "family_observations",
+           "family_widths", "kind_of", "make_variant", "observation_set"]

@@ -206,6 +206,22 @@ class CueKind:
         """The canonical hash of the model's tables and layout."""
         return fingerprint(model)
 
+    def widest(self, spec: Spec) -> dict[str, int]:
+        """The widest vector blocks of any variant: one-hot position over the largest layout (a corridor
+        at its longest hall and arms, a maze at its largest width and height), a goal bit per cue value."""
+        spec = _cue_spec(spec)
+        corridor, maze, vector = spec.layout.corridor, spec.layout.maze, spec.observation.vector
+        if vector is None:
+            return {}
+        if corridor is not None:
+            cells = corridor_layout(corridor.length.high, corridor.arm_length.high, spec.cue.values,
+                                    corridor.width).num_cells
+        else:
+            assert maze is not None
+            cells = maze.width.high * maze.height.high
+        return {"position": cells, "goals": spec.cue.values} if vector.position == "one_hot" else \
+            {"goals": spec.cue.values}
+
     def family_size(self, spec: Spec) -> int | None:
         """Corridors: combinations of length and arm length; uniform unbraided mazes of a fixed size with
         fixed start and goals: the spanning trees of the grid."""

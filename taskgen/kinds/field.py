@@ -198,6 +198,15 @@ class FieldKind:
         """The digest of the path rule (paths are drawn per episode, so the rule is the variant)."""
         return _rule(model).digest()
 
+    def widest(self, spec: Spec) -> dict[str, int]:
+        """The widest vector blocks of any variant: one-hot position and marks, a bit per cell of the
+        largest field."""
+        field, vector = _field_spec(spec).layout.field, spec.observation.vector
+        if vector is None:
+            return {}
+        cells = field.width.high * field.height.high
+        return {"position": cells, "marks": cells} if vector.position == "one_hot" else {"marks": cells}
+
     def family_size(self, spec: Spec) -> int | None:
         """An open field's variants: combinations of width, height and path turns (walls: not counted)."""
         field = _field_spec(spec).layout.field

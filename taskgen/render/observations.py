@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
 from gymnasium import spaces
@@ -15,7 +15,7 @@ from ..spec.schema import Observation
 from .first_person import first_person_table
 from .grid import GRID_CHANNELS, grid_table
 from .topdown import pixel_table, tile_boxes
-from .vector import VectorLayout, vector_layout
+from .vector import VectorLayout, vector_layout, widened_layout
 
 if TYPE_CHECKING:   # marks.py builds observation sets, so the overlay is imported for types only
     from .marks import MarkOverlay
@@ -40,6 +40,8 @@ class ObservationSet:
     lure_tiles: np.ndarray | None = None     # int[T, 4] pixel boxes a lure may light (top-down)
     cue_values: int = 2
     marks: MarkOverlay | None = None         # where a field's feedback marks are laid over, per step
+    used: np.ndarray | None = None           # bool[vector size]: elements this variant fills (None: all); the
+                                             # others pad its blocks to its family's widths and stay 0
 
     @property
     def single(self) -> bool:
@@ -51,11 +53,13 @@ class ObservationSet:
         out: dict[str, Space[Any]] = {}
         if self.vector is not None:
             out["vector"] = spaces.Box(0.0, 1.0, shape=(self.vector.size,), dtype=np.float32)
-        if self.grid is not None:
+        if self.grid is not None:   # each channel's true range, so bounds-based scaling is right
             high = np.full(self.grid.shape[1:], 1, dtype=np.uint8)
-            high[..., GRID_CHANNELS.index("goal")] = 255
-            high[..., GRID_CHANNELS.index("cue")] = 255
-            high[..., GRID_CHANNELS.index("agent")] = 4
+            values = max(self.cue_values, 1)                  # one goal per cue value; shown values + 1
+            high[..., GRID_CHANNELS.index("goal")] = values
+            high[..., GRID_CHANNELS.index("cue")] = values
+            agent = GRID_CHANNELS.index("agent")
+            high[..., agent] = 4 if (self.grid[..., agent] > 1).any() else 1   # heading + 1 with turns
             out["grid"] = spaces.Box(0, high, dtype=np.uint8)
         for name in ("pixels", "first_person"):
             table = getattr(self, name)
@@ -106,6 +110,24 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
     return ObservationSet(tuple(spec.modalities()), vector, grid, pixels, noise, first_person,
                           spec.distractors.decoy_probability, spec.distractors.lure_probability, tiles,
                           model.cue.values if model.cue is not None else 0)
+
+
+def widened(obs: ObservationSet, widths: Mapping[str, int]) -> ObservationSet:
+    """``obs`` with its vector blocks as wide as ``widths`` says (those it names; zeros fill each block
+    past the variant's own width), so every variant of a spec family has one observation space. A
+    field's mark block moves with the layout. Raises ValueError when a block is wider than allowed."""
+    if obs.vector is None or not widths:
+        return obs
+    vector = widened_layout(obs.vector, widths)
+    used = np.zeros(vector.size, dtype=bool)
+    for name, own in obs.vector.blocks.items():
+        start = vector.blocks[name].start
+        used[start:start + own.stop - own.start] = True
+    marks = obs.marks
+    if marks is not None and marks.block is not None:
+        start = vector.blocks["marks"].start
+        marks = replace(marks, block=slice(start, start + marks.block.stop - marks.block.start))
+    return replace(obs, vector=vector, marks=marks, used=used)
 
 
 def key_classes(obs: ObservationSet) -> np.ndarray:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence
+from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -72,6 +72,22 @@ def with_noise_columns(table: np.ndarray, bits: int) -> np.ndarray:
     if not bits:
         return table
     return np.concatenate([table, np.zeros((table.shape[0], bits), dtype=table.dtype)], axis=1)
+
+
+def widened_layout(layout: VectorLayout, widths: Mapping[str, int]) -> VectorLayout:
+    """The layout with each block named in ``widths`` that wide (zero-padded at its end); the
+    others as they are. Raises ValueError when a variant's block is wider than ``widths`` allows."""
+    blocks, start = {}, 0
+    for name, own in layout.blocks.items():
+        size = own.stop - own.start
+        width = widths.get(name, size)
+        if size > width:
+            raise ValueError(f"the vector block {name!r} is {size} wide in this variant, more than the "
+                             f"{width} its spec family allows")
+        blocks[name] = slice(start, start + width)
+        start += width
+    return VectorLayout(blocks=blocks, table=padded_table(layout, blocks), noise_bits=layout.noise_bits,
+                        flip_probability=layout.flip_probability)
 
 
 def common_blocks(layouts: Sequence[VectorLayout]) -> dict[str, slice]:

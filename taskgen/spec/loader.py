@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import difflib
+import json
 import os
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
 
 import yaml
 from pydantic import BaseModel, ValidationError
@@ -246,9 +247,10 @@ def _float_text(text: str) -> str | None:
 
 
 def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any], pos: _Positions) -> None:
-    """Merge ``a__b__c=value`` keyword overrides into the raw document before validation."""
+    """Merge ``a__b__c=value`` keyword overrides (or dotted keys, ``a.b.c``) into the raw document before
+    validation."""
     for name, value in overrides.items():
-        path = tuple(name.split("__"))
+        path = tuple(name.replace(".", "__").split("__"))
         node: Any = data
         for part in path[:-1]:
             if not isinstance(node.get(part), dict):
@@ -284,12 +286,40 @@ def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | Non
         _apply_overrides(data, overrides, pos)
     root = spec_type(data)
     try:
-        return root.model_validate(data)
+        spec: Spec = root.model_validate(data)
     except ValidationError as exc:
         raw = exc.errors(include_url=False)
         errors = [_translate(e, pos, root) for e in raw if not _explained_by_typo(e, raw)]
         errors.sort(key=lambda e: (e.location.line or 0, e.location.column or 0))
         raise (errors[0] if len(errors) == 1 else SpecErrors(errors)) from None
+    if overrides:
+        record_overrides(spec, overrides)
+    return spec
+
+
+def record_overrides(spec: Spec, overrides: Mapping[str, Any], earlier: Spec | None = None) -> None:
+    """Keep on ``spec`` the overrides it was loaded with (after those of ``earlier``, the spec they were
+    applied to), so its variants' ids differ from the spec's own (``Spec.override_tag``)."""
+    items = dict(earlier._overrides) if earlier is not None else {}
+    for name, value in overrides.items():
+        items[name.replace("__", ".")] = json.dumps(value, sort_keys=True, default=str)
+    spec._overrides = tuple(sorted(items.items()))
+
+
+def parse_assignments(items: Sequence[str], option: str = "--set") -> dict[str, Any]:
+    """``KEY=VALUE`` items (dotted keys, YAML values read as in a spec) into overrides by dotted key;
+    a malformed item or value is a located error naming the option and key."""
+    out: dict[str, Any] = {}
+    for item in items:
+        key, sep, text = item.partition("=")
+        parts = key.split(".")
+        if not sep or not all(p and p.replace("_", "a").isalnum() and p.isascii() for p in parts):
+            raise SpecError(Location(option), "expected KEY=VALUE with a dotted spec key, e.g. "
+                            "layout.corridor.length=12", repr(item[:80]))
+        if not text.strip():
+            raise SpecError(Location(f"{option} {key}"), "expected a YAML value after '='", "nothing")
+        out[key], _ = parse_yaml(text, f"{option} {key}")     # read by the spec's own loader, as in a file
+    return out
 
 
 def load_spec_text(text: str, source: str = "<spec>", **overrides: Any) -> Spec:

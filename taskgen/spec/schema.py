@@ -8,9 +8,12 @@ spec reference, so keep them true when behaviour changes.
 
 from __future__ import annotations
 
+import hashlib
+import json
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import (BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, WithJsonSchema, field_validator,
+from pydantic import (BaseModel, BeforeValidator, ConfigDict, Field, PrivateAttr, ValidationError, WithJsonSchema,
+                      field_validator,
                       model_validator)
 from pydantic_core import PydanticCustomError
 
@@ -444,7 +447,9 @@ class Observation(Strict):
     """What the agent receives: one modality (then a Box) or several (then a Dict keyed by name)."""
 
     vector: VectorObservation | None = Field(
-        default_factory=VectorObservation, description="The vector observation (null to leave it out).",
+        default_factory=VectorObservation, description="The vector observation (null to leave it out). "
+        "When left unsaid it is on only if no other modality is asked for: a spec with pixels, a grid "
+        "view or first-person frames gets just those unless it gives vector itself.",
         examples=[{"cue": True, "position": "one_hot", "walls": True}],
     )
     grid: GridObservation | None = Field(default=None, description="A local grid view, or null.",
@@ -455,6 +460,15 @@ class Observation(Strict):
         default=None, description="First-person pixels, or null.", examples=[{"height": 48, "width": 64}])
     distractors: Distractors = Field(default_factory=Distractors, description="Decoy cues and lure tiles.",
                                      examples=[{"decoy_probability": 0.05, "lure_probability": 0.1}])
+
+    @model_validator(mode="before")
+    @classmethod
+    def _vector_when_alone(cls, data: Any) -> Any:
+        """No default vector beside another modality (an image policy would get a Dict it did not ask for)."""
+        if isinstance(data, dict) and "vector" not in data and \
+                any(data.get(name) is not None for name in ("grid", "pixels", "first_person")):
+            return {**data, "vector": None}
+        return data
 
     @model_validator(mode="after")
     def _something(self) -> "Observation":
@@ -484,9 +498,23 @@ class _Header(Strict):
     )
     name: str = Field(
         pattern=r"^[a-z0-9][a-z0-9-]{0,62}$",
-        description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v0.",
+        description="Lower-case name with dashes; bundled specs register as taskgen/<name>-v<format_version>.",
         examples=["orchard-gate"],
     )
+    # the overrides applied when the spec was loaded, as (dotted key, JSON value), sorted: they tag its variants' ids
+    _overrides: tuple[tuple[str, str], ...] = PrivateAttr(default=())
+
+    @property
+    def overrides(self) -> dict[str, Any]:
+        """The overrides this spec was loaded with (dotted keys, plain values); empty for a spec as written."""
+        return {key: json.loads(value) for key, value in self._overrides}
+
+    @property
+    def override_tag(self) -> str:
+        """'' for a spec as written, else '+' and 8 hex digits of its overrides' digest (part of variant ids)."""
+        if not self._overrides:
+            return ""
+        return "+" + hashlib.sha256(json.dumps(self._overrides).encode()).hexdigest()[:8]
     description: str = Field(default="", description="What the task tests, in a sentence or two.",
                              examples=["Two-arm recall after a hall of 6 to 12 steps."])
 

@@ -9,9 +9,10 @@ from __future__ import annotations
 
 import html
 import io
+import json
 import os
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Any, Mapping, Sequence
 
 import yaml
 from PIL import Image
@@ -59,9 +60,10 @@ def _save_gif(path: Path, frames: Sequence[Image.Image]) -> None:
 def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes: int = 2,
                  policy: str = "auto", seed: int = 0, variant_seed: int = 0,
                  progress: bool | None = None) -> Path:
-    """Write the gallery of one spec into ``out/<spec name>/``; returns its HTML index."""
+    """Write the gallery of one spec into ``out/<spec name>/`` (``<spec name>+<digest>`` for a spec with
+    overrides); returns its HTML index."""
     policy = resolve_policy(spec, policy)
-    folder = child_path(out, spec.name)
+    folder = child_path(out, spec.name + spec.override_tag)
     folder.mkdir(parents=True, exist_ok=True)
     report = check_variant(spec, variant_seed)
     items = []
@@ -72,8 +74,13 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
         _save_atomic(folder / png, filmstrip(episode.frames), format="PNG", optimize=False)
         _save_gif(folder / gif, episode.frames)
         items.append((episode, png, gif))
-    text = Path(source).read_text(encoding="utf-8") if Path(source).is_file() else \
-        yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
+    if spec.overrides:      # the spec as run: the file's values with the overrides applied
+        text = f"# {source}, with " + ", ".join(f"{key}={json.dumps(value)}" for key, value in spec.overrides.items()) \
+            + "\n" + yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
+    elif Path(source).is_file():
+        text = Path(source).read_text(encoding="utf-8")
+    else:
+        text = yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
     write_text_atomic(folder / "index.md", _markdown(spec, text, report, items, policy, variant_seed, seed))
     write_text_atomic(folder / "index.html", _html(spec, text, report, items, policy, variant_seed, seed))
     return folder / "index.html"
@@ -136,11 +143,12 @@ def _html(spec: Spec, text: str, report: Report, items: Items, policy: str, vari
 
 
 def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
-            variant_seed: int = 0) -> list[Path]:
-    """Galleries of several specs, plus a top-level index of every spec gallery in ``out``."""
+            variant_seed: int = 0, overrides: Mapping[str, Any] | None = None) -> list[Path]:
+    """Galleries of several specs (each with ``overrides``, dotted keys, applied), plus a top-level
+    index of every spec gallery in ``out``."""
     pages = []
-    for source in sources:
-        spec = resolve_spec(source)
+    specs = [resolve_spec(source, **(overrides or {})) for source in sources]   # all validated before drawing
+    for source, spec in zip(sources, specs):
         pages.append(spec_gallery(spec, source, out, episodes, policy, seed, variant_seed))
     root = Path(out)
     names = sorted(p.parent.name for p in root.glob("*/index.html"))

@@ -72,7 +72,7 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int) 
     each step's agent view beside its ground truth."""
     kind = kind_of(spec)
     policy = resolve_policy(spec, policy)
-    env = make(spec, seed=variant_seed, render_mode="rgb_array")
+    env = make(spec, variant=variant_seed, render_mode="rgb_array", analysis_info=True)
     model = env.model
     choose = kind.policy(policy, model, env.observations, seed + episode)
     typeface = font()

@@ -23,10 +23,11 @@ from tqdm import tqdm
 from .. import __version__
 from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
-from ..kinds import compile_variant, kind_of, make_variant
-from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, manifest_text
+from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
+from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, describe_space, manifest_text
 from ..analysis.report import BaselineJSON, SolverJSON
 from ..spec import Spec
+from ..variant import variant_name
 from .check import check_variant
 from .output import write_text_atomic
 
@@ -228,7 +229,7 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
         index = index_in_split.get(slot.split, 0)
         index_in_split[slot.split] = index + 1
         figures = cache[v["fingerprint"]]
-        variants.append({"id": f"{spec.name}-s{v['seed']}", "split": slot.split, "index": index,
+        variants.append({"id": variant_name(slot.spec, v["seed"]), "split": slot.split, "index": index,
                          "seed": v["seed"], "overrides": slot.overrides, "params": v["params"],
                          "fingerprint": v["fingerprint"], **figures})
     spec_data = spec.model_dump(mode="json")
@@ -237,10 +238,26 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
         "taskgen_version": __version__,
         "spec_sha256": spec_hash(spec),
         "spec": spec_data,
+        **({"spec_overrides": spec.overrides} if spec.overrides else {}),   # --set: part of the variants' ids
         "request": request.as_dict(),
         "family_size": _suite_family_size(spec, points),
+        "observation": _suite_observation(slots, accepted),
         "variants": variants,
     }
+
+
+def _suite_observation(slots: list[_Slot], accepted: list[tuple[_Slot, dict[str, Any]]]) -> dict[str, Any]:
+    """The one observation space of every split: the block widths of the widest variant over every
+    sweep point and held-out range, and the space as plain data (from one variant laid out in them)."""
+    widths = family_widths([slot.spec for slot in slots])
+    if not accepted:
+        return {"widths": widths, "space": None}
+    slot, first = accepted[0]
+    model = compile_variant(make_variant(slot.spec, first["seed"]))
+    observations = family_observations(model, slot.spec, widths)
+    core = kind_of(slot.spec).core([(model, observations)], 1)
+    blocks = {name: [b.start, b.stop] for name, b in core.blocks.items()}
+    return {"widths": widths, "space": describe_space(core.single_observation_space()), "vector_blocks": blocks}
 
 
 def _suite_family_size(spec: Spec, points: list[dict[str, Any]]) -> int | None:
