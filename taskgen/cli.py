@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import sys
 import traceback
 from typing import Any
@@ -18,9 +19,19 @@ from .spec.loader import parse_assignments
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, report_schema, run_check
 from .tools.bench import bench_title, format_all, format_bench, run_bench
-from .tools.output import write_text_atomic
+from .tools.output import locked_folder, refuse_overwrite, write_text_atomic
 
 EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL = 1, 2, 3
+
+
+
+def limit_options(command: Any) -> Any:
+    """--max-work and --max-bytes, on every command that compiles variants."""
+    command = click.option("--max-bytes", type=str, help="Cap on one table or picture in bytes (default 512 MiB, "
+                           "or TASKGEN_MAX_BYTES).")(command)
+    return click.option("--max-work", type=str, help="Cap on states × actions × step limit of one variant "
+                        "(default 2e8, or TASKGEN_MAX_WORK).")(command)
+
 
 set_option = click.option(
     "--set", "sets", multiple=True, metavar="KEY=VALUE",
@@ -43,10 +54,7 @@ def cli() -> None:
 @click.option("--min-gap", default=0.0, show_default=True, type=float,
               help="Fail a variant whose memory gap (optimal − chance mean return) is below this.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
-@click.option("--max-work", type=float, help="Cap on states × actions × step limit of one variant "
-              "(default 2e8, or TASKGEN_MAX_WORK).")
-@click.option("--max-bytes", type=float, help="Cap on one table or picture in bytes (default 512 MiB, "
-              "or TASKGEN_MAX_BYTES).")
+@limit_options
 @click.option("--paths", default=64, show_default=True, type=click.IntRange(min=2),
               help="Hidden values sampled per variant where there are too many to list (a field's paths): "
               "figures are exact on each and averaged with their standard error.")
@@ -54,8 +62,8 @@ def cli() -> None:
               help="Nodes the search for the best memoryless policy may visit per variant; when it ends first, "
               "chance is an interval (bounded) and a check it cannot decide is undecided.")
 @set_option
-def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: float | None,
-          max_bytes: float | None, paths: int, chance_budget: int, sets: tuple[str, ...]) -> None:
+def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: str | None,
+          max_bytes: str | None, paths: int, chance_budget: int, sets: tuple[str, ...]) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
@@ -86,16 +94,18 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
 @click.option("--out", "-o", type=click.Path(dir_okay=False),
               help="Also write the result to this file: Markdown when it ends in .md, else JSON.")
 @set_option
+@limit_options
 def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sync_envs: int | None, as_json: bool,
-          out: str | None, sets: tuple[str, ...]) -> None:
+          out: str | None, sets: tuple[str, ...], max_work: str | None, max_bytes: str | None) -> None:
     """Measure env-steps/s of each SPEC's single and batched envs against references in the same run
     (several SPECS or --all: one row per spec)."""
     if every == bool(specs):
         raise click.UsageError("give SPECS or --all (not both)")
     names = sorted(bundled_specs()) if every else list(specs)
     overrides = parse_assignments(sets)
-    loaded = [resolve_spec(name, **overrides) for name in names]       # every spec validated before any timing
-    results = [run_bench(spec, num_envs=num_envs, budget=seconds, sync_envs=sync_envs) for spec in loaded]
+    with limits.raised(max_work, max_bytes):
+        loaded = [resolve_spec(name, **overrides) for name in names]       # every spec validated before any timing
+        results = [run_bench(spec, num_envs=num_envs, budget=seconds, sync_envs=sync_envs) for spec in loaded]
     data: Any = results[0] if len(results) == 1 else results
     text = json.dumps(data, indent=2)
     table = format_bench(results[0]) if len(results) == 1 else format_all(results, bench_title())
@@ -121,20 +131,31 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="First variant seed; candidates take consecutive seeds.")
 @click.option("--workers", "-j", default=1, show_default=True, type=click.IntRange(min=1),
-              help="Processes for drawing and analysing (the manifest is the same for any number).")
+              help="Processes for drawing and analysing (the manifest is the same for any number); at most the "
+              "number of CPUs unless --force.")
+@click.option("--force", is_flag=True, help="Replace an existing DIR/manifest.yaml; allow more workers than CPUs.")
 @set_option
+@limit_options
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
              disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
-             sets: tuple[str, ...]) -> None:
+             sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool) -> None:
     """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml."""
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
+
+    cpus = os.cpu_count() or 1
+    if workers > cpus and not force:
+        raise click.BadParameter(f"{workers} is more than the {cpus} CPUs of this machine (give --force to run "
+                                 "that many anyway)", param_hint="--workers")
 
     request = SuiteRequest(
         splits=parse_splits(splits) if splits else (("train", 1000), ("test", 200)),
         sweeps=tuple(parse_assignment(item) for item in sweeps), zipped=zipped, disjoint_layouts=disjoint,
         holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed)
-    manifest = build_suite(resolve_spec(spec, **parse_assignments(sets)), request, workers=workers)
-    path = write_manifest(manifest, out)
+    loaded = resolve_spec(spec, **parse_assignments(sets))
+    with limits.raised(max_work, max_bytes), locked_folder(out) as folder:
+        refuse_overwrite([folder / "manifest.yaml"], force, "taskgen variants")
+        manifest = build_suite(loaded, request, workers=workers)
+        path = write_manifest(manifest, out)
     counts: dict[str, int] = {}
     for v in manifest["variants"]:
         counts[v["split"]] = counts.get(v["split"], 0) + 1
@@ -159,8 +180,9 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
 @click.option("--out", "-o", type=click.Path(file_okay=False),
               help="Also write DIR/evaluation.json and DIR/episodes.jsonl (which `taskgen score` reads).")
+@limit_options
 def evaluate(manifest: str, policy: str, split: str, episodes: int, num_envs: int, seed: int, as_json: bool,
-             out: str | None) -> None:
+             out: str | None, max_work: str | None, max_bytes: str | None) -> None:
     """Run a policy on every variant of a split of MANIFEST and score it against the suite's baselines.
 
     Per variant: success rate with an exact (Clopper–Pearson) interval, mean return ± SE, the score
@@ -170,8 +192,9 @@ def evaluate(manifest: str, policy: str, split: str, episodes: int, num_envs: in
     from .tools.evaluate import format_evaluation, load_policy, run_policy, score, suite_spaces, write_episodes
     from .manifest import load_manifest
 
-    chosen = load_policy(policy, *suite_spaces(manifest, split))
-    played = run_policy(chosen, manifest, split, episodes=episodes, num_envs=num_envs, seed=seed)
+    with limits.raised(max_work, max_bytes):
+        chosen = load_policy(policy, *suite_spaces(manifest, split))
+        played = run_policy(chosen, manifest, split, episodes=episodes, num_envs=num_envs, seed=seed)
     result = score(played, load_manifest(manifest), split)
     text = json.dumps(result.to_dict(), indent=2)
     click.echo(text if as_json else format_evaluation(result), nl=as_json)
@@ -208,14 +231,17 @@ def score_command(episodes: str, manifest: str, as_json: bool) -> None:
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first episode.")
 @click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
+@click.option("--force", is_flag=True, help="Replace existing gallery pages and pictures in DIR.")
 @set_option
+@limit_options
 def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int,
-                    sets: tuple[str, ...]) -> None:
+                    sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool) -> None:
     """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
     from .tools.gallery import gallery
 
-    pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
-                    overrides=parse_assignments(sets))
+    with limits.raised(max_work, max_bytes):
+        pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
+                        overrides=parse_assignments(sets), force=force)
     for page in pages:
         click.echo(f"wrote {page}")
 
@@ -244,8 +270,14 @@ def reference(out: str | None) -> None:
     _emit(reference_markdown(), out)
 
 
+def _terminated(signum: int, frame: Any) -> None:
+    """SIGTERM ends a run as Ctrl-C does: temporary files are removed and worker pools stopped."""
+    raise SystemExit(128 + signum)
+
+
 def main() -> None:
     """Entry point: bad input exits 2 with a located message, never a traceback."""
+    signal.signal(signal.SIGTERM, _terminated)
     try:
         cli.main(standalone_mode=False)
     except click.exceptions.Abort:

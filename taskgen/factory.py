@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Any, Iterable, Sequence
 
 import gymnasium as gym
 import yaml
@@ -16,7 +16,9 @@ from .kinds import compile_variant, family_observations, kind_of, make_variant
 from .manifest import (ManifestError, entry_model, is_manifest, load_manifest, split_entries, split_variants,
                        suite_widths)
 from .model import TaskModel
+from .limits import check_bytes
 from .render import ObservationSet
+from .render.observations import observation_bytes
 from .spec import CueTaskSpec, FieldSpec, Spec, load_spec, load_spec_text
 from .spec.loader import record_overrides
 
@@ -163,26 +165,34 @@ def make_vec(spec_or_path: Spec | str | os.PathLike[str], num_envs: int, variant
         if split is None or variant is not None or variants is not None or overrides:
             raise ManifestError(f"{manifest_path}: with a manifest give split= only")
         spec, pool = split_variants(manifest_path, split)
+        _check_batch(num_envs, pool)
         return shell(kind_of(spec).core(pool, num_envs, draw=True))
     if split is not None:
         raise ManifestError("split= needs a manifest written by `taskgen variants`")
     spec = resolve_spec(spec_or_path, **overrides)
-    if variants is None:
-        variants = [0 if variant is None else variant] * num_envs
-    elif variant is not None:
+    if variants is not None and variant is not None:
         raise ValueError("give either variant (one for all) or variants (one per env), not both")
-    variants = list(variants)
-    if len(variants) != num_envs:
-        raise ValueError(f"variants must name one variant per env: {num_envs} needed, got {len(variants)}")
+    chosen = None if variants is None else list(variants)
+    if chosen is not None and len(chosen) != num_envs:
+        raise ValueError(f"variants must name one variant per env: {num_envs} needed, got {len(chosen)}")
+    unique = {0 if variant is None else variant} if chosen is None else set(chosen)
     kind = kind_of(spec)
-    if not kind.pools and len(set(variants)) > 1:
+    if not kind.pools and len(unique) > 1:
         raise ValueError(f"a batch of a {kind.name} spec holds one variant (its hidden values differ per episode): "
                          "give variant=, not several variants")
-    built: dict[int, tuple[TaskModel, ObservationSet]] = {}
-    for v in variants:
-        if v not in built:
-            built[v] = _built(spec, v)
-    return shell(kind.core([built[v] for v in variants], num_envs))
+    built = {v: _built(spec, v) for v in sorted(unique)}
+    _check_batch(num_envs, built.values())           # before any per-environment list or array exists
+    if chosen is None:
+        return shell(kind.core([built[next(iter(unique))]] * num_envs, num_envs))
+    return shell(kind.core([built[v] for v in chosen], num_envs))
+
+
+def _check_batch(num_envs: int, variants: Iterable[tuple[TaskModel, ObservationSet]]) -> None:
+    """Refuse a batch whose per-environment arrays or one step's observations would pass the byte cap,
+    before they are allocated (a step's observations, plus the state, keys and, for a field, a path
+    and its marks per cell)."""
+    each = max(observation_bytes(obs) + 16 * model.layout.num_cells + 256 for model, obs in variants)
+    check_bytes(f"a batch of {num_envs:,} environments (≈{each:,} bytes each)", num_envs * each)
 
 
 ENTRY = "taskgen.factory:make"

@@ -152,3 +152,21 @@ def test_a_tiny_budget_gives_an_interval_that_contains_the_optimum():
     assert stopped.value - 1e-9 <= best <= stopped.upper + 1e-9
     full = search(TableRollout(model, classes))
     assert full.proven and full.value == pytest.approx(best, abs=1e-9)
+
+
+def test_a_search_out_of_work_still_brackets_the_optimum():
+    """Stopped by its work budget (a long horizon's dear bounds), the search says so and its interval
+    still holds the proven optimum of an unlimited search (branch and bound's invariant: common practice);
+    the report tells the user which budget to raise."""
+    from taskgen.analysis.memoryless import describe
+
+    text = yaml.safe_dump({"format_version": 1, "name": "long-wait", "layout": {"corridor": {"length": 6}},
+                           "cue": {"values": 3}, "episode": {"max_steps": 400},
+                           "rewards": {"correct": 1.0, "wrong": -1.0, "step": -0.01, "timeout": -1.0}})
+    model, classes = model_and_classes(text)
+    full = search(TableRollout(model, classes))
+    rollout = TableRollout(model, classes)
+    short = search(rollout, work=rollout.restricted_cost)
+    assert full.proven and not short.proven and short.out_of_work
+    assert short.value - 1e-9 <= full.value <= short.upper + 1e-9
+    assert "stopped at the work budget (raise --max-work)" in describe(short)

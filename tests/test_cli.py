@@ -157,3 +157,99 @@ def test_set_overrides_a_spec_field_on_check_variants_and_gallery(tmp_path):
         refused = _run("check", path, "--set", bad)
         assert refused.returncode == 2 and message in refused.stderr and "Traceback" not in refused.stderr, \
             (bad, refused.stderr)
+
+
+def test_environment_caps_are_read_as_options_never_at_import(tmp_path):
+    """TASKGEN_MAX_WORK / TASKGEN_MAX_BYTES set to inf, nan or text leave --help and `import taskgen`
+    working; a command that uses the caps exits 2 naming the variable; --max-work nan is refused so too."""
+    import os
+
+    path = str(taskgen.bundled_specs()["lantern-hall"])
+    for value in ("inf", "abc"):
+        env = {**os.environ, "TASKGEN_MAX_WORK": value}
+        run = lambda *args: subprocess.run([sys.executable, *args], capture_output=True, text=True, env=env)  # noqa: E731
+        assert run("-m", "taskgen.cli", "--help").returncode == 0
+        assert run("-c", "import taskgen").returncode == 0
+        out = run("-m", "taskgen.cli", "check", path)
+        assert out.returncode == 2 and f"TASKGEN_MAX_WORK: expected a finite number ≥ 1, got '{value}'" in out.stderr
+    out = _run("check", path, "--max-work", "nan")
+    assert out.returncode == 2 and "--max-work: expected a finite number ≥ 1, got 'nan'" in out.stderr
+
+
+def test_variants_refuses_to_overwrite_and_bounds_workers(tmp_path):
+    """A second `variants` into the same folder is refused unless --force; --workers above the CPU count is
+    refused unless --force; a split count in other digits ('²') is a usage error, not a crash."""
+    import os
+
+    path = str(taskgen.bundled_specs()["lantern-hall"])
+    args = ("variants", path, "--out", str(tmp_path), "--split", "train=2")
+    assert _run(*args).returncode == 0
+    again = _run(*args)
+    assert again.returncode == 2 and "manifest.yaml already exists" in again.stderr and "--force" in again.stderr
+    assert _run(*args, "--force").returncode == 0
+    many = _run(*args, "--force", "--workers", str((os.cpu_count() or 1) + 1))
+    assert many.returncode == 0, many.stderr
+    refused = _run("variants", path, "--out", str(tmp_path / "b"), "--workers", str((os.cpu_count() or 1) + 1))
+    assert refused.returncode == 2 and "CPUs of this machine" in refused.stderr
+    odd = _run("variants", path, "--out", str(tmp_path / "c"), "--split", "train=²")
+    assert odd.returncode == 2 and "a split is name=count" in odd.stderr
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads worker processes from /proc")
+def test_sigterm_stops_variants_and_its_workers(tmp_path):
+    """SIGTERM to `variants --workers 2` ends it, no worker process survives it, and no temporary file or
+    manifest is left in --out."""
+    import signal
+    import time
+    from pathlib import Path
+
+    path = str(taskgen.bundled_specs()["orchard-hives"])
+    proc = subprocess.Popen([sys.executable, "-m", "taskgen.cli", "variants", path, "--out", str(tmp_path),
+                             "--split", "train=400", "--workers", "2", "--force"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+
+    def children():
+        found = set()
+        for task in Path(f"/proc/{proc.pid}/task").glob("*/children"):
+            found |= {int(p) for p in task.read_text().split()}
+        return found
+
+    workers = set()
+    for _ in range(600):                     # wait until the pool's workers exist (at most a minute)
+        workers = children() if proc.poll() is None else set()
+        if len(workers) >= 2 or proc.poll() is not None:
+            break
+        time.sleep(0.1)
+    assert len(workers) >= 2 and proc.poll() is None, "the workers never started"
+    proc.send_signal(signal.SIGTERM)
+    proc.wait(timeout=30)
+    alive = set(workers)
+    for _ in range(100):
+        alive = {pid for pid in alive if Path(f"/proc/{pid}").exists() and
+                 "Z" not in (Path(f"/proc/{pid}/stat").read_text().split()[2:3] or ["Z"])}
+        if not alive:
+            break
+        time.sleep(0.1)
+    assert not alive, f"workers {alive} outlived their parent"
+    assert proc.returncode != 0
+    assert not list(tmp_path.glob("*.tmp")) and not list(tmp_path.glob(".*.tmp"))
+    assert not (tmp_path / "manifest.yaml").exists()
+
+
+def test_caps_are_checked_before_the_work_they_bound(tmp_path):
+    """Each cap refuses from an estimate, before the work: a long step limit over few states (each step
+    counted as at least 4,096 state-actions), a field's sampled paths (--paths), a batch's arrays
+    (--num-envs) and a sweep's values; each refusal names the number, the cap and what raises it."""
+    long_hall = tmp_path / "long.yaml"
+    long_hall.write_text(corridor_spec_text(length=24, episode={"max_steps": 100_000}, name="long-hall"))
+    out = _run("check", str(long_hall))
+    assert out.returncode == 2 and "step limit 100000, each step counted as at least 4,096" in out.stderr
+    field = tmp_path / "field.yaml"
+    field.write_text("format_version: 1\nname: wide-field\nlayout: {field: {width: 31, height: 31}}\n")
+    out = _run("check", str(field), "--paths", "100000")
+    assert out.returncode == 2 and "100000 sampled paths" in out.stderr and "(--paths)" in out.stderr
+    out = _run("bench", str(taskgen.bundled_specs()["lantern-hall"]), "--num-envs", "10000000")
+    assert out.returncode == 2 and "a batch of 10,000,000 environments" in out.stderr and "--max-bytes" in out.stderr
+    out = _run("variants", str(taskgen.bundled_specs()["lantern-hall"]), "--out", str(tmp_path / "s"),
+               "--sweep", "layout.corridor.length=0:10000000")
+    assert out.returncode == 2 and "10,000,001 values, more than the 10,000" in out.stderr

@@ -296,3 +296,16 @@ def test_every_variant_of_a_spec_shares_one_observation_space(spec_name, overrid
             if terminated or truncated:
                 obs, _ = env.reset()
     assert len(spaces) == 1 and len(masks) > 1, (spaces, masks)
+
+
+@pytest.mark.parametrize("spec_name", ["lantern-hall", "marsh-stones"])
+def test_step_before_reset_is_refused_by_every_env(spec_name):
+    """Stepping before the first reset raises gymnasium's ResetNeeded, single or batched, cue or field,
+    and charges nothing (the batch's state is untouched)."""
+    with pytest.raises(gym.error.ResetNeeded, match="reset"):
+        taskgen.make(spec_name).step(0)
+    vec = taskgen.make_vec(spec_name, 3)
+    before = vec.core.step_count.copy()
+    with pytest.raises(gym.error.ResetNeeded, match="reset"):
+        vec.step(np.zeros(3, dtype=np.int64))
+    assert np.array_equal(vec.core.step_count, before)

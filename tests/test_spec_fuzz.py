@@ -47,8 +47,10 @@ def _outcome(text: str) -> str:
     obs, _ = env.reset(seed=0)
     assert env.observation_space.contains(obs)
     for a in range(8):
-        obs, reward, *_ = env.step(a % 4)
+        obs, reward, terminated, truncated, _ = env.step(a % env.action_space.n)
         assert np.isfinite(reward)
+        if terminated or truncated:
+            break
     return "task"
 
 
@@ -72,3 +74,27 @@ def test_mutated_example_specs(text):
     """Mutations of every example spec (Hypothesis): a task, a located SpecError, a resource cap, or
     a layout error naming the variant and seed."""
     _outcome(text)
+
+
+# Hostile pieces (issue: hostile input): deep nesting, integers past int64, lone surrogates and control
+# characters in quoted text, explicit tags and YAML 1.1 number spellings, put where a value goes.
+_HOSTILE = st.one_of(
+    st.integers(min_value=1, max_value=600).map(lambda n: "[" * n + "]" * n),
+    st.integers(min_value=2 ** 31, max_value=10 ** 40).map(str),
+    st.sampled_from(['"\\ud800"', '"\\udfff x"', '"a\\x07"', '"\\x1b[31m"', "!!int 3", "!!str x", "! x",
+                     "!!float 1", "010", "0x1F", "1:30", "1_000", "0b101", "&a [*a]"]),
+)
+
+
+@FUZZ
+@given(st.sampled_from(EXAMPLE_TEXTS), st.data())
+def test_hostile_values_in_example_specs(text, data):
+    """A hostile value put in place of any value of an example spec (Hypothesis) gives a located
+    SpecError or a task, never a crash, a RecursionError or an int64 overflow."""
+    lines = text.splitlines()
+    spots = [i for i, line in enumerate(lines) if ": " in line and not line.lstrip().startswith("#")
+             and not line.rstrip().endswith(":")]
+    i = data.draw(st.sampled_from(spots))
+    key = lines[i].split(": ")[0]
+    lines[i] = f"{key}: {data.draw(_HOSTILE)}"
+    _outcome("\n".join(lines) + "\n")

@@ -129,3 +129,33 @@ def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
         assert (truth == PATH).all(axis=2).any()
         marked += bool((agent == MARK).all(axis=2).any())
     assert marked > 0 and episode.success
+
+
+def test_gallery_keeps_what_it_did_not_write(tmp_path):
+    """A gallery run replaces no existing page or picture unless forced; the root index lists only the
+    galleries taskgen wrote, with their names escaped in links (html.parser reads them back), and a root
+    index someone else wrote is left alone unless forced."""
+    from taskgen.tools.output import OutputError
+
+    spec = str(taskgen.bundled_specs()["lantern-hall"])
+    (tmp_path / "notes").mkdir()
+    (tmp_path / "notes" / "index.html").write_text("<p>my own page</p>")
+    (tmp_path / "index.html").write_text("<p>my own index</p>")
+    with pytest.raises(OutputError, match="index.html already exists: taskgen gallery would replace it"):
+        gallery([spec], str(tmp_path), episodes=1)
+    assert (tmp_path / "index.html").read_text() == "<p>my own index</p>"
+    (tmp_path / "index.html").unlink()
+    gallery([spec], str(tmp_path), episodes=1)
+    with pytest.raises(OutputError, match="already exist: taskgen gallery would replace them; give --force"):
+        gallery([spec], str(tmp_path), episodes=1)
+    gallery([spec], str(tmp_path), episodes=1, force=True)
+    parser = _Links()
+    parser.feed((tmp_path / "index.html").read_text())
+    assert parser.targets == ["lantern-hall/index.html"]
+    assert (tmp_path / "notes" / "index.html").read_text() == "<p>my own page</p>"
+    odd = tmp_path / 'x"><script>y'
+    odd.mkdir()
+    (odd / "index.html").write_text(gallery_module.GENERATOR)
+    gallery([spec], str(tmp_path), episodes=1, force=True)
+    page = (tmp_path / "index.html").read_text()
+    assert "<script>" not in page and "x%22%3E%3Cscript%3Ey/index.html" in page

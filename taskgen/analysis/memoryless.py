@@ -15,6 +15,8 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .. import limits
+
 from ..model import TaskModel
 from .dp import optimise
 from .policysearch import NODES, SearchResult, search
@@ -78,6 +80,8 @@ class TableRollout:
         self._value = value.tolist()
         self._gains: dict[tuple[int, int], list[float]] = {}
         self._pool = _TwinPool.of(model) if model.cue is not None else None
+        # what one restricted bound costs, as the search's work budget counts it (a backward pass)
+        self.restricted_cost = model.horizon * max(model.num_states * model.num_actions, limits.STEP_FLOOR)
         self._weight = model.hidden.weights[model.value].tolist()     # a state's hidden value's weight
         self._joint: dict[tuple[int, tuple[int, ...]], float] | None = {}   # None: the per-class bound only
         self._restrict = True          # False where a class is more than the state's (see restricted)
@@ -307,4 +311,5 @@ def describe(result: SearchResult) -> str:
     what = f"branch and bound over the classes trajectories reach: {result.nodes:,} nodes"
     if result.proven:
         return what + "; optimal (proven)"
-    return what + f", stopped at the node budget; no policy scores above {result.upper:.6g}"
+    budget = "the work budget (raise --max-work)" if result.out_of_work else "the node budget (raise --chance-budget)"
+    return what + f", stopped at {budget}; no policy scores above {result.upper:.6g}"

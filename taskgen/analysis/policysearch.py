@@ -28,6 +28,8 @@ from typing import Any, Protocol, Sequence
 
 import numpy as np
 
+from .. import limits
+
 NODES = 500_000          # default work budget of one search, in nodes (deterministic, unlike a time limit)
 TOLERANCE = 1e-12
 TRIAL, PAYS = 200, 4       # the dear bound is dropped after TRIAL tries if it pruned fewer than 1 in PAYS
@@ -74,6 +76,7 @@ class SearchResult:
     nodes: int
     seconds: float
     classes: int                # observation classes assigned by the best policy
+    out_of_work: bool = False   # stopped by the work budget (not the node budget)
 
     @property
     def method(self) -> str:
@@ -81,9 +84,14 @@ class SearchResult:
         return "exact" if self.proven else "bounded"
 
 
-def search(rollout: Rollout, budget: int = NODES, incumbent: tuple[float, dict[Any, int]] | None = None
-           ) -> SearchResult:
-    """Branch and bound to the best deterministic memoryless policy (or an interval, at the budget)."""
+def search(rollout: Rollout, budget: int = NODES, incumbent: tuple[float, dict[Any, int]] | None = None,
+           work: int | None = None) -> SearchResult:
+    """Branch and bound to the best deterministic memoryless policy (or an interval, at the budget: ``budget``
+    nodes, or ``work`` state-action-steps of the rollout's restricted bounds, by default
+    ``limits.search_work()``, so that a long horizon cannot make the search run for minutes)."""
+    work = limits.search_work() if work is None else work
+    cost = int(getattr(rollout, "restricted_cost", 0))
+    spent = [0]
     weights, A = list(rollout.weights), rollout.num_actions
     K = len(weights)
     positions = rollout.starts()
@@ -116,6 +124,7 @@ def search(rollout: Rollout, budget: int = NODES, incumbent: tuple[float, dict[A
             total += max(sum(weights[i] * row[a] for i, row in zip(members, rows)) for a in range(A))
         if total > best_value + TOLERANCE and opens and (tried[0] < TRIAL or tried[1] * PAYS >= tried[0]):
             kept = rollout.restricted(opens, policy)
+            spent[0] += cost
             if kept is not None:
                 tried[0] += 1
                 tried[1] += gathered + kept <= best_value + TOLERANCE
@@ -129,7 +138,7 @@ def search(rollout: Rollout, budget: int = NODES, incumbent: tuple[float, dict[A
         value = bound()
         if value <= best_value + TOLERANCE:
             return True
-        if nodes >= budget:
+        if nodes >= budget or spent[0] > work:
             open_bound = max(open_bound, value)
             return False
         unassigned = {waiting[i] for i in range(K) if waiting[i] is not None}
@@ -168,4 +177,4 @@ def search(rollout: Rollout, budget: int = NODES, incumbent: tuple[float, dict[A
         sys.setrecursionlimit(limit)
     upper = best_value if proven else max(open_bound, best_value)
     return SearchResult(best_policy, float(best_value), float(upper), proven, nodes, time.perf_counter() - start,
-                        len(best_policy))
+                        len(best_policy), out_of_work=not proven and spent[0] > work)

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import minimize
 
+from .. import limits
 from ..model import TaskModel
 
 ITERATIONS = 200         # exact evaluations (return and gradient of every start) at most,
@@ -107,6 +108,10 @@ def best_stochastic(model: TaskModel, classes: np.ndarray, starts: list[np.ndarr
         if value > best_value:
             best_value, best_policy = value, pi
     iterations = min(iterations, max(MIN_ITERATIONS, WORK // (theta.size * model.num_states * model.horizon // O)))
+    # each evaluation is a forward and a backward pass over the horizon: bounded by the analyses' work
+    # budget too, counting each step as at least limits.STEP_FLOOR state-actions (a long horizon)
+    per_evaluation = 2 * R * model.horizon * max(model.num_states * model.num_actions, limits.STEP_FLOOR)
+    iterations = max(1, min(iterations, limits.ascent_work() // per_evaluation))
 
     def negative(x: np.ndarray) -> tuple[float, np.ndarray]:
         nonlocal best_value, best_policy

@@ -14,6 +14,7 @@ from typing import Any, Sequence
 
 import numpy as np
 from gymnasium import spaces
+from gymnasium.error import ResetNeeded
 from gymnasium.vector import AutoresetMode, VectorEnv
 from gymnasium.vector.utils import batch_space
 
@@ -130,7 +131,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
             raise ValueError(f"actions must be {self.num_envs} integers in [0, {self._num_actions}), "
                              f"got {actions!r}")
         if not self._started:
-            raise ValueError("call reset() before step()")
+            raise ResetNeeded("call reset() before step()")
         resetting = self._autoreset
         mode = self.autoreset_mode
         if mode is not AutoresetMode.NEXT_STEP and resetting.any():

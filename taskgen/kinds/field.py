@@ -176,6 +176,11 @@ class FieldKind:
         """The path rule, and a model over ``samples`` paths from the variant seed (its tables are
         built when an analysis first reads them; a runtime never does)."""
         rule = compile_rule(variant)
+        field = _field_spec(variant.spec).layout.field
+        # the analyses' tables over every sampled path, bounded before a path is drawn
+        check_work(f"{variant.variant_id}: {samples} sampled paths", samples * rule.num_cells *
+                   ((field.misstep.limit or 0) + 1), rule.num_actions, rule.horizon,
+                   "analyse fewer paths (--paths) or raise the cap with --max-work or TASKGEN_MAX_WORK")
         return rule.model(rule.sample(variant.seed, samples), variant.seed, deferred=True)
 
     def observations(self, model: TaskModel, spec: Observation) -> ObservationSet:

@@ -112,6 +112,15 @@ def observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
                           model.cue.values if model.cue is not None else 0)
 
 
+def observation_bytes(obs: ObservationSet) -> int:
+    """Bytes of one observation of every modality (what a batch allocates per environment and step)."""
+    total = 4 * obs.vector.size if obs.vector is not None else 0
+    for table in (obs.grid, obs.pixels, obs.first_person):
+        if table is not None:
+            total += int(np.prod(table.shape[1:])) * table.itemsize
+    return total
+
+
 def widened(obs: ObservationSet, widths: Mapping[str, int]) -> ObservationSet:
     """``obs`` with its vector blocks as wide as ``widths`` says (those it names; zeros fill each block
     past the variant's own width), so every variant of a spec family has one observation space. A

@@ -5,7 +5,9 @@ from __future__ import annotations
 import difflib
 import json
 import os
-from pathlib import Path
+import re
+import stat
+import unicodedata
 from typing import Any, Mapping, Sequence
 
 import yaml
@@ -27,6 +29,7 @@ class _Positions:
         self.keys: dict[PathKey, tuple[int, int]] = {}
         self.overridden: dict[PathKey, str] = {}
         self.bool_words: dict[PathKey, str] = {}   # unquoted words YAML 1.1 read as booleans
+        self.big_ints: list[PathKey] = []           # integers past MAX_INT
         self.count = 0
 
     def locate(self, path: PathKey, field: str, at_key: bool = False) -> Location:
@@ -48,6 +51,57 @@ def _mark(node: yaml.Node) -> tuple[int, int]:
 
 
 MAX_NODES = 100_000   # a hand-written spec has hundreds; aliases must not multiply them
+MAX_DEPTH = 50        # nesting levels; a spec has about five
+MAX_SPEC_BYTES = 1 << 20   # a spec file or text is refused above 1 MiB, before it is parsed
+MAX_INT = 2 ** 31 - 1      # integers in a spec (larger ones would overflow the tables' int64 arithmetic)
+
+# YAML 1.1 integers and floats that people do not mean: octal (010 is 8), hexadecimal, binary,
+# sexagesimal (1:30 is 90) and digit groups (1_000); refused with a hint, as the boolean words are
+_YAML11_NUMBER = re.compile(r"^[-+]?(0[0-7]+|0x[0-9a-fA-F_]+|0b[01_]+|[0-9][0-9_]*(:[0-5]?[0-9])+(\.[0-9_]*)?|"
+                            r"[0-9.]*_[0-9_.]*([eE][-+]?[0-9]+)?)$")
+
+
+def _refused_text(value: str) -> str | None:
+    """What makes a text unfit for a spec (a lone surrogate or a control character other than newline
+    and tab), or None."""
+    for char in value:
+        category = unicodedata.category(char)
+        if category == "Cs" or (category == "Cc" and char not in "\n\t"):
+            return f"the character U+{ord(char):04X} (a {'lone surrogate' if category == 'Cs' else 'control character'})"
+    return None
+
+
+class _Loader(yaml.SafeLoader):
+    """PyYAML's safe loader that refuses, while composing, what a spec must not hold: explicit tags on
+    any node and nesting deeper than MAX_DEPTH (so a hostile document fails early and located)."""
+
+    source = "<spec>"
+
+    def __init__(self, stream: str) -> None:
+        super().__init__(stream)
+        self._paths: list[PathKey] = [()]     # the field path of each node being composed
+
+    def _refuse(self, mark: Any, path: PathKey, expected: str, found: str) -> SpecError:
+        return SpecError(Location(self.source, mark.line + 1, mark.column + 1, _dotted(path)), expected, found)
+
+    def compose_node(self, parent: Any, index: Any) -> Any:
+        event = self.peek_event()
+        path = self._paths[-1]
+        if isinstance(index, yaml.ScalarNode):        # a mapping's value, under its key
+            path = path + (index.value,)
+        elif isinstance(index, int) and not isinstance(index, bool):
+            path = path + (index,)
+        tag = getattr(event, "tag", None)
+        if tag is not None and not isinstance(event, yaml.AliasEvent):
+            raise self._refuse(event.start_mark, path, "expected plain YAML without tags",
+                               "the tag " + str(tag).replace("tag:yaml.org,2002:", "!!"))
+        if len(self._paths) > MAX_DEPTH:
+            raise self._refuse(event.start_mark, path, f"expected at most {MAX_DEPTH} levels of nesting", "deeper")
+        self._paths.append(path)
+        try:
+            return super().compose_node(parent, index)
+        finally:
+            self._paths.pop()
 
 
 def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positions,
@@ -64,14 +118,7 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
         line, col = _mark(node)
         raise SpecError(Location(pos.source, line, col, _dotted(path)),
                         "expected no alias inside the value it names", "a recursive alias")
-    open_nodes = open_nodes | {id(node)}
-    plain: dict[type[yaml.Node], str] = {yaml.MappingNode: "tag:yaml.org,2002:map",
-                                         yaml.SequenceNode: "tag:yaml.org,2002:seq"}
-    if type(node) in plain and node.tag != plain[type(node)]:
-        line, col = _mark(node)
-        raise SpecError(Location(pos.source, line, col, _dotted(path)),
-                        "expected plain YAML without tags",
-                        "the tag " + node.tag.replace("tag:yaml.org,2002:", "!!"))
+    open_nodes = open_nodes | {id(node)}     # (explicit tags were refused while composing: see _Loader)
     if isinstance(node, yaml.MappingNode):
         out: dict[Any, Any] = {}
         for key_node, value_node in node.value:
@@ -80,10 +127,10 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
                 raise SpecError(Location(pos.source, line, col, _dotted(path)),
                                 "expected plain keys (merge keys are not supported)", "<<")
             key = loader.construct_object(key_node, deep=True)
-            if not isinstance(key, str):
+            if not isinstance(key, str) or _refused_text(key):
                 line, col = _mark(key_node)
                 raise SpecError(Location(pos.source, line, col, ".".join(map(str, path))),
-                                "expected a text key", describe(key))
+                                "expected a text key", _refused_text(key) if isinstance(key, str) else describe(key))
             child = path + (key,)
             if key in out:
                 line, col = _mark(key_node)
@@ -98,7 +145,18 @@ def _walk(loader: yaml.SafeLoader, node: yaml.Node, path: PathKey, pos: _Positio
         return [_walk(loader, item, path + (i,), pos, open_nodes) for i, item in enumerate(node.value)]
     if node.tag == "tag:yaml.org,2002:bool" and node.value.lower() not in ("true", "false"):
         pos.bool_words[path] = node.value
-    return loader.construct_object(node, deep=True)
+    line, col = _mark(node)
+    where = Location(pos.source, line, col, _dotted(path))
+    if node.tag in ("tag:yaml.org,2002:int", "tag:yaml.org,2002:float") and _YAML11_NUMBER.match(node.value):
+        raise SpecError(where, "expected a decimal number", f"{node.value[:40]!r}, which YAML 1.1 reads as "
+                        f"{loader.construct_object(node)!r:.40}; write it in decimal digits (or in quotes "
+                        "to mean the text)")
+    value = loader.construct_object(node, deep=True)
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) > MAX_INT:
+        pos.big_ints.append(path)     # refused after validation, unless a field's own bound says more
+    if isinstance(value, str) and _refused_text(value):
+        raise SpecError(where, "expected printable text", _refused_text(value) or "")
+    return value
 
 
 def _dotted(path: PathKey) -> str:
@@ -118,8 +176,12 @@ def parse_yaml(text: str, source: str = "<spec>") -> tuple[Any, _Positions]:
     """Parse one YAML document with the safe loader, keeping node positions."""
     pos = _Positions(source)
     loader = None
+    size = len(text.encode("utf-8", "surrogatepass"))
+    if size > MAX_SPEC_BYTES:
+        raise SpecError(Location(source), f"expected a spec of at most {MAX_SPEC_BYTES:,} bytes", f"{size:,} bytes")
     try:
-        loader = yaml.SafeLoader(text)
+        loader = _Loader(text)
+        loader.source = source
         node = loader.get_single_node()
         if node is None:
             raise SpecError(Location(source, 1, 1), "expected a YAML mapping", "an empty document")
@@ -226,6 +288,10 @@ def _translate(err: Mapping[str, Any], pos: _Positions, root: type[BaseModel]) -
                          f"write it with a dot, as {_float_text(value)}")
     if kind in words:
         return SpecError(pos.locate(path, field), f"expected {words[kind]}", describe(value))
+    if kind in ("too_long", "too_short"):
+        count = ctx.get("max_length") if kind == "too_long" else ctx.get("min_length")
+        return SpecError(pos.locate(path, field), f"expected {'at most' if kind == 'too_long' else 'at least'} "
+                         f"{count} item{'s' if count != 1 else ''}", f"{ctx.get('actual_length', 'another number')}")
     if kind == "literal_error":
         return SpecError(pos.locate(path, field), f"expected {ctx.get('expected')}", describe(value))
     if kind == "string_pattern_mismatch":
@@ -292,6 +358,13 @@ def validate_data(data: Any, pos: _Positions, overrides: Mapping[str, Any] | Non
         errors = [_translate(e, pos, root) for e in raw if not _explained_by_typo(e, raw)]
         errors.sort(key=lambda e: (e.location.line or 0, e.location.column or 0))
         raise (errors[0] if len(errors) == 1 else SpecErrors(errors)) from None
+    if pos.big_ints:    # a field without an upper bound of its own: the tables' int64 arithmetic is the bound
+        path = pos.big_ints[0]
+        value: Any = data
+        for part in path:
+            value = value[part]
+        raise SpecError(pos.locate(path, _dotted(path)), f"expected an integer of at most {MAX_INT:,} in size",
+                        f"one of {len(str(abs(value)))} digits")
     if overrides:
         record_overrides(spec, overrides)
     return spec
@@ -331,10 +404,33 @@ def load_spec_text(text: str, source: str = "<spec>", **overrides: Any) -> Spec:
 def load_spec(path: str | os.PathLike[str], **overrides: Any) -> Spec:
     """Read and validate a spec file. Overrides use ``__`` between keys: ``layout__corridor__length=9``."""
     source = os.fspath(path)
+    return load_spec_text(read_spec_file(source), source, **overrides)
+
+
+def read_spec_file(source: str) -> str:
+    """The text of a spec file: a regular file of at most MAX_SPEC_BYTES, in UTF-8. A FIFO, a device or a
+    folder is refused by its type before it is opened (reading one could block or never end)."""
     try:
-        text = Path(source).read_text(encoding="utf-8")
+        info = os.stat(source)
     except FileNotFoundError:
         raise SpecError(Location(source), "expected a spec file", "no such file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise SpecError(Location(source), "expected a readable UTF-8 file", str(exc)) from None
-    return load_spec_text(text, source, **overrides)
+    except OSError as exc:
+        raise SpecError(Location(source), "expected a readable spec file", exc.strerror or str(exc)) from None
+    if not stat.S_ISREG(info.st_mode):
+        kind = "a folder" if stat.S_ISDIR(info.st_mode) else "a FIFO" if stat.S_ISFIFO(info.st_mode) else \
+            "a device" if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode) else "a special file"
+        raise SpecError(Location(source), "expected a regular spec file", kind)
+    if info.st_size > MAX_SPEC_BYTES:
+        raise SpecError(Location(source), f"expected a spec of at most {MAX_SPEC_BYTES:,} bytes", f"{info.st_size:,} bytes")
+    try:
+        with open(source, "rb") as handle:
+            data = handle.read(MAX_SPEC_BYTES + 1)    # a file that grew since: read no further than the cap
+    except OSError as exc:
+        raise SpecError(Location(source), "expected a readable spec file", exc.strerror or str(exc)) from None
+    if len(data) > MAX_SPEC_BYTES:
+        raise SpecError(Location(source), f"expected a spec of at most {MAX_SPEC_BYTES:,} bytes", "more")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise SpecError(Location(source), "expected UTF-8 text", f"the byte 0x{data[exc.start]:02x} at offset "
+                        f"{exc.start}") from None

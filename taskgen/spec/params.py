@@ -18,8 +18,8 @@ def describe(value: Any) -> str:
         return "true" if value else "false"
     if isinstance(value, (int, float)):
         return repr(value)
-    if isinstance(value, str):
-        return repr(value)
+    if isinstance(value, str):   # a long text is cut, so an error message stays one line
+        return repr(value) if len(value) <= 60 else f"{value[:50]!r}… ({len(value):,} characters)"
     if isinstance(value, dict):
         return "a mapping"
     if isinstance(value, (list, tuple)):

@@ -11,8 +11,10 @@ import html
 import io
 import json
 import os
+from dataclasses import replace
 from pathlib import Path
 from typing import Any, Mapping, Sequence
+from urllib.parse import quote
 
 import yaml
 from PIL import Image
@@ -23,7 +25,7 @@ from ..factory import resolve_spec
 from ..kinds import kind_of
 from ..spec import Spec
 from .check import check_variant
-from .output import child_path, write_bytes_atomic, write_text_atomic
+from .output import child_path, locked_folder, refuse_overwrite, write_bytes_atomic, write_text_atomic
 from .playback import VIEW_HEIGHT, Episode, record, resolve_policy
 
 POLICIES = ("auto", "optimal", "random", "chance", "explorer")
@@ -42,6 +44,10 @@ def filmstrip(frames: Sequence[Image.Image], per_row: int = PER_ROW) -> Image.Im
     for i, frame in enumerate(frames):
         sheet.paste(frame, ((i % per_row) * w, (i // per_row) * h))
     return sheet
+
+
+GENERATOR = '<meta name="generator" content="taskgen gallery">'   # marks the pages taskgen wrote
+MD_MARK = "<!-- written by taskgen gallery -->"
 
 
 def _save_atomic(path: Path, image: Image.Image, **options: Any) -> None:
@@ -73,7 +79,7 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
         png, gif = f"episode-{e}.png", f"episode-{e}.gif"
         _save_atomic(folder / png, filmstrip(episode.frames), format="PNG", optimize=False)
         _save_gif(folder / gif, episode.frames)
-        items.append((episode, png, gif))
+        items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
     if spec.overrides:      # the spec as run: the file's values with the overrides applied
         text = f"# {source}, with " + ", ".join(f"{key}={json.dumps(value)}" for key, value in spec.overrides.items()) \
             + "\n" + yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
@@ -131,7 +137,7 @@ def _html(spec: Spec, text: str, report: Report, items: Items, policy: str, vari
         f"<h2>Episode {ep.index}: return {ep.total_return:+.3f}, {'success' if ep.success else 'no success'}</h2>"
         f'<p><img src="{png}" alt="episode {ep.index} filmstrip"></p><p><a href="{gif}">animation</a></p>'
         for ep, png, gif in items)
-    return (f"<!DOCTYPE html><html><head><meta charset=\"utf-8\"><title>{e(spec.name)}</title></head><body>"
+    return (f"<!DOCTYPE html><html><head><meta charset=\"utf-8\">{GENERATOR}<title>{e(spec.name)}</title></head><body>"
             f"<h1>{e(spec.name)}</h1><p>{e(spec.description or '')}</p>"
             f"<p>Variant <code>{e(report.variant_id)}</code> (variant seed {variant_seed}); episodes seeded from "
             f"{seed}; policy: {e(kind_of(spec).policies[policy])}.</p>"
@@ -142,20 +148,43 @@ def _html(spec: Spec, text: str, report: Report, items: Items, policy: str, vari
             f"{body}<h2>Spec</h2><pre>{e(text)}</pre></body></html>\n")
 
 
+def spec_outputs(spec: Spec, out: str | os.PathLike[str], episodes: int) -> list[Path]:
+    """The files a spec's gallery writes (its folder's pages and pictures)."""
+    folder = child_path(out, spec.name + spec.override_tag)
+    return [folder / "index.html", folder / "index.md"] + \
+        [folder / f"episode-{e}.{ext}" for e in range(episodes) for ext in ("png", "gif")]
+
+
+def _ours(page: Path) -> bool:
+    """Whether an index page was written by taskgen gallery (it carries the generator line)."""
+    try:
+        with open(page, encoding="utf-8", errors="replace") as handle:
+            head = handle.read(4096)
+    except OSError:
+        return False
+    return GENERATOR in head or MD_MARK in head
+
+
 def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
-            variant_seed: int = 0, overrides: Mapping[str, Any] | None = None) -> list[Path]:
+            variant_seed: int = 0, overrides: Mapping[str, Any] | None = None, force: bool = False) -> list[Path]:
     """Galleries of several specs (each with ``overrides``, dotted keys, applied), plus a top-level
-    index of every spec gallery in ``out``."""
-    pages = []
+    index of the spec galleries in ``out``. Existing pages and pictures are replaced only with ``force``
+    (the root index also when taskgen wrote it); one run at a time writes into ``out``."""
     specs = [resolve_spec(source, **(overrides or {})) for source in sources]   # all validated before drawing
-    for source, spec in zip(sources, specs):
-        pages.append(spec_gallery(spec, source, out, episodes, policy, seed, variant_seed))
     root = Path(out)
-    names = sorted(p.parent.name for p in root.glob("*/index.html"))
-    md = ["# Episode galleries", "", "One page per spec: filmstrips, animations, baselines and the spec.", ""]
-    md += [f"- [{n}]({n}/index.md)" for n in names]
-    links = "".join(f'<li><a href="{n}/index.html">{html.escape(n)}</a></li>' for n in names)
-    write_text_atomic(root / "index.md", "\n".join(md) + "\n")
-    write_text_atomic(root / "index.html", "<!DOCTYPE html><html><head><meta charset=\"utf-8\"><title>Episode "
-                      f"galleries</title></head><body><h1>Episode galleries</h1><ul>{links}</ul></body></html>\n")
+    with locked_folder(root):
+        mine = [path for spec in specs for path in spec_outputs(spec, root, episodes)]
+        mine += [page for page in (root / "index.html", root / "index.md") if page.exists() and not _ours(page)]
+        refuse_overwrite(mine, force, "taskgen gallery")
+        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed)
+                 for source, spec in zip(sources, specs)]
+        names = sorted(p.parent.name for p in root.glob("*/index.html") if _ours(p))   # taskgen's galleries only
+        md = ["# Episode galleries", "", MD_MARK, "", "One page per spec: filmstrips, animations, baselines and the spec.",
+              ""]
+        md += [f"- [{n}]({quote(n)}/index.md)" for n in names]
+        links = "".join(f'<li><a href="{html.escape(quote(n))}/index.html">{html.escape(n)}</a></li>' for n in names)
+        write_text_atomic(root / "index.md", "\n".join(md) + "\n")
+        write_text_atomic(root / "index.html", f"<!DOCTYPE html><html><head><meta charset=\"utf-8\">{GENERATOR}<title>"
+                          "Episode galleries</title></head><body><h1>Episode galleries</h1><ul>"
+                          f"{links}</ul></body></html>\n")
     return pages

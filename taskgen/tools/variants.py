@@ -9,9 +9,14 @@ decided in seed order in this process, so the manifest is byte-identical for any
 
 from __future__ import annotations
 
+import ctypes
 import hashlib
 import itertools
 import json
+import math
+import os
+import signal
+import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -20,7 +25,7 @@ from typing import Any, Callable, Iterable, Sequence
 import yaml
 from tqdm import tqdm
 
-from .. import __version__
+from .. import __version__, limits
 from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
 from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
@@ -32,6 +37,8 @@ from .check import check_variant
 from .output import write_text_atomic
 
 CHUNK = 256              # candidates drawn per round, whatever the worker count
+MAX_SWEEP_VALUES = 10_000    # values of one swept key
+MAX_SWEEP_POINTS = 100_000   # points of all sweeps together (each point gets every split)
 MAX_REFUSALS = 20        # give up after this many refused candidates per requested variant (plus 1000)
 
 
@@ -73,6 +80,9 @@ def parse_values(text: str) -> tuple[Any, ...]:
         step = numbers[2] if len(numbers) == 3 else 1
         if len(numbers) not in (2, 3) or step <= 0:
             raise SuiteError(f"a range is low:high or low:high:step with a step ≥ 1, got {text!r}")
+        if len(range(low, high + 1, step)) > MAX_SWEEP_VALUES:
+            raise SuiteError(f"{text!r} has {len(range(low, high + 1, step)):,} values, more than the "
+                             f"{MAX_SWEEP_VALUES:,} a sweep may take")
         values = tuple(range(low, high + 1, step))
     else:
         values = tuple(yaml.safe_load(v) for v in text.split(",") if v.strip() != "")
@@ -100,6 +110,9 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
         return [{}]
     keys = [k for k, _ in request.sweeps]
     value_lists = [v for _, v in request.sweeps]
+    count = math.prod(len(v) for v in value_lists) if not request.zipped else len(value_lists[0])
+    if count > MAX_SWEEP_POINTS:
+        raise SuiteError(f"the sweeps make {count:,} points, more than the {MAX_SWEEP_POINTS:,} a suite may have")
     if request.zipped:
         if len({len(v) for v in value_lists}) != 1:
             raise SuiteError("zipped sweeps need equally many values: "
@@ -113,6 +126,20 @@ def sweep_points(request: SuiteRequest) -> list[dict[str, Any]]:
 def family_size(spec: Spec) -> int | None:
     """How many distinct variants the spec can produce, where that is countable (else None)."""
     return kind_of(spec).family_size(spec)
+
+
+def _worker_start(caps: limits.Limits) -> None:
+    """A pool worker: the parent's caps, the default SIGTERM action, and on Linux a SIGTERM when the
+    parent dies (prctl PR_SET_PDEATHSIG), so that no worker outlives the run that started it."""
+    limits.install(caps)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    if sys.platform.startswith("linux"):
+        try:
+            ctypes.CDLL(None).prctl(1, signal.SIGTERM)      # 1 = PR_SET_PDEATHSIG
+        except (OSError, AttributeError):
+            pass
+        if os.getppid() == 1:                               # the parent died before prctl took effect
+            os._exit(1)
 
 
 def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
@@ -183,7 +210,8 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
     param_name = holdout_key.split(".")[-1] if holdout_key else None
     next_seed = request.seed
     total = sum(s.wanted for s in slots)
-    pool = ProcessPoolExecutor(max_workers=workers) if workers > 1 else None
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_start, initargs=(limits.current(),)) \
+        if workers > 1 else None
     run: Callable[..., Any] = (lambda fn, jobs: list(pool.map(fn, jobs, chunksize=8))) if pool else \
         (lambda fn, jobs: [fn(j) for j in jobs])
     try:
@@ -219,9 +247,12 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
             order = sorted(unique)
             for fp, figures in zip(order, run(_figures, [unique[fp] for fp in order])):
                 cache[fp] = figures
-    finally:
+    except BaseException:     # an error, Ctrl-C or SIGTERM: drop the queued work, do not wait for it
         if pool:
-            pool.shutdown()
+            pool.shutdown(wait=False, cancel_futures=True)
+        raise
+    if pool:
+        pool.shutdown()
 
     variants = []
     index_in_split: dict[str, int] = {}
@@ -313,7 +344,7 @@ def parse_splits(items: Sequence[str]) -> tuple[tuple[str, int], ...]:
     out = []
     for item in items:
         name, _, count = item.partition("=")
-        if not name or not count.isdigit():
+        if not name or not (count.isascii() and count.isdigit()):
             raise SuiteError(f"a split is name=count, got {item!r}")
         out.append((name, int(count)))
     return tuple(out)
@@ -323,5 +354,8 @@ def parse_assignment(item: str) -> tuple[str, tuple[Any, ...]]:
     """``key=values`` (see parse_values) into a key and its values."""
     key, _, values = item.partition("=")
     if not key or not values:
-        raise SuiteError(f"expected key=values, got {item!r}")
-    return key, parse_values(values)
+        raise SuiteError(f"expected key=values, got {item[:80]!r}")
+    try:
+        return key, parse_values(values)
+    except SuiteError as exc:
+        raise SuiteError(f"{key}: {exc}") from None
