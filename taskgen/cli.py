@@ -62,8 +62,13 @@ def cli() -> None:
               help="Nodes the search for the best memoryless policy may visit per variant; when it ends first, "
               "chance is an interval (bounded) and a check it cannot decide is undecided.")
 @set_option
+@click.option("--workers", "-j", default=1, show_default=True, type=click.IntRange(min=1),
+              help="Processes to analyse variants in (at most the number of CPUs).")
+@click.option("--scheduler", metavar="ADDRESS|local:N", help="Analyse variants on Dask (see `taskgen variants`).")
+@click.option("--quiet", "-q", is_flag=True, help="No progress.")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: str | None,
-          max_bytes: str | None, paths: int, chance_budget: int, sets: tuple[str, ...]) -> None:
+          max_bytes: str | None, paths: int, chance_budget: int, sets: tuple[str, ...], workers: int,
+          scheduler: str | None, quiet: bool) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
@@ -75,8 +80,11 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     """
     with limits.raised(max_work, max_bytes):
         loaded = resolve_spec(spec, **parse_assignments(sets))
+        if workers > (os.cpu_count() or 1):
+            raise click.BadParameter(f"{workers} is more than the {os.cpu_count()} CPUs of this machine",
+                                     param_hint="--workers")
         run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
-                        budget=chance_budget)
+                        budget=chance_budget, workers=workers, scheduler=scheduler, progress=not quiet)
     click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
 
@@ -134,12 +142,18 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
               help="Processes for drawing and analysing (the manifest is the same for any number); at most the "
               "number of CPUs unless --force.")
 @click.option("--force", is_flag=True, help="Replace an existing DIR/manifest.yaml; allow more workers than CPUs.")
+@click.option("--scheduler", metavar="ADDRESS|local:N",
+              help="Run drawing and analyses on Dask (pip install 'taskgen[dask]'): a running scheduler "
+              "(tcp://host:8786) or local:N, a local cluster of N worker processes for this run.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress (a bar on a terminal, else a line every few seconds).")
 @set_option
 @limit_options
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
              disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
-             sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool) -> None:
-    """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml."""
+             sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool, scheduler: str | None,
+             quiet: bool) -> None:
+    """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml
+    (byte for byte the same for any --workers or --scheduler)."""
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
 
     cpus = os.cpu_count() or 1
@@ -154,7 +168,7 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
     loaded = resolve_spec(spec, **parse_assignments(sets))
     with limits.raised(max_work, max_bytes), locked_folder(out) as folder:
         refuse_overwrite([folder / "manifest.yaml"], force, "taskgen variants")
-        manifest = build_suite(loaded, request, workers=workers)
+        manifest = build_suite(loaded, request, workers=workers, scheduler=scheduler, progress=not quiet)
         path = write_manifest(manifest, out)
     counts: dict[str, int] = {}
     for v in manifest["variants"]:

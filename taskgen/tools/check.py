@@ -10,7 +10,6 @@ from typing import Annotated, Any
 from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
 
 from pydantic import ConfigDict, Field, TypeAdapter, with_config
-from tqdm import tqdm
 
 from ..analysis import Baseline, Figure, Report
 from ..analysis.policysearch import NODES
@@ -18,6 +17,8 @@ from ..analysis.report import BASELINES_EVERY_KIND_HAS, TOLERANCE, BaselineJSON,
 from ..kinds import SAMPLES, all_kinds, compile_variant, kind_of, make_variant, observation_set
 from ..model import TaskModel
 from ..spec import Spec
+from .progress import Progress
+from .scale import Dask, Pool, runner, spec_from_text, spec_text
 
 DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
@@ -176,12 +177,28 @@ def report_schema() -> dict[str, Any]:
 
 
 def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0,
-              paths: int = SAMPLES, budget: int = NODES) -> CheckRun:
-    """Compile and analyse variants ``seed … seed+variants−1``."""
-    reports = [check_variant(spec, s, min_gap, paths, budget)
-               for s in tqdm(range(seed, seed + variants), desc=f"checking {spec.name}", unit="variant",
-                             disable=None if variants > 1 else True, leave=False)]
+              paths: int = SAMPLES, budget: int = NODES, workers: int = 1, scheduler: str | None = None,
+              progress: bool | None = None) -> CheckRun:
+    """Compile and analyse variants ``seed … seed+variants−1`` (in ``workers`` processes, or on a Dask
+    ``scheduler``; the reports are the same wherever they run)."""
+    text = spec_text(spec)
+    jobs = [(text, s, min_gap, paths, budget) for s in range(seed, seed + variants)]
+    where = runner(workers, scheduler)
+    try:
+        with Progress(variants, f"checking {spec.name}", quiet=progress is False or variants == 1) as bar:
+            reports = where.map(_check_job, jobs, bar.update)
+    except BaseException:
+        if isinstance(where, (Pool, Dask)):
+            where.close(wait=False)
+        raise
+    where.close()
     return CheckRun(source=source, spec=spec, reports=reports, min_gap=min_gap)
+
+
+def _check_job(job: tuple[tuple[str, str], int, float, int, int]) -> Report:
+    """One variant's report (runs wherever the runner sends it)."""
+    text, seed, min_gap, paths, budget = job
+    return check_variant(spec_from_text(*text), seed, min_gap, paths, budget)
 
 
 def _baseline_rows(baselines: dict[str, Baseline]) -> list[str]:

@@ -9,23 +9,17 @@ decided in seed order in this process, so the manifest is byte-identical for any
 
 from __future__ import annotations
 
-import ctypes
 import hashlib
 import itertools
 import json
 import math
-import os
-import signal
-import sys
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable, Sequence
 
 import yaml
-from tqdm import tqdm
 
-from .. import __version__, limits
+from .. import __version__
 from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
 from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
@@ -35,6 +29,8 @@ from ..spec import Spec
 from ..variant import variant_name
 from .check import check_variant
 from .output import write_text_atomic
+from .progress import Progress
+from .scale import Dask, Pool, runner, spec_from_text, spec_text
 
 CHUNK = 256              # candidates drawn per round, whatever the worker count
 MAX_SWEEP_VALUES = 10_000    # values of one swept key
@@ -128,31 +124,18 @@ def family_size(spec: Spec) -> int | None:
     return kind_of(spec).family_size(spec)
 
 
-def _worker_start(caps: limits.Limits) -> None:
-    """A pool worker: the parent's caps, the default SIGTERM action, and on Linux a SIGTERM when the
-    parent dies (prctl PR_SET_PDEATHSIG), so that no worker outlives the run that started it."""
-    limits.install(caps)
-    signal.signal(signal.SIGTERM, signal.SIG_DFL)
-    if sys.platform.startswith("linux"):
-        try:
-            ctypes.CDLL(None).prctl(1, signal.SIGTERM)      # 1 = PR_SET_PDEATHSIG
-        except (OSError, AttributeError):
-            pass
-        if os.getppid() == 1:                               # the parent died before prctl took effect
-            os._exit(1)
-
-
-def _draw(job: tuple[Spec, int]) -> tuple[str, dict[str, Any]]:
+def _draw(job: tuple[tuple[str, str], int]) -> tuple[str, dict[str, Any]]:
     """Compile one candidate: its fingerprint and parameter values (runs in a worker)."""
-    spec, seed = job
+    text, seed = job
+    spec = spec_from_text(*text)
     model = compile_variant(make_variant(spec, seed))
     return kind_of(spec).fingerprint(model), model.param_dict()
 
 
-def _figures(job: tuple[Spec, int]) -> dict[str, Any]:
+def _figures(job: tuple[tuple[str, str], int]) -> dict[str, Any]:
     """The analyses of one accepted variant, in the report's contract (runs in a worker)."""
-    spec, seed = job
-    report = check_variant(spec, seed)
+    text, seed = job
+    report = check_variant(spec_from_text(*text), seed)
     return {"baselines": {name: _without_seconds(report.baselines[name].to_dict())
                           for name in ("optimal", "chance", "chance_stochastic", "random")},
             "memory_gap": report.memory_gap.to_dict(), "chance_level": report.chance_level, "checks_ok": report.ok,
@@ -179,8 +162,9 @@ class _Slot:
 
 
 def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
-                progress: bool | None = None) -> dict[str, Any]:
-    """Draw every split and return the manifest as plain data."""
+                progress: bool | None = None, scheduler: str | None = None) -> dict[str, Any]:
+    """Draw every split and return the manifest as plain data (``workers`` processes here, or a Dask
+    ``scheduler``: an address or ``local:N``; the manifest is the same for any of them)."""
     names = [name for name, _ in request.splits]
     if len(set(names)) != len(names) or any(count < 0 for _, count in request.splits):
         raise SuiteError("splits need distinct names and sizes ≥ 0")
@@ -210,18 +194,17 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
     param_name = holdout_key.split(".")[-1] if holdout_key else None
     next_seed = request.seed
     total = sum(s.wanted for s in slots)
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_start, initargs=(limits.current(),)) \
-        if workers > 1 else None
-    run: Callable[..., Any] = (lambda fn, jobs: list(pool.map(fn, jobs, chunksize=8))) if pool else \
-        (lambda fn, jobs: [fn(j) for j in jobs])
+    where = runner(workers, scheduler)
+    run: Callable[..., Any] = where.map
+    texts = {id(slot.spec): spec_text(slot.spec) for slot in slots}
     try:
-        with tqdm(total=total, desc=f"drawing {spec.name}", unit="variant",
-                  disable=None if progress is None else not progress, leave=False) as bar:
+        quiet = progress is False
+        with Progress(total, f"drawing {spec.name}", quiet=quiet) as bar:
             for slot in slots:
                 refused = 0
                 while len(slot.taken) < slot.wanted:
                     seeds = list(range(next_seed, next_seed + CHUNK))
-                    results = run(_draw, [(slot.spec, s) for s in seeds])
+                    results = run(_draw, [(texts[id(slot.spec)], s) for s in seeds])
                     for seed, (fp, params) in zip(seeds, results):
                         next_seed = seed + 1
                         if len(slot.taken) == slot.wanted:
@@ -241,18 +224,18 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
                                          "used or held-out values)")
             accepted = [(slot, v) for slot in slots for v in slot.taken]
             cache: dict[str, dict[str, Any]] = {}
-            unique: dict[str, tuple[Spec, int]] = {}
+            unique: dict[str, tuple[tuple[str, str], int]] = {}
             for slot, v in accepted:
-                unique.setdefault(v["fingerprint"], (slot.spec, v["seed"]))
+                unique.setdefault(v["fingerprint"], (texts[id(slot.spec)], v["seed"]))
             order = sorted(unique)
-            for fp, figures in zip(order, run(_figures, [unique[fp] for fp in order])):
+        with Progress(len(order), f"analysing {spec.name}", unit="layout", quiet=quiet) as bar:
+            for fp, figures in zip(order, run(_figures, [unique[fp] for fp in order], bar.update)):
                 cache[fp] = figures
     except BaseException:     # an error, Ctrl-C or SIGTERM: drop the queued work, do not wait for it
-        if pool:
-            pool.shutdown(wait=False, cancel_futures=True)
+        if isinstance(where, (Pool, Dask)):
+            where.close(wait=False)
         raise
-    if pool:
-        pool.shutdown()
+    where.close()
 
     variants = []
     index_in_split: dict[str, int] = {}
