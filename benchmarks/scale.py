@@ -29,8 +29,8 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--variants", type=int, default=60)
     n = parser.parse_args().variants
-    print(f"| spec | variants | 1 process (v/s) | pool of 2 (v/s) | local:2 with start-up (v/s) | running "
-          f"2-worker cluster (v/s) | running cluster / pool | overhead per variant vs pool (ms) |")
+    print("| spec | variants | 1 process (v/s) | pool of 2 (v/s) | local:2 with start-up (v/s) | running "
+          "2-worker cluster (v/s) | running cluster / pool | overhead per variant vs pool (ms) |")
     print("|---|---:|---:|---:|---:|---:|---:|---:|")
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
                       silence_logs=50) as cluster:
