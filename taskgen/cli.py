@@ -146,12 +146,15 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
               help="Run drawing and analyses on Dask (pip install 'taskgen[dask]'): a running scheduler "
               "(tcp://host:8786) or local:N, a local cluster of N worker processes for this run.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress (a bar on a terminal, else a line every few seconds).")
+@click.option("--baselines", type=click.Choice(["full", "fast", "none"]), default="full", show_default=True,
+              help="Analyses per variant: full (every baseline, the certified chance level and the checks), fast "
+              "(optimal and random only, no chance search) or none.")
 @set_option
 @limit_options
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
              disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
              sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool, scheduler: str | None,
-             quiet: bool) -> None:
+             quiet: bool, baselines: str) -> None:
     """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml
     (byte for byte the same for any --workers or --scheduler)."""
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
@@ -164,7 +167,8 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
     request = SuiteRequest(
         splits=parse_splits(splits) if splits else (("train", 1000), ("test", 200)),
         sweeps=tuple(parse_assignment(item) for item in sweeps), zipped=zipped, disjoint_layouts=disjoint,
-        holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed)
+        holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed,
+        baselines=baselines)
     loaded = resolve_spec(spec, **parse_assignments(sets))
     with limits.raised(max_work, max_bytes), locked_folder(out) as folder:
         refuse_overwrite([folder / "manifest.yaml"], force, "taskgen variants")
@@ -246,16 +250,18 @@ def score_command(episodes: str, manifest: str, as_json: bool) -> None:
               help="Seed of the first episode.")
 @click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
 @click.option("--force", is_flag=True, help="Replace existing gallery pages and pictures in DIR.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress.")
 @set_option
 @limit_options
 def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int,
-                    sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool) -> None:
+                    sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool,
+                    quiet: bool) -> None:
     """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
     from .tools.gallery import gallery
 
     with limits.raised(max_work, max_bytes):
         pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
-                        overrides=parse_assignments(sets), force=force)
+                        overrides=parse_assignments(sets), force=force, progress=not quiet)
     for page in pages:
         click.echo(f"wrote {page}")
 

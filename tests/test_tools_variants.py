@@ -258,3 +258,24 @@ def test_a_field_suite_holds_out_path_turns_and_reloads_its_variants(tmp_path):
         taskgen.make(path, split="train")
     with pytest.raises(SuiteError, match="has only 6"):
         build_suite(spec, SuiteRequest(splits=(("train", 7),), disjoint_layouts=True))
+
+
+def test_baseline_levels_trade_figures_for_speed():
+    """--baselines fast keeps the exact optimal and random baselines (the same numbers as a full suite's)
+    and drops the chance search; none writes no figures; scoring such a suite says what is missing."""
+    from taskgen.tools.evaluate import Episode, EvaluationError, score
+
+    spec = taskgen.load_spec(LANTERN)
+    full, fast, none = (build_suite(spec, SuiteRequest(splits=(("train", 3),), baselines=level))
+                        for level in ("full", "fast", "none"))
+    for a, b, c in zip(full["variants"], fast["variants"], none["variants"]):
+        assert a["id"] == b["id"] == c["id"] and a["fingerprint"] == b["fingerprint"] == c["fingerprint"]
+        assert set(b["baselines"]) == {"optimal", "random"} and "chance_level" not in b
+        for name in ("optimal", "random"):
+            assert b["baselines"][name] == a["baselines"][name]
+        assert "baselines" not in c
+    assert fast["request"]["baselines"] == "fast"
+    with pytest.raises(EvaluationError, match="--baselines fast or none"):
+        score([Episode(fast["variants"][0]["id"], 1.0, True, 3)], fast)
+    with pytest.raises(SuiteError, match="--baselines must be one of"):
+        build_suite(spec, SuiteRequest(splits=(("train", 1),), baselines="some"))

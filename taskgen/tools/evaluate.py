@@ -137,7 +137,10 @@ def _variant_score(entry: dict[str, Any], episodes: list[Episode]) -> VariantSco
     n = len(episodes)
     k = sum(e.success for e in episodes)
     returns = np.array([e.ret for e in episodes])
-    baselines = entry["baselines"]
+    baselines = entry.get("baselines") or {}
+    if "chance" not in baselines:
+        raise EvaluationError(f"variant {entry['id']} has no chance level in the manifest (it was written with "
+                              "--baselines fast or none): write the suite with --baselines full to score against it")
     optimal = _figure(baselines.get("optimal"), "mean_return")
     level = entry.get("chance_level") or {}
     chance = level.get("upper", _figure(baselines.get("chance"), "mean_return"))

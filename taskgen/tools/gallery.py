@@ -18,7 +18,6 @@ from urllib.parse import quote
 
 import yaml
 from PIL import Image
-from tqdm import tqdm
 
 from ..analysis import Report
 from ..factory import resolve_spec
@@ -27,6 +26,7 @@ from ..spec import Spec
 from .check import check_variant
 from .output import child_path, locked_folder, refuse_overwrite, write_bytes_atomic, write_text_atomic
 from .playback import VIEW_HEIGHT, Episode, record, resolve_policy
+from .progress import Progress
 
 POLICIES = ("auto", "optimal", "random", "chance", "explorer")
 PER_ROW = 8
@@ -73,13 +73,14 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
     folder.mkdir(parents=True, exist_ok=True)
     report = check_variant(spec, variant_seed)
     items = []
-    for e in tqdm(range(episodes), desc=f"gallery {spec.name}", unit="episode",
-                  disable=None if progress is None else not progress, leave=False):
-        episode = record(spec, variant_seed, policy, e, seed)
-        png, gif = f"episode-{e}.png", f"episode-{e}.gif"
-        _save_atomic(folder / png, filmstrip(episode.frames), format="PNG", optimize=False)
-        _save_gif(folder / gif, episode.frames)
-        items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
+    with Progress(episodes, f"gallery {spec.name}", unit="episode", quiet=progress is False) as bar:
+        for e in range(episodes):
+            episode = record(spec, variant_seed, policy, e, seed)
+            png, gif = f"episode-{e}.png", f"episode-{e}.gif"
+            _save_atomic(folder / png, filmstrip(episode.frames), format="PNG", optimize=False)
+            _save_gif(folder / gif, episode.frames)
+            items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
+            bar.update(1)
     if spec.overrides:      # the spec as run: the file's values with the overrides applied
         text = f"# {source}, with " + ", ".join(f"{key}={json.dumps(value)}" for key, value in spec.overrides.items()) \
             + "\n" + yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
@@ -166,7 +167,8 @@ def _ours(page: Path) -> bool:
 
 
 def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
-            variant_seed: int = 0, overrides: Mapping[str, Any] | None = None, force: bool = False) -> list[Path]:
+            variant_seed: int = 0, overrides: Mapping[str, Any] | None = None, force: bool = False,
+            progress: bool | None = None) -> list[Path]:
     """Galleries of several specs (each with ``overrides``, dotted keys, applied), plus a top-level
     index of the spec galleries in ``out``. Existing pages and pictures are replaced only with ``force``
     (the root index also when taskgen wrote it); one run at a time writes into ``out``."""
@@ -176,7 +178,7 @@ def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "
         mine = [path for spec in specs for path in spec_outputs(spec, root, episodes)]
         mine += [page for page in (root / "index.html", root / "index.md") if page.exists() and not _ours(page)]
         refuse_overwrite(mine, force, "taskgen gallery")
-        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed)
+        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed, progress)
                  for source, spec in zip(sources, specs)]
         names = sorted(p.parent.name for p in root.glob("*/index.html") if _ours(p))   # taskgen's galleries only
         md = ["# Episode galleries", "", MD_MARK, "", "One page per spec: filmstrips, animations, baselines and the spec.",

@@ -24,6 +24,7 @@ from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
 from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
 from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, describe_space, manifest_text
+from ..analysis.baselines import optimal_baseline, random_baseline
 from ..analysis.report import BaselineJSON, SolverJSON
 from ..spec import Spec
 from ..variant import variant_name
@@ -33,6 +34,7 @@ from .progress import Progress
 from .scale import Dask, Pool, runner, spec_from_text, spec_text
 
 CHUNK = 256              # candidates drawn per round, whatever the worker count
+BASELINE_LEVELS = ("full", "fast", "none")
 MAX_SWEEP_VALUES = 10_000    # values of one swept key
 MAX_SWEEP_POINTS = 100_000   # points of all sweeps together (each point gets every split)
 MAX_REFUSALS = 20        # give up after this many refused candidates per requested variant (plus 1000)
@@ -53,6 +55,7 @@ class SuiteRequest:
     holdout: tuple[str, tuple[int, ...]] | None = None
     holdout_split: str = "test"
     seed: int = 0
+    baselines: str = "full"     # full: every figure; fast: optimal and random only; none: no analyses
 
     def as_dict(self) -> dict[str, Any]:
         """Plain data for the manifest."""
@@ -61,7 +64,7 @@ class SuiteRequest:
                 "holdout": None if self.holdout is None else {"parameter": self.holdout[0],
                                                               "values": list(self.holdout[1]),
                                                               "split": self.holdout_split},
-                "seed": self.seed}
+                "seed": self.seed, "baselines": self.baselines}
 
 
 def parse_values(text: str) -> tuple[Any, ...]:
@@ -142,6 +145,14 @@ def _figures(job: tuple[tuple[str, str], int]) -> dict[str, Any]:
             "details": report.details.to_dict() if report.details is not None else {}}
 
 
+def _fast_figures(job: tuple[tuple[str, str], int]) -> dict[str, Any]:
+    """Only the optimal and the uniform-random baselines (``--baselines fast``): exact on the model, and no
+    search for the chance level, so generation scales to very many variants (runs in a worker)."""
+    text, seed = job
+    model = compile_variant(make_variant(spec_from_text(*text), seed))
+    return {"baselines": {"optimal": optimal_baseline(model).to_dict(), "random": random_baseline(model).to_dict()}}
+
+
 def _without_seconds(baseline: BaselineJSON) -> BaselineJSON:
     """A baseline without its search's wall-clock time, so that a manifest repeats byte for byte."""
     solver = baseline.get("solver")
@@ -165,6 +176,8 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
                 progress: bool | None = None, scheduler: str | None = None) -> dict[str, Any]:
     """Draw every split and return the manifest as plain data (``workers`` processes here, or a Dask
     ``scheduler``: an address or ``local:N``; the manifest is the same for any of them)."""
+    if request.baselines not in BASELINE_LEVELS:
+        raise SuiteError(f"--baselines must be one of {', '.join(BASELINE_LEVELS)}, got {request.baselines!r}")
     names = [name for name, _ in request.splits]
     if len(set(names)) != len(names) or any(count < 0 for _, count in request.splits):
         raise SuiteError("splits need distinct names and sizes ≥ 0")
@@ -227,9 +240,10 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
             unique: dict[str, tuple[tuple[str, str], int]] = {}
             for slot, v in accepted:
                 unique.setdefault(v["fingerprint"], (texts[id(slot.spec)], v["seed"]))
-            order = sorted(unique)
-        with Progress(len(order), f"analysing {spec.name}", unit="layout", quiet=quiet) as bar:
-            for fp, figures in zip(order, run(_figures, [unique[fp] for fp in order], bar.update)):
+            order = sorted(unique) if request.baselines != "none" else []
+        analyse = _figures if request.baselines == "full" else _fast_figures
+        with Progress(len(order), f"analysing {spec.name}", unit="layout", quiet=quiet or not order) as bar:
+            for fp, figures in zip(order, run(analyse, [unique[fp] for fp in order], bar.update)):
                 cache[fp] = figures
     except BaseException:     # an error, Ctrl-C or SIGTERM: drop the queued work, do not wait for it
         if isinstance(where, (Pool, Dask)):
@@ -242,7 +256,7 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
     for slot, v in accepted:
         index = index_in_split.get(slot.split, 0)
         index_in_split[slot.split] = index + 1
-        figures = cache[v["fingerprint"]]
+        figures = cache.get(v["fingerprint"], {})
         variants.append({"id": variant_name(slot.spec, v["seed"]), "split": slot.split, "index": index,
                          "seed": v["seed"], "overrides": slot.overrides, "params": v["params"],
                          "fingerprint": v["fingerprint"], **figures})
