@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import os
+import shutil
 import signal
 import sys
 import traceback
@@ -146,6 +147,8 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
               help="Run drawing and analyses on Dask (pip install 'taskgen[dask]'): a running scheduler "
               "(tcp://host:8786) or local:N, a local cluster of N worker processes for this run.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress (a bar on a terminal, else a line every few seconds).")
+@click.option("--resume", is_flag=True, help="Go on with an interrupted run into the same DIR: the shards of analyses "
+              "it finished (DIR/shards/, checked by hash) are read back, not redone.")
 @click.option("--baselines", type=click.Choice(["full", "fast", "none"]), default="full", show_default=True,
               help="Analyses per variant: full (every baseline, the certified chance level and the checks), fast "
               "(optimal and random only, no chance search) or none.")
@@ -154,7 +157,7 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
              disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
              sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool, scheduler: str | None,
-             quiet: bool, baselines: str) -> None:
+             quiet: bool, baselines: str, resume: bool) -> None:
     """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml
     (byte for byte the same for any --workers or --scheduler)."""
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
@@ -172,8 +175,10 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
     loaded = resolve_spec(spec, **parse_assignments(sets))
     with limits.raised(max_work, max_bytes), locked_folder(out) as folder:
         refuse_overwrite([folder / "manifest.yaml"], force, "taskgen variants")
-        manifest = build_suite(loaded, request, workers=workers, scheduler=scheduler, progress=not quiet)
+        manifest = build_suite(loaded, request, workers=workers, scheduler=scheduler, progress=not quiet,
+                               shards=str(folder / "shards"), resume=resume)
         path = write_manifest(manifest, out)
+        shutil.rmtree(folder / "shards", ignore_errors=True)     # the manifest holds every figure now
     counts: dict[str, int] = {}
     for v in manifest["variants"]:
         counts[v["split"]] = counts.get(v["split"], 0) + 1

@@ -279,3 +279,35 @@ def test_baseline_levels_trade_figures_for_speed():
         score([Episode(fast["variants"][0]["id"], 1.0, True, 3)], fast)
     with pytest.raises(SuiteError, match="--baselines must be one of"):
         build_suite(spec, SuiteRequest(splits=(("train", 1),), baselines="some"))
+
+
+def test_an_interrupted_suite_resumes_to_the_same_bytes(tmp_path, monkeypatch):
+    """Analyses are written in shards as they finish; a run stopped after its first shard (a test hook,
+    not a timer) and resumed reads that shard back (checked by hash: a shard from other inputs is
+    redone) and writes the manifest a run without interruption writes."""
+    from taskgen.tools import variants as module
+
+    monkeypatch.setattr(module, "SHARD", 4)
+    spec = taskgen.load_spec(LANTERN)
+    request = SuiteRequest(splits=(("train", 12), ("test", 3)))
+    whole = manifest_text(build_suite(spec, request))
+    shards = tmp_path / "shards"
+
+    def stop(k):
+        if k == 0:
+            raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        build_suite(spec, request, shards=str(shards), after_shard=stop)
+    assert [p.name for p in shards.iterdir()] == ["figures-00000.json"]
+    analysed = []
+    real = module._figures
+    monkeypatch.setattr(module, "_figures", lambda job: analysed.append(job) or real(job))
+    resumed = manifest_text(build_suite(spec, request, shards=str(shards), resume=True))
+    assert resumed == whole
+    total = len({v["fingerprint"] for v in yaml.safe_load(whole)["variants"]})
+    assert len(analysed) == total - 4          # the first shard's four layouts were read back
+    (shards / "figures-00000.json").write_text('{"key": "other inputs", "figures": {}}')
+    analysed.clear()
+    assert manifest_text(build_suite(spec, request, shards=str(shards), resume=True)) == whole
+    assert len(analysed) == 4                  # only the shard whose key no longer matched

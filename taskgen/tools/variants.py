@@ -35,6 +35,7 @@ from .scale import Dask, Pool, runner, spec_from_text, spec_text
 
 CHUNK = 256              # candidates drawn per round, whatever the worker count
 BASELINE_LEVELS = ("full", "fast", "none")
+SHARD = 1000                 # layouts analysed per shard of a resumable run
 MAX_SWEEP_VALUES = 10_000    # values of one swept key
 MAX_SWEEP_POINTS = 100_000   # points of all sweeps together (each point gets every split)
 MAX_REFUSALS = 20        # give up after this many refused candidates per requested variant (plus 1000)
@@ -173,9 +174,15 @@ class _Slot:
 
 
 def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
-                progress: bool | None = None, scheduler: str | None = None) -> dict[str, Any]:
+                progress: bool | None = None, scheduler: str | None = None, shards: str | None = None,
+                resume: bool = False, after_shard: Callable[[int], None] | None = None) -> dict[str, Any]:
     """Draw every split and return the manifest as plain data (``workers`` processes here, or a Dask
-    ``scheduler``: an address or ``local:N``; the manifest is the same for any of them)."""
+    ``scheduler``: an address or ``local:N``; the manifest is the same for any of them).
+
+    With ``shards`` (a folder), the analyses are done in shards of SHARD layouts, each written there
+    when it is done; with ``resume``, a shard already there whose inputs hash the same is read back
+    instead of analysed again, so an interrupted run goes on where it stopped. ``after_shard(k)`` is
+    called after shard k is written (a test stops a run there)."""
     if request.baselines not in BASELINE_LEVELS:
         raise SuiteError(f"--baselines must be one of {', '.join(BASELINE_LEVELS)}, got {request.baselines!r}")
     names = [name for name, _ in request.splits]
@@ -243,8 +250,21 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
             order = sorted(unique) if request.baselines != "none" else []
         analyse = _figures if request.baselines == "full" else _fast_figures
         with Progress(len(order), f"analysing {spec.name}", unit="layout", quiet=quiet or not order) as bar:
-            for fp, figures in zip(order, run(analyse, [unique[fp] for fp in order], bar.update)):
-                cache[fp] = figures
+            for k in range(0, len(order), SHARD if shards else max(len(order), 1)):
+                part = order[k:k + SHARD] if shards else order
+                jobs = [unique[fp] for fp in part]
+                key = hashlib.sha256(json.dumps([__version__, request.baselines, part, jobs]).encode()).hexdigest()
+                path = Path(shards) / f"figures-{k // SHARD:05d}.json" if shards else None
+                done = _read_shard(path, key) if path is not None and resume else None
+                if done is None:
+                    done = dict(zip(part, run(analyse, jobs, bar.update)))
+                    if path is not None:
+                        write_text_atomic(path, json.dumps({"key": key, "figures": done}))   # key order kept
+                        if after_shard is not None:
+                            after_shard(k // SHARD)
+                else:
+                    bar.update(len(part))
+                cache.update(done)
     except BaseException:     # an error, Ctrl-C or SIGTERM: drop the queued work, do not wait for it
         if isinstance(where, (Pool, Dask)):
             where.close(wait=False)
@@ -272,6 +292,18 @@ def build_suite(spec: Spec, request: SuiteRequest, workers: int = 1,
         "observation": _suite_observation(slots, accepted),
         "variants": variants,
     }
+
+
+def _read_shard(path: Path, key: str) -> dict[str, Any] | None:
+    """A finished shard's figures by fingerprint, if the file is there, whole and made from the same
+    inputs (its key); else None, and the shard is analysed again."""
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if not isinstance(data, dict) or data.get("key") != key or not isinstance(data.get("figures"), dict):
+        return None
+    return data["figures"]
 
 
 def _suite_observation(slots: list[_Slot], accepted: list[tuple[_Slot, dict[str, Any]]]) -> dict[str, Any]:
