@@ -16,6 +16,7 @@ from . import limits
 from .errors import TaskgenError
 from .analysis.policysearch import NODES
 from .factory import bundled_specs, resolve_spec
+from .manifest import is_manifest
 from .spec.loader import parse_assignments
 from .spec.reference import json_schema_text, reference_markdown
 from .tools import format_text, report_schema, run_check
@@ -67,9 +68,12 @@ def cli() -> None:
               help="Processes to analyse variants in (at most the number of CPUs).")
 @click.option("--scheduler", metavar="ADDRESS|local:N", help="Analyse variants on Dask (see `taskgen variants`).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress.")
+@click.option("--split", help="SPEC is a manifest: check the variants of this split (as listed, fingerprints checked).")
+@click.option("--update", is_flag=True, help="With a manifest: write the full figures of the split's variants into it "
+              "(for a suite written with --baselines fast or none).")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: str | None,
           max_bytes: str | None, paths: int, chance_budget: int, sets: tuple[str, ...], workers: int,
-          scheduler: str | None, quiet: bool) -> None:
+          scheduler: str | None, quiet: bool, split: str | None, update: bool) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
@@ -78,16 +82,52 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     explorer baseline and the random agent's missteps, exact per sampled path and averaged. The chance
     level is proven (exact) or, when --chance-budget ends the search, an interval (bounded). Exits 0
     when every check passes, 1 when one fails or cannot be decided, 2 on a bad spec.
+
+    SPEC may be a manifest with --split: its listed variants are checked (and with --update their full
+    figures written into it, for a suite written with --baselines fast or none).
     """
-    with limits.raised(max_work, max_bytes):
-        loaded = resolve_spec(spec, **parse_assignments(sets))
-        if workers > (os.cpu_count() or 1):
-            raise click.BadParameter(f"{workers} is more than the {os.cpu_count()} CPUs of this machine",
-                                     param_hint="--workers")
-        run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
-                        budget=chance_budget, workers=workers, scheduler=scheduler, progress=not quiet)
+    if workers > (os.cpu_count() or 1):
+        raise click.BadParameter(f"{workers} is more than the {os.cpu_count()} CPUs of this machine",
+                                 param_hint="--workers")
+    if is_manifest(spec) if os.path.isfile(spec) else False:
+        if split is None or sets:
+            raise click.UsageError("a manifest is checked by split: give --split NAME (and no --set)")
+        with limits.raised(max_work, max_bytes):
+            run = _check_manifest(spec, split, update, min_gap, paths, chance_budget, workers, scheduler, quiet)
+    else:
+        if split is not None or update:
+            raise click.UsageError("--split and --update need a manifest written by `taskgen variants`")
+        with limits.raised(max_work, max_bytes):
+            loaded = resolve_spec(spec, **parse_assignments(sets))
+            run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
+                            budget=chance_budget, workers=workers, scheduler=scheduler, progress=not quiet)
     click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
     sys.exit(0 if run.ok else EXIT_FAILED)
+
+
+def _check_manifest(path: str, split: str, update: bool, min_gap: float, paths: int, budget: int, workers: int,
+                    scheduler: str | None, quiet: bool) -> Any:
+    """`taskgen check MANIFEST --split S`: the listed variants' reports, and with ``update`` their figures
+    written back into the manifest (under its folder's lock)."""
+    from .manifest import entry_spec, load_manifest, manifest_text, split_entries
+    from .tools.variants import figures_of
+
+    manifest = load_manifest(path)
+    entries = split_entries(manifest, split, path)
+    listed = [(entry_spec(manifest, entry, path), int(entry["seed"]), str(entry["fingerprint"])) for entry in entries]
+    base = entry_spec(manifest, None, path)
+    run = run_check(base, path, min_gap=min_gap, paths=paths, budget=budget, workers=workers, scheduler=scheduler,
+                    progress=not quiet, listed=listed)
+    if update:
+        with locked_folder(os.path.dirname(os.path.abspath(path))):
+            fresh = load_manifest(path)          # as it is now, under the lock
+            by_id = {entry["id"]: figures_of(report) for entry, report in zip(entries, run.reports)}
+            for entry in fresh["variants"]:
+                if entry["id"] in by_id:
+                    entry.update(by_id[entry["id"]])
+            write_text_atomic(path, manifest_text(fresh))
+        click.echo(f"updated {len(by_id)} variants of split {split} in {path}", err=True)
+    return run
 
 
 @cli.command()

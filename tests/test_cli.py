@@ -253,3 +253,32 @@ def test_caps_are_checked_before_the_work_they_bound(tmp_path):
     out = _run("variants", str(taskgen.bundled_specs()["lantern-hall"]), "--out", str(tmp_path / "s"),
                "--sweep", "layout.corridor.length=0:10000000")
     assert out.returncode == 2 and "10,000,001 values, more than the 10,000" in out.stderr
+
+
+def test_a_fast_suite_gets_its_test_figures_later(tmp_path):
+    """`variants --baselines fast`, then `check MANIFEST --split test --update`: the test split's entries
+    become exactly those of a suite written with full baselines (the same objects, byte for byte), the
+    train split keeps its fast figures, and `evaluate` can score the test split."""
+    import yaml
+
+    path = str(taskgen.bundled_specs()["lantern-hall"])
+    for name, level in (("full", "full"), ("fast", "fast")):
+        out = _run("variants", path, "--out", str(tmp_path / name), "--split", "train=3", "--split", "test=2",
+                   "--baselines", level, "-q")
+        assert out.returncode == 0, out.stderr
+    fast = str(tmp_path / "fast" / "manifest.yaml")
+    out = _run("check", fast, "--split", "test", "--update", "-q")
+    assert out.returncode == 0 and "updated 2 variants of split test" in out.stderr, out.stderr
+    full = yaml.safe_load((tmp_path / "full" / "manifest.yaml").read_text())
+    updated = yaml.safe_load(open(fast).read())
+    for a, b in zip(full["variants"], updated["variants"]):
+        if a["split"] == "test":
+            assert a == b
+        else:
+            assert set(b["baselines"]) == {"optimal", "random"}
+    (tmp_path / "walk.py").write_text("import numpy as np\n"
+                                      "def make(o, a):\n    return lambda obs: np.ones(obs.shape[0], dtype=int)\n")
+    scored = subprocess.run([sys.executable, "-m", "taskgen.cli", "evaluate", fast, "--policy", "walk:make",
+                             "--episodes", "3"], capture_output=True, text=True, cwd=tmp_path)
+    assert scored.returncode == 0, scored.stderr
+    assert _run("check", fast, "--update").returncode == 2

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import statistics
 from dataclasses import dataclass
-from typing import Annotated, Any
+from typing import Annotated, Any, Sequence
 
 from typing_extensions import TypedDict   # pydantic reads these as JSON shapes; it needs this one before 3.12
 
@@ -16,6 +16,7 @@ from ..analysis.policysearch import NODES
 from ..analysis.report import BASELINES_EVERY_KIND_HAS, TOLERANCE, BaselineJSON, Verdict, VariantJSON
 from ..kinds import SAMPLES, all_kinds, compile_variant, kind_of, make_variant, observation_set
 from ..model import TaskModel
+from ..manifest import ManifestError
 from ..spec import Spec
 from .progress import Progress
 from .scale import Dask, Pool, runner, spec_from_text, spec_text
@@ -28,12 +29,16 @@ def observation_tables(model: TaskModel, spec: Spec) -> dict[str, Any]:
     return observation_set(model, spec.observation).tables()
 
 
-def check_variant(spec: Spec, seed: int, min_gap: float = 0.0, paths: int = SAMPLES, budget: int = NODES) -> Report:
+def check_variant(spec: Spec, seed: int, min_gap: float = 0.0, paths: int = SAMPLES, budget: int = NODES,
+                  fingerprint: str | None = None) -> Report:
     """Compile one variant and run every analysis on what its agent really observes (``paths``: the
     hidden values sampled where they cannot all be listed, as for a field's paths; ``budget``: nodes the
-    search for the chance level may visit before the level becomes an interval)."""
+    search for the chance level may visit before the level becomes an interval). With ``fingerprint``
+    (a manifest's), a variant that no longer reproduces it is refused."""
     kind = kind_of(spec)
     model = compile_variant(make_variant(spec, seed), paths)
+    if fingerprint is not None and kind.fingerprint(model) != fingerprint:
+        raise ManifestError(f"{model.variant_id} no longer reproduces the fingerprint its manifest records")
     return kind.analyse(model, kind.observations(model, spec.observation), min_gap, budget)
 
 
@@ -178,11 +183,17 @@ def report_schema() -> dict[str, Any]:
 
 def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap: float = 0.0,
               paths: int = SAMPLES, budget: int = NODES, workers: int = 1, scheduler: str | None = None,
-              progress: bool | None = None) -> CheckRun:
+              progress: bool | None = None, listed: Sequence[tuple[Spec, int, str]] | None = None) -> CheckRun:
     """Compile and analyse variants ``seed … seed+variants−1`` (in ``workers`` processes, or on a Dask
-    ``scheduler``; the reports are the same wherever they run)."""
-    text = spec_text(spec)
-    jobs = [(text, s, min_gap, paths, budget) for s in range(seed, seed + variants)]
+    ``scheduler``; the reports are the same wherever they run), or the ``listed`` variants of a manifest
+    (spec with its overrides, seed, fingerprint)."""
+    jobs: list[tuple[tuple[str, str], int, float, int, int, str | None]]
+    if listed is None:
+        text = spec_text(spec)
+        jobs = [(text, s, min_gap, paths, budget, None) for s in range(seed, seed + variants)]
+    else:
+        jobs = [(spec_text(one), s, min_gap, paths, budget, fp) for one, s, fp in listed]
+        variants = len(jobs)
     where = runner(workers, scheduler)
     try:
         with Progress(variants, f"checking {spec.name}", quiet=progress is False or variants == 1) as bar:
@@ -195,10 +206,10 @@ def run_check(spec: Spec, source: str, variants: int = 1, seed: int = 0, min_gap
     return CheckRun(source=source, spec=spec, reports=reports, min_gap=min_gap)
 
 
-def _check_job(job: tuple[tuple[str, str], int, float, int, int]) -> Report:
+def _check_job(job: tuple[tuple[str, str], int, float, int, int, str | None]) -> Report:
     """One variant's report (runs wherever the runner sends it)."""
-    text, seed, min_gap, paths, budget = job
-    return check_variant(spec_from_text(*text), seed, min_gap, paths, budget)
+    text, seed, min_gap, paths, budget, fingerprint = job
+    return check_variant(spec_from_text(*text), seed, min_gap, paths, budget, fingerprint)
 
 
 def _baseline_rows(baselines: dict[str, Baseline]) -> list[str]:

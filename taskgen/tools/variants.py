@@ -25,6 +25,7 @@ from ..factory import resolve_spec
 from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
 from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, describe_space, manifest_text
 from ..analysis.baselines import optimal_baseline, random_baseline
+from ..analysis import Report
 from ..analysis.report import BaselineJSON, SolverJSON
 from ..spec import Spec
 from ..variant import variant_name
@@ -139,7 +140,12 @@ def _draw(job: tuple[tuple[str, str], int]) -> tuple[str, dict[str, Any]]:
 def _figures(job: tuple[tuple[str, str], int]) -> dict[str, Any]:
     """The analyses of one accepted variant, in the report's contract (runs in a worker)."""
     text, seed = job
-    report = check_variant(spec_from_text(*text), seed)
+    return figures_of(check_variant(spec_from_text(*text), seed))
+
+
+def figures_of(report: Report) -> dict[str, Any]:
+    """A report's figures as a manifest entry holds them (the same objects as `check --json`, without the
+    search's wall-clock time, so that a manifest repeats byte for byte)."""
     return {"baselines": {name: _without_seconds(report.baselines[name].to_dict())
                           for name in ("optimal", "chance", "chance_stochastic", "random")},
             "memory_gap": report.memory_gap.to_dict(), "chance_level": report.chance_level, "checks_ok": report.ok,
