@@ -91,7 +91,8 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
                                  param_hint="--workers")
     if is_manifest(spec) if os.path.isfile(spec) else False:
         if split is None or sets:
-            raise click.UsageError("a manifest is checked by split: give --split NAME (and no --set)")
+            raise click.UsageError(f"{spec}: this is a variant manifest, not a spec; check a split of it with "
+                                   "--split NAME (no --set: a manifest fixes its variants)")
         with limits.raised(max_work, max_bytes):
             run = _check_manifest(spec, split, update, min_gap, paths, chance_budget, workers, scheduler, quiet)
     else:
@@ -109,10 +110,10 @@ def _check_manifest(path: str, split: str, update: bool, min_gap: float, paths: 
                     scheduler: str | None, quiet: bool) -> Any:
     """`taskgen check MANIFEST --split S`: the listed variants' reports, and with ``update`` their figures
     written back into the manifest (under its folder's lock)."""
-    from .manifest import entry_spec, load_manifest, manifest_text, split_entries
+    from .manifest import entry_spec, load_manifest, split_entries, write_manifest
     from .tools.variants import figures_of
 
-    manifest = load_manifest(path)
+    manifest = load_manifest(path, splits=[split])
     entries = split_entries(manifest, split, path)
     listed = [(entry_spec(manifest, entry, path), int(entry["seed"]), str(entry["fingerprint"])) for entry in entries]
     base = entry_spec(manifest, None, path)
@@ -125,7 +126,7 @@ def _check_manifest(path: str, split: str, update: bool, min_gap: float, paths: 
             for entry in fresh["variants"]:
                 if entry["id"] in by_id:
                     entry.update(by_id[entry["id"]])
-            write_text_atomic(path, manifest_text(fresh))
+            write_manifest(fresh, os.path.dirname(os.path.abspath(path)))
         click.echo(f"updated {len(by_id)} variants of split {split} in {path}", err=True)
     return run
 
@@ -258,7 +259,7 @@ def evaluate(manifest: str, policy: str, split: str, episodes: int, num_envs: in
     with limits.raised(max_work, max_bytes):
         chosen = load_policy(policy, *suite_spaces(manifest, split))
         played = run_policy(chosen, manifest, split, episodes=episodes, num_envs=num_envs, seed=seed)
-    result = score(played, load_manifest(manifest), split)
+    result = score(played, load_manifest(manifest, splits=[split]), split)
     text = json.dumps(result.to_dict(), indent=2)
     click.echo(text if as_json else format_evaluation(result), nl=as_json)
     if out:

@@ -119,7 +119,7 @@ def make(spec_or_path: Spec | str | os.PathLike[str], variant: int | None = None
             env = TaskEnv(kind_of(spec).core(variants, 1, draw=True), render_mode=render_mode,
                           analysis_info=analysis_info)
         else:
-            manifest = load_manifest(manifest_path)
+            manifest = load_manifest(manifest_path, splits=[split])
             entries = split_entries(manifest, split, manifest_path)
             if not 0 <= index < len(entries):
                 raise ManifestError(f"{manifest_path}: split {split!r} has {len(entries)} variants, no index {index}")

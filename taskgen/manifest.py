@@ -8,10 +8,11 @@ differently fails loudly instead of training on something else.
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 from pathlib import Path
-from typing import Any
+from typing import Any, Sequence
 
 import numpy as np
 import yaml
@@ -64,15 +65,70 @@ def describe_space(space: Space[Any]) -> dict[str, Any]:
     return {"other": str(space)}
 
 
-def load_manifest(path: str | os.PathLike[str]) -> dict[str, Any]:
-    """Read a manifest (safe loader; the C loader when PyYAML has it, for large suites)."""
+SPLIT_FILES_AT = 1000    # a suite with more variants keeps each split's in a file of its own (JSON lines)
+
+
+def write_manifest(manifest: dict[str, Any], out_dir: str | os.PathLike[str], split_files_at: int = SPLIT_FILES_AT
+                   ) -> str:
+    """Write DIR/manifest.yaml atomically; returns its path. A large suite's variants go to one file per
+    split (``variants-<split>.jsonl``, each listed under ``variant_files`` with its count and sha256), so
+    that a reader can load one split without parsing the others; a small suite keeps a single file."""
+    from .tools.output import write_bytes_atomic, write_text_atomic
+
+    if manifest.get("loaded_splits") is not None:
+        raise ValueError("this manifest was loaded with some of its splits only: load it whole to write it")
+    folder = Path(out_dir)
+    manifest = {key: value for key, value in manifest.items() if key != "variant_files"}
+    variants = manifest["variants"]
+    if len(variants) <= split_files_at:
+        return str(write_text_atomic(folder / "manifest.yaml", manifest_text(manifest)))
+    files: dict[str, Any] = {}
+    for split in dict.fromkeys(v["split"] for v in variants):
+        data = "".join(json.dumps(v, sort_keys=False, ensure_ascii=False) + "\n" for v in variants
+                       if v["split"] == split).encode("utf-8")
+        name = f"variants-{split}.jsonl"
+        write_bytes_atomic(folder / name, data)
+        files[split] = {"file": name, "count": sum(v["split"] == split for v in variants),
+                        "sha256": hashlib.sha256(data).hexdigest()}
+    header = {("variant_files" if key == "variants" else key): (files if key == "variants" else value)
+              for key, value in manifest.items()}
+    return str(write_text_atomic(folder / "manifest.yaml", manifest_text(header)))
+
+
+def load_manifest(path: str | os.PathLike[str], splits: Sequence[str] | None = None) -> dict[str, Any]:
+    """Read a manifest (safe loader; the C loader when PyYAML has it, for large suites). For a suite kept
+    in split files, only the ``splits`` named (None: all) are read, each checked against its sha256."""
     loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
     try:
         data = yaml.load(Path(path).read_text(encoding="utf-8"), Loader=loader)
     except (OSError, yaml.YAMLError) as exc:
         raise ManifestError(f"{path}: not a readable manifest ({exc})") from None
-    if not isinstance(data, dict) or data.get(MANIFEST_KEY) != MANIFEST_FORMAT or "variants" not in data:
+    if not isinstance(data, dict) or data.get(MANIFEST_KEY) != MANIFEST_FORMAT or \
+            ("variants" not in data and not isinstance(data.get("variant_files"), dict)):
         raise ManifestError(f"{path}: expected a taskgen manifest of format {MANIFEST_FORMAT}")
+    if "variants" in data:
+        return data
+    files: dict[str, Any] = data.pop("variant_files")
+    if splits is not None:
+        unknown = [s for s in splits if s not in files]
+        if unknown:
+            raise ManifestError(f"{path}: no split {unknown[0]!r} (splits: {', '.join(sorted(files))})")
+    variants: list[dict[str, Any]] = []
+    for split, listed in files.items():
+        if splits is not None and split not in splits:
+            continue
+        file = Path(path).parent / str(listed["file"])
+        try:
+            raw = file.read_bytes()
+        except OSError as exc:
+            raise ManifestError(f"{file}: the variants of split {split!r} cannot be read ({exc.strerror})") from None
+        if hashlib.sha256(raw).hexdigest() != listed.get("sha256"):
+            raise ManifestError(f"{file}: the variants of split {split!r} do not match the manifest's sha256")
+        variants += [json.loads(line) for line in raw.decode("utf-8").splitlines() if line.strip()]
+    data["variants"] = variants
+    data["variant_files"] = files
+    if splits is not None:
+        data["loaded_splits"] = list(splits)
     return data
 
 
@@ -108,7 +164,7 @@ def entry_model(manifest: dict[str, Any], entry: dict[str, Any], source: str = "
 def split_variants(path: str | os.PathLike[str], split: str) -> tuple[Spec, list[tuple[TaskModel, ObservationSet]]]:
     """Every variant of a split with what its agent sees, fingerprints checked, for one env or batch
     that draws a variant at every reset (refused for a kind whose environments hold one variant)."""
-    manifest = load_manifest(path)
+    manifest = load_manifest(path, splits=[split])
     spec = entry_spec(manifest, None, str(path))
     kind = kind_of(spec)
     if not kind.pools:

@@ -311,3 +311,34 @@ def test_an_interrupted_suite_resumes_to_the_same_bytes(tmp_path, monkeypatch):
     analysed.clear()
     assert manifest_text(build_suite(spec, request, shards=str(shards), resume=True)) == whole
     assert len(analysed) == 4                  # only the shard whose key no longer matched
+
+
+def test_a_large_suite_keeps_each_split_in_a_file_of_its_own(tmp_path):
+    """Past the size where one file is slow to read, each split's variants are a JSON-lines file listed
+    (count, sha256) by manifest.yaml: a split loads without the others being read (the train file may
+    even be gone), the variants are those of the single-file form, and a changed file is refused."""
+    from taskgen.manifest import ManifestError, load_manifest, write_manifest as write_any
+
+    spec = taskgen.load_spec(LANTERN)
+    manifest = build_suite(spec, SuiteRequest(splits=(("train", 6), ("test", 3))))
+    single = tmp_path / "single"
+    write_any(manifest, single)
+    split = tmp_path / "split"
+    path = write_any(manifest, split, split_files_at=4)
+    assert sorted(p.name for p in split.iterdir()) == ["manifest.yaml", "variants-test.jsonl", "variants-train.jsonl"]
+    header = yaml.safe_load((split / "manifest.yaml").read_text())
+    assert "variants" not in header and header["variant_files"]["test"]["count"] == 3
+    whole = load_manifest(path)
+    assert whole["variants"] == load_manifest(single / "manifest.yaml")["variants"]
+    (split / "variants-train.jsonl").unlink()
+    test = load_manifest(path, splits=["test"])
+    assert [v["split"] for v in test["variants"]] == ["test"] * 3
+    env = taskgen.make(path, split="test", index=2)
+    assert env.model.variant_id == test["variants"][2]["id"]
+    with pytest.raises(ManifestError, match="cannot be read"):
+        load_manifest(path)
+    with pytest.raises(ValueError, match="loaded with some of its splits only"):
+        write_any(test, tmp_path / "again")
+    (split / "variants-test.jsonl").write_text((split / "variants-test.jsonl").read_text().replace("lantern", "Lantern"))
+    with pytest.raises(ManifestError, match="do not match the manifest's sha256"):
+        load_manifest(path, splits=["test"])

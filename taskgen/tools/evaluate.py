@@ -217,7 +217,7 @@ def run_policy(policy: Policy, manifest_path: str | os.PathLike[str], split: str
     ``num_envs`` environments (env i seeded ``seed + i``); returns them in variant order."""
     if episodes < 1 or num_envs < 1:
         raise EvaluationError(f"episodes and num_envs must be ≥ 1, got {episodes} and {num_envs}")
-    manifest = load_manifest(manifest_path)
+    manifest = load_manifest(manifest_path, splits=[split])
     widths = suite_widths(manifest, str(manifest_path))
     reset = getattr(policy, "reset", None)
     out: list[Episode] = []
@@ -255,7 +255,7 @@ def evaluate(policy: Policy, manifest: str | os.PathLike[str], split: str = "tes
     """Run ``policy`` on every variant of ``split`` and score it against the manifest's baselines
     (the Python form of ``taskgen evaluate``)."""
     played = run_policy(policy, manifest, split, episodes, num_envs, seed)
-    return score(played, load_manifest(manifest), split)
+    return score(played, load_manifest(manifest, splits=[split]), split)
 
 
 def load_policy(reference: str, observation_space: spaces.Space[Any], action_space: spaces.Space[Any]) -> Policy:
@@ -282,7 +282,7 @@ def load_policy(reference: str, observation_space: spaces.Space[Any], action_spa
 
 def suite_spaces(manifest_path: str | os.PathLike[str], split: str) -> tuple[spaces.Space[Any], spaces.Space[Any]]:
     """The observation and action space of one environment of a split (a policy factory gets them)."""
-    manifest = load_manifest(manifest_path)
+    manifest = load_manifest(manifest_path, splits=[split])
     entry = split_entries(manifest, split, str(manifest_path))[0]
     spec, model = entry_model(manifest, entry, str(manifest_path))
     core = kind_of(spec).core([(model, family_observations(model, spec, suite_widths(manifest)))], 1)

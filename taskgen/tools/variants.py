@@ -23,7 +23,7 @@ from .. import __version__
 from ..errors import SpecError, TaskgenError
 from ..factory import resolve_spec
 from ..kinds import compile_variant, family_observations, family_widths, kind_of, make_variant
-from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, describe_space, manifest_text
+from ..manifest import MANIFEST_FORMAT, MANIFEST_KEY, describe_space, manifest_text, write_manifest
 from ..analysis.baselines import optimal_baseline, random_baseline
 from ..analysis import Report
 from ..analysis.report import BaselineJSON, SolverJSON
@@ -367,13 +367,6 @@ def _check_family_size(spec: Spec, points: list[dict[str, Any]], request: SuiteR
                              f"({kind_of(spec).family_words(spec)})")
 
 
-def write_manifest(manifest: dict[str, Any], out_dir: str) -> str:
-    """Write DIR/manifest.yaml atomically; returns its path."""
-    path = Path(out_dir) / "manifest.yaml"
-    write_text_atomic(path, manifest_text(manifest))
-    return str(path)
-
-
 def parse_splits(items: Sequence[str]) -> tuple[tuple[str, int], ...]:
     """``name=count`` items into split pairs."""
     out = []
@@ -394,3 +387,8 @@ def parse_assignment(item: str) -> tuple[str, tuple[Any, ...]]:
         return key, parse_values(values)
     except SuiteError as exc:
         raise SuiteError(f"{key}: {exc}") from None
+
+
+__all__ = ["BASELINE_LEVELS", "SuiteError", "SuiteRequest", "build_suite", "family_size", "figures_of",
+           "manifest_text", "parse_assignment", "parse_splits", "parse_values", "spec_hash", "sweep_points",
+           "write_manifest"]
