@@ -296,18 +296,20 @@ def score_command(episodes: str, manifest: str, as_json: bool) -> None:
               help="Seed of the first episode.")
 @click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
 @click.option("--force", is_flag=True, help="Replace existing gallery pages and pictures in DIR.")
+@click.option("--scale", type=click.IntRange(min=1, max=16), help="Whole factor the agent's view is enlarged by "
+              "(nearest neighbour); by default the smallest that makes a frame at least 160 px high.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress.")
 @set_option
 @limit_options
 def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int,
                     sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool,
-                    quiet: bool) -> None:
+                    scale: int | None, quiet: bool) -> None:
     """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
     from .tools.gallery import gallery
 
     with limits.raised(max_work, max_bytes):
         pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
-                        overrides=parse_assignments(sets), force=force, progress=not quiet)
+                        overrides=parse_assignments(sets), force=force, progress=not quiet, scale=scale)
     for page in pages:
         click.echo(f"wrote {page}")
 

@@ -12,7 +12,7 @@ from PIL import Image
 
 import taskgen
 from taskgen.tools import gallery as gallery_module
-from taskgen.tools.gallery import PER_ROW, gallery
+from taskgen.tools.gallery import MAX_WIDTH, gallery
 
 GALLERY = Path(__file__).resolve().parents[1] / "gallery"
 
@@ -44,15 +44,22 @@ def test_every_example_has_a_committed_gallery():
 
 @pytest.mark.parametrize("name", sorted(taskgen.bundled_specs()))
 def test_pictures_decode_with_the_expected_frames(name):
-    """Each GIF decodes (Pillow) with one frame per step plus the last; each filmstrip is those
-    frames in rows of eight."""
+    """Each GIF decodes (Pillow) with one frame per step plus the last, each at least 160 px high; each
+    filmstrip is those frames in rows as wide as fit in MAX_WIDTH, below a two-line header and above a
+    legend, and its first cell is the GIF's first frame (up to the GIF palette's rounding)."""
+    from taskgen.tools.playback import GAP, TEXT
+
     for gif in sorted((GALLERY / name).glob("episode-*.gif")):
         frames = _frames(gif)
-        strip = Image.open(gif.with_suffix(".png"))
+        strip = np.asarray(Image.open(gif.with_suffix(".png")).convert("RGB"))
         w, h = frames[0].shape[1], frames[0].shape[0]
-        rows = -(-len(frames) // PER_ROW)
-        assert strip.size == (w * min(PER_ROW, len(frames)), h * rows)
-        assert len(frames) >= 2
+        per_row = max(1, min(len(frames), MAX_WIDTH // w))
+        rows = -(-len(frames) // per_row)
+        top = GAP + 2 * (TEXT + 9)                      # the header's two lines (gallery.filmstrip)
+        legend = strip.shape[0] - top - h * rows
+        assert strip.shape[1] == w * per_row and 0 < legend < 200 and h >= 160 and len(frames) >= 2
+        cell = strip[top:top + h, :w].astype(int)
+        assert np.mean(np.abs(cell - frames[0].astype(int)) > 48) < 0.01
 
 
 @pytest.mark.parametrize("name", ["lantern-hall", "marsh-stones"])
@@ -84,10 +91,10 @@ def test_an_interrupted_run_leaves_no_page(tmp_path, monkeypatch):
     """If an episode fails half-way, no index page is written and no temporary file remains."""
     real = gallery_module.record
 
-    def failing(spec, variant_seed, policy, episode, seed):
+    def failing(spec, variant_seed, policy, episode, seed, scale=None):
         if episode == 1:
             raise KeyboardInterrupt
-        return real(spec, variant_seed, policy, episode, seed)
+        return real(spec, variant_seed, policy, episode, seed, scale)
 
     monkeypatch.setattr(gallery_module, "record", failing)
     with pytest.raises(KeyboardInterrupt):
@@ -115,15 +122,13 @@ def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, start="random", mark={"steps": 4},
                                                   observation=observation, rewards={"misstep": -0.1}))
     episode = gallery_module.record(spec, 0, "explorer", 0, 3)
-    first = np.asarray(episode.frames[0])
-    from taskgen.render import PathPictures
-    from taskgen.tools.playback import scaled
-    truth_width = np.asarray(scaled(PathPictures(taskgen.build_model(spec)).agent(0, np.zeros(30, dtype=bool)))).shape[1]
-    split = first.shape[1] - truth_width - 4
+    from taskgen.tools.playback import GAP
+    height, agent_width, truth_width = episode.panels
     marked = 0
     for frame in episode.frames:
-        pixels = np.asarray(frame)[:gallery_module.VIEW_HEIGHT]
-        agent, truth = pixels[:, :split], pixels[:, split + 4:]
+        pixels = np.asarray(frame)[GAP:GAP + height]
+        agent = pixels[:, GAP:GAP + agent_width]
+        truth = pixels[:, 2 * GAP + agent_width:2 * GAP + agent_width + truth_width]
         for colour in (PATH, PATH_END):
             assert not (agent == colour).all(axis=2).any()
         assert (truth == PATH).all(axis=2).any()

@@ -86,6 +86,9 @@ class TaskKind(Protocol):
     def succeeded(self, model: TaskModel, info: dict[str, Any]) -> bool:
         """Whether the episode ended in success at ``info``'s state."""
 
+    def swatches(self, model: TaskModel) -> list[tuple[tuple[int, int, int], str]]:
+        """A gallery legend: each colour its frames use, with what it means."""
+
 
 def _registry() -> dict[str, TaskKind]:
     from .cue import CUE

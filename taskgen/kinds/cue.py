@@ -20,6 +20,7 @@ from ..generate.placement import PlacementError, PlacementRules, place
 from ..limits import check_bytes, check_work
 from ..model import TaskModel, compile_cue
 from ..render import ObservationSet, observation_set
+from ..render.palette import AGENT, CUE_COLOURS, FLOOR, WALL
 from ..render.pictures import cue_sequence
 from ..spec import CueTaskSpec, Spec
 from ..spec.params import IntParam
@@ -261,6 +262,13 @@ class CueKind:
         """Whether the cue is shown at this step."""
         assert model.cue is not None
         return f" cue {'shown' if model.cue.window[info['analysis_only']['state']] else 'hidden'}"
+
+    def swatches(self, model: TaskModel) -> list[tuple[tuple[int, int, int], str]]:
+        """The cue colours with their values (goals are outlined in them, the lamp lights in them), the
+        agent, walls and floor."""
+        assert model.cue is not None
+        return ([(CUE_COLOURS[v % len(CUE_COLOURS)], f"cue {v}") for v in range(model.cue.values)]
+                + [(AGENT, "agent"), (WALL, "wall"), (FLOOR, "floor; lamp dark: no cue (lit: the cue or a decoy)")])
 
     def succeeded(self, model: TaskModel, info: dict[str, Any]) -> bool:
         """Whether the episode ended in a success state."""

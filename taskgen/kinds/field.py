@@ -22,7 +22,7 @@ from ..limits import check_bytes, check_work
 from ..model import PathRule, TaskModel
 from ..model.paths import MARK_FOREVER
 from ..render import ObservationSet, key_classes, path_observation_set
-from ..render.palette import MARK
+from ..render.palette import AGENT, FLOOR, MARK, PATH, PATH_END, WALL
 from ..spec import FieldSpec, Spec
 from ..spec.schema import Observation
 from ..variant import LAYOUT_STREAM, PARAMS_STREAM, Variant, horizon, variant_name, variant_rng
@@ -236,6 +236,11 @@ class FieldKind:
             return _chance(rule, model, observations)
         rng = np.random.default_rng(seed)
         return lambda t, info: int(rng.integers(rule.num_actions))
+
+    def swatches(self, model: TaskModel) -> list[tuple[tuple[int, int, int], str]]:
+        """The hidden path and its end (ground truth only), the marks, the agent, walls and floor."""
+        return [(PATH, "hidden path (truth only)"), (PATH_END, "its end"), (_rule(model).mark_colour, "mark (ring)"),
+                (AGENT, "agent"), (WALL, "wall"), (FLOOR, "floor")]
 
     def truth_label(self, model: TaskModel, info: dict[str, Any]) -> str:
         """How often the agent has stepped off the path."""

@@ -17,32 +17,62 @@ from typing import Any, Mapping, Sequence
 from urllib.parse import quote
 
 import yaml
-from PIL import Image
+from PIL import Image, ImageDraw
 
 from ..analysis import Report
 from ..factory import resolve_spec
-from ..kinds import kind_of
+from ..kinds import compile_variant, kind_of, make_variant
 from ..spec import Spec
 from .check import check_variant
 from .output import child_path, locked_folder, refuse_overwrite, write_bytes_atomic, write_text_atomic
-from .playback import VIEW_HEIGHT, Episode, record, resolve_policy
+from .playback import GAP, MIN_FRAME, TEXT, Episode, font, record, resolve_policy
 from .progress import Progress
 
 POLICIES = ("auto", "optimal", "random", "chance", "explorer")
-PER_ROW = 8
+MAX_WIDTH = 1600     # a filmstrip's rows wrap before this width (as many whole steps as fit, at least one)
 FRAME_MS = 250
 
-__all__ = ["FRAME_MS", "PER_ROW", "POLICIES", "VIEW_HEIGHT", "Episode", "filmstrip", "gallery", "record",
+__all__ = ["FRAME_MS", "MAX_WIDTH", "MIN_FRAME", "POLICIES", "Episode", "filmstrip", "gallery", "record",
            "spec_gallery"]
 
 
-def filmstrip(frames: Sequence[Image.Image], per_row: int = PER_ROW) -> Image.Image:
-    """Frames in rows of ``per_row``, wrapped."""
+def per_row(frames: Sequence[Image.Image]) -> int:
+    """Steps per filmstrip row: as many as fit in MAX_WIDTH (at least one)."""
+    return max(1, min(len(frames), MAX_WIDTH // frames[0].width))
+
+
+def filmstrip(frames: Sequence[Image.Image], header: Sequence[str] = (),
+              swatches: Sequence[tuple[tuple[int, int, int], str]] = ()) -> Image.Image:
+    """A figure: the ``header`` lines, the steps in rows (each step one cell: agent's view | ground truth,
+    never split), and a legend strip of ``swatches`` (colour, meaning), wrapped to the rows' width."""
     w, h = frames[0].size
-    rows = -(-len(frames) // per_row)
-    sheet = Image.new("RGB", (w * min(per_row, len(frames)), h * rows), (255, 255, 255))
+    n = per_row(frames)
+    rows = -(-len(frames) // n)
+    width = w * n
+    typeface, title = font(), font(TEXT + 3)
+    probe = ImageDraw.Draw(Image.new("RGB", (1, 1)))
+    items = [(colour, text, TEXT + 6 + int(probe.textlength(text, font=typeface)) + 2 * GAP) for colour, text in swatches]
+    legend: list[list[tuple[tuple[int, int, int], str, int]]] = [[]]
+    for item in items:            # wrapped to the rows' width
+        if legend[-1] and sum(i[2] for i in legend[-1]) + item[2] > width - 2 * GAP:
+            legend.append([])
+        legend[-1].append(item)
+    top = GAP + (TEXT + 9) * len(header)
+    bottom = (GAP + (TEXT + 8) * len(legend)) if items else 0
+    sheet = Image.new("RGB", (width, top + h * rows + bottom), (255, 255, 255))
+    draw = ImageDraw.Draw(sheet)
+    for i, words in enumerate(header):
+        draw.text((GAP, GAP + i * (TEXT + 9)), words, fill=(0, 0, 0), font=title)
     for i, frame in enumerate(frames):
-        sheet.paste(frame, ((i % per_row) * w, (i // per_row) * h))
+        sheet.paste(frame, ((i % n) * w, top + (i // n) * h))
+    y = top + h * rows + GAP // 2
+    for entries in legend if items else []:
+        x = GAP
+        for colour, text, size in entries:
+            draw.rectangle((x, y + 1, x + TEXT, y + 1 + TEXT), fill=colour, outline=(0, 0, 0))
+            draw.text((x + TEXT + 6, y), text, fill=(0, 0, 0), font=typeface)
+            x += size
+        y += TEXT + 8
     return sheet
 
 
@@ -65,19 +95,24 @@ def _save_gif(path: Path, frames: Sequence[Image.Image]) -> None:
 
 def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes: int = 2,
                  policy: str = "auto", seed: int = 0, variant_seed: int = 0,
-                 progress: bool | None = None) -> Path:
+                 progress: bool | None = None, scale: int | None = None) -> Path:
     """Write the gallery of one spec into ``out/<spec name>/`` (``<spec name>+<digest>`` for a spec with
     overrides); returns its HTML index."""
     policy = resolve_policy(spec, policy)
     folder = child_path(out, spec.name + spec.override_tag)
     folder.mkdir(parents=True, exist_ok=True)
     report = check_variant(spec, variant_seed)
+    compiled = compile_variant(make_variant(spec, variant_seed))
     items = []
     with Progress(episodes, f"gallery {spec.name}", unit="episode", quiet=progress is False) as bar:
         for e in range(episodes):
-            episode = record(spec, variant_seed, policy, e, seed)
+            episode = record(spec, variant_seed, policy, e, seed, scale)
             png, gif = f"episode-{e}.png", f"episode-{e}.gif"
-            _save_atomic(folder / png, filmstrip(episode.frames), format="PNG", optimize=False)
+            header = [f"{spec.name} · variant {episode.variant_id} · policy {episode.policy} · return "
+                      f"{episode.total_return:+.2f} · {'success' if episode.success else 'no success'}",
+                      "each step: the agent's view (left) | the ground truth (right)"]
+            strip = filmstrip(episode.frames, header, kind_of(spec).swatches(compiled))
+            _save_atomic(folder / png, strip, format="PNG", optimize=False)
             _save_gif(folder / gif, episode.frames)
             items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
             bar.update(1)
@@ -168,7 +203,7 @@ def _ours(page: Path) -> bool:
 
 def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
             variant_seed: int = 0, overrides: Mapping[str, Any] | None = None, force: bool = False,
-            progress: bool | None = None) -> list[Path]:
+            progress: bool | None = None, scale: int | None = None) -> list[Path]:
     """Galleries of several specs (each with ``overrides``, dotted keys, applied), plus a top-level
     index of the spec galleries in ``out``. Existing pages and pictures are replaced only with ``force``
     (the root index also when taskgen wrote it); one run at a time writes into ``out``."""
@@ -178,7 +213,7 @@ def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "
         mine = [path for spec in specs for path in spec_outputs(spec, root, episodes)]
         mine += [page for page in (root / "index.html", root / "index.md") if page.exists() and not _ours(page)]
         refuse_overwrite(mine, force, "taskgen gallery")
-        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed, progress)
+        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed, progress, scale)
                  for source, spec in zip(sources, specs)]
         names = sorted(p.parent.name for p in root.glob("*/index.html") if _ours(p))   # taskgen's galleries only
         md = ["# Episode galleries", "", MD_MARK, "", "One page per spec: filmstrips, animations, baselines and the spec.",
