@@ -52,7 +52,7 @@ def test_info_contract_is_success_and_episode_end():
         env.reset(seed=seed)
         rng = np.random.default_rng(seed)
         while True:
-            _, reward, terminated, truncated, info = env.step(int(rng.integers(4)))
+            _, reward, terminated, truncated, info = env.step(int(rng.integers(env.action_space.n)))
             if terminated or truncated:
                 assert set(info) == {"variant_id", "step", "is_success"}
                 assert info["is_success"] == (reward > 0)
@@ -237,7 +237,7 @@ rng = np.random.default_rng(11)
 obs, info = env.reset(seed=5)
 h.update(obs.tobytes())
 for _ in range(300):
-    obs, r, term, trunc, info = env.step(int(rng.integers(4)))
+    obs, r, term, trunc, info = env.step(int(rng.integers(env.action_space.n)))
     h.update(obs.tobytes()); h.update(np.float64(r).tobytes()); h.update(bytes([term, trunc]))
     if term or trunc:
         obs, info = env.reset()

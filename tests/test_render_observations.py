@@ -43,7 +43,7 @@ def test_every_example_runs_in_every_modality(spec_name, modality):
     obs, _ = env.reset(seed=0)
     for _ in range(500):
         assert env.observation_space.contains(obs)
-        obs, _, term, trunc, _ = env.step(int(rng.integers(4)))
+        obs, _, term, trunc, _ = env.step(int(rng.integers(env.action_space.n)))
         if term or trunc:
             obs, _ = env.reset()
 
