@@ -286,22 +286,25 @@ def score_command(episodes: str, manifest: str, as_json: bool) -> None:
 @cli.command(name="gallery")
 @click.argument("specs", nargs=-1, required=True, type=click.Path(dir_okay=False))
 @click.option("--out", "-o", required=True, type=click.Path(file_okay=False), help="Folder of the galleries.")
-@click.option("--episodes", "-n", default=2, show_default=True, type=click.IntRange(min=1),
-              help="Episodes per spec.")
+@click.option("--episodes", "-n", default=1, show_default=True, type=click.IntRange(min=1),
+              help="Episodes per variant.")
+@click.option("--variants", "count", default=3, show_default=True, type=click.IntRange(min=1, max=100),
+              help="Variants per spec, each a section of the page with its baselines and checks.")
 @click.option("--policy", type=click.Choice(["auto", "optimal", "random", "chance", "explorer"]), default="auto",
               show_default=True, help="Who plays: optimal (knows the cue or the path), random, the best "
               "memoryless policy, or on fields the explorer (remembers its missteps); auto: optimal, or the "
               "explorer on fields.")
 @click.option("--seed", "-s", default=0, show_default=True, type=click.IntRange(min=0),
               help="Seed of the first episode.")
-@click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0), help="Variant seed.")
+@click.option("--variant", default=0, show_default=True, type=click.IntRange(min=0),
+              help="Seed of the first variant; the others follow it.")
 @click.option("--force", is_flag=True, help="Replace existing gallery pages and pictures in DIR.")
 @click.option("--scale", type=click.IntRange(min=1, max=16), help="Whole factor the agent's view is enlarged by "
               "(nearest neighbour); by default the smallest that makes a frame at least 160 px high.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress.")
 @set_option
 @limit_options
-def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str, seed: int, variant: int,
+def gallery_command(specs: tuple[str, ...], out: str, episodes: int, count: int, policy: str, seed: int, variant: int,
                     sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool,
                     scale: int | None, quiet: bool) -> None:
     """Render episode filmstrips, animations and index pages for each SPEC into DIR."""
@@ -309,7 +312,8 @@ def gallery_command(specs: tuple[str, ...], out: str, episodes: int, policy: str
 
     with limits.raised(max_work, max_bytes):
         pages = gallery(list(specs), out, episodes=episodes, policy=policy, seed=seed, variant_seed=variant,
-                        overrides=parse_assignments(sets), force=force, progress=not quiet, scale=scale)
+                        overrides=parse_assignments(sets), force=force, progress=not quiet, scale=scale,
+                        variants=count)
     for page in pages:
         click.echo(f"wrote {page}")
 

@@ -25,7 +25,9 @@ class _Links(HTMLParser):
         self.targets: list[str] = []
 
     def handle_starttag(self, tag, attrs):
-        self.targets += [v for k, v in attrs if k in ("href", "src") and v]
+        self.targets += [v for k, v in attrs if k in ("href", "src") and v and not v.startswith("#")]
+        self.anchors = getattr(self, "anchors", []) + [v[1:] for k, v in attrs if k == "href" and v and v.startswith("#")]
+        self.ids = getattr(self, "ids", []) + [v for k, v in attrs if k == "id" and v]
 
 
 def _frames(path: Path) -> list[np.ndarray]:
@@ -49,7 +51,7 @@ def test_pictures_decode_with_the_expected_frames(name):
     legend, and its first cell is the GIF's first frame (up to the GIF palette's rounding)."""
     from taskgen.tools.playback import GAP, TEXT
 
-    for gif in sorted((GALLERY / name).glob("episode-*.gif")):
+    for gif in sorted((GALLERY / name).glob("variant-*-episode-*.gif")):
         frames = _frames(gif)
         strip = np.asarray(Image.open(gif.with_suffix(".png")).convert("RGB"))
         w, h = frames[0].shape[1], frames[0].shape[0]
@@ -64,9 +66,10 @@ def test_pictures_decode_with_the_expected_frames(name):
 
 @pytest.mark.parametrize("name", ["lantern-hall", "marsh-stones"])
 def test_regenerating_a_gallery_is_pixel_identical(tmp_path, name):
-    """Regenerating a committed gallery (a cue task, a field) gives the same pixels in every picture."""
-    gallery([str(taskgen.bundled_specs()[name])], str(tmp_path))
-    for committed in sorted((GALLERY / name).glob("episode-*")):
+    """Regenerating a committed gallery (a cue task, a field; its first variant) gives the same pixels in
+    every picture."""
+    gallery([str(taskgen.bundled_specs()[name])], str(tmp_path), variants=1)
+    for committed in sorted((GALLERY / name).glob("variant-0-episode-*")):
         fresh = tmp_path / name / committed.name
         a, b = _frames(committed), _frames(fresh)
         assert len(a) == len(b) and all(np.array_equal(x, y) for x, y in zip(a, b)), committed.name
@@ -81,18 +84,20 @@ def test_html_links_exist_and_markdown_names_the_same_files(page):
     assert parser.targets
     for target in parser.targets:
         assert (page.parent / target).is_file(), target
+    assert set(getattr(parser, "anchors", [])) <= set(getattr(parser, "ids", []))   # in-page links land
     markdown = (page.parent / "index.md").read_text()
-    md_targets = re.findall(r"\]\(([^)]+)\)", markdown)
+    md_targets = [t for t in re.findall(r"\]\(([^)]+)\)", markdown) if not t.startswith("#")]
     html_files = {t.replace("index.html", "index.md") for t in parser.targets}
     assert set(md_targets) == html_files
 
 
 def test_an_interrupted_run_leaves_no_page(tmp_path, monkeypatch):
-    """If an episode fails half-way, no index page is written and no temporary file remains."""
+    """If an episode fails half-way (the second variant's), no index page is written and no temporary
+    file remains."""
     real = gallery_module.record
 
     def failing(spec, variant_seed, policy, episode, seed, scale=None):
-        if episode == 1:
+        if variant_seed == 1:
             raise KeyboardInterrupt
         return real(spec, variant_seed, policy, episode, seed, scale)
 
@@ -147,13 +152,13 @@ def test_gallery_keeps_what_it_did_not_write(tmp_path):
     (tmp_path / "notes" / "index.html").write_text("<p>my own page</p>")
     (tmp_path / "index.html").write_text("<p>my own index</p>")
     with pytest.raises(OutputError, match="index.html already exists: taskgen gallery would replace it"):
-        gallery([spec], str(tmp_path), episodes=1)
+        gallery([spec], str(tmp_path), episodes=1, variants=1)
     assert (tmp_path / "index.html").read_text() == "<p>my own index</p>"
     (tmp_path / "index.html").unlink()
-    gallery([spec], str(tmp_path), episodes=1)
+    gallery([spec], str(tmp_path), episodes=1, variants=1)
     with pytest.raises(OutputError, match="already exist: taskgen gallery would replace them; give --force"):
-        gallery([spec], str(tmp_path), episodes=1)
-    gallery([spec], str(tmp_path), episodes=1, force=True)
+        gallery([spec], str(tmp_path), episodes=1, variants=1)
+    gallery([spec], str(tmp_path), episodes=1, variants=1, force=True)
     parser = _Links()
     parser.feed((tmp_path / "index.html").read_text())
     assert parser.targets == ["lantern-hall/index.html"]
@@ -161,6 +166,48 @@ def test_gallery_keeps_what_it_did_not_write(tmp_path):
     odd = tmp_path / 'x"><script>y'
     odd.mkdir()
     (odd / "index.html").write_text(gallery_module.GENERATOR)
-    gallery([spec], str(tmp_path), episodes=1, force=True)
+    gallery([spec], str(tmp_path), episodes=1, variants=1, force=True)
     page = (tmp_path / "index.html").read_text()
     assert "<script>" not in page and "x%22%3E%3Cscript%3Ey/index.html" in page
+
+
+def test_a_page_has_a_section_per_variant_and_a_contents_list():
+    """Each committed page (html.parser) has a viewport line, styles, a contents list linking to one
+    section per variant (three or more) and to the spec, and every section names its variant."""
+    for page in sorted(GALLERY.glob("*/index.html")):
+        text = page.read_text()
+        assert '<meta name="viewport"' in text and "<style>" in text
+        sections = re.findall(r'<section id="variant-(\d+)">', text)
+        assert len(sections) >= 3, page
+        for v in sections:
+            assert f'href="#variant-{v}"' in text
+        assert 'href="#spec"' in text and '<section id="spec">' in text
+
+
+def _chromium():
+    import shutil
+    return next((shutil.which(name) for name in ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable")
+                 if shutil.which(name)), None)
+
+
+@pytest.mark.skipif(_chromium() is None, reason="no Chromium or Chrome on this machine")
+@pytest.mark.parametrize("width", [420, 1280])
+def test_pages_load_every_image_and_fit_the_viewport_in_a_real_browser(tmp_path, width):
+    """Headless Chromium renders a committed page at a phone's and a laptop's width: every image loads
+    and nothing is wider than the viewport (a script in a copy of the page writes what it measured into
+    the DOM, which --dump-dom prints)."""
+    import shutil
+    import subprocess
+
+    folder = tmp_path / "page"
+    shutil.copytree(GALLERY / "orchard-hives", folder)
+    probe = ("<script>window.addEventListener('load', () => { const images = [...document.images];"
+             "document.body.dataset.images = images.every(i => i.complete && i.naturalWidth > 0) ? 'ok' : 'broken';"
+             "document.body.dataset.fits = document.documentElement.scrollWidth <= window.innerWidth ? 'ok' : 'wide'; });"
+             "</script></body>")
+    page = folder / "index.html"
+    page.write_text(page.read_text().replace("</body>", probe))
+    out = subprocess.run([_chromium(), "--headless", "--disable-gpu", "--no-sandbox", f"--window-size={width},900",
+                          "--virtual-time-budget=10000", "--dump-dom", page.as_uri()],
+                         capture_output=True, text=True, timeout=120)
+    assert 'data-images="ok"' in out.stdout and 'data-fits="ok"' in out.stdout, out.stdout[-500:]

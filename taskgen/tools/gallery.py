@@ -93,29 +93,33 @@ def _save_gif(path: Path, frames: Sequence[Image.Image]) -> None:
                  loop=0, optimize=False, disposal=1)
 
 
-def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes: int = 2,
+def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes: int = 1,
                  policy: str = "auto", seed: int = 0, variant_seed: int = 0,
-                 progress: bool | None = None, scale: int | None = None) -> Path:
+                 progress: bool | None = None, scale: int | None = None, variants: int = 3) -> Path:
     """Write the gallery of one spec into ``out/<spec name>/`` (``<spec name>+<digest>`` for a spec with
-    overrides); returns its HTML index."""
+    overrides): ``variants`` variants from ``variant_seed`` on, ``episodes`` episodes each; returns its
+    HTML index."""
     policy = resolve_policy(spec, policy)
     folder = child_path(out, spec.name + spec.override_tag)
     folder.mkdir(parents=True, exist_ok=True)
-    report = check_variant(spec, variant_seed)
-    compiled = compile_variant(make_variant(spec, variant_seed))
-    items = []
-    with Progress(episodes, f"gallery {spec.name}", unit="episode", quiet=progress is False) as bar:
-        for e in range(episodes):
-            episode = record(spec, variant_seed, policy, e, seed, scale)
-            png, gif = f"episode-{e}.png", f"episode-{e}.gif"
-            header = [f"{spec.name} · variant {episode.variant_id} · policy {episode.policy} · return "
-                      f"{episode.total_return:+.2f} · {'success' if episode.success else 'no success'}",
-                      "each step: the agent's view (left) | the ground truth (right)"]
-            strip = filmstrip(episode.frames, header, kind_of(spec).swatches(compiled))
-            _save_atomic(folder / png, strip, format="PNG", optimize=False)
-            _save_gif(folder / gif, episode.frames)
-            items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
-            bar.update(1)
+    sections: list[Section] = []
+    with Progress(episodes * variants, f"gallery {spec.name}", unit="episode", quiet=progress is False) as bar:
+        for v in range(variant_seed, variant_seed + variants):
+            report = check_variant(spec, v)
+            compiled = compile_variant(make_variant(spec, v))
+            items: Items = []
+            for e in range(episodes):
+                episode = record(spec, v, policy, e, seed, scale)
+                png, gif = _picture(v, e, "png"), _picture(v, e, "gif")
+                header = [f"{spec.name} · variant {episode.variant_id} · policy {episode.policy} · return "
+                          f"{episode.total_return:+.2f} · {'success' if episode.success else 'no success'}",
+                          "each step: the agent's view (left) | the ground truth (right)"]
+                strip = filmstrip(episode.frames, header, kind_of(spec).swatches(compiled))
+                _save_atomic(folder / png, strip, format="PNG", optimize=False)
+                _save_gif(folder / gif, episode.frames)
+                items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
+                bar.update(1)
+            sections.append((v, report, items))
     if spec.overrides:      # the spec as run: the file's values with the overrides applied
         text = f"# {source}, with " + ", ".join(f"{key}={json.dumps(value)}" for key, value in spec.overrides.items()) \
             + "\n" + yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
@@ -123,8 +127,8 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
         text = Path(source).read_text(encoding="utf-8")
     else:
         text = yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
-    write_text_atomic(folder / "index.md", _markdown(spec, text, report, items, policy, variant_seed, seed))
-    write_text_atomic(folder / "index.html", _html(spec, text, report, items, policy, variant_seed, seed))
+    write_text_atomic(folder / "index.md", _markdown(spec, text, sections, policy, seed))
+    write_text_atomic(folder / "index.html", _html(spec, text, sections, policy, seed))
     return folder / "index.html"
 
 
@@ -140,55 +144,85 @@ def _baseline_rows(report: Report) -> list[tuple[str, str, str, str]]:
 
 
 Items = list[tuple[Episode, str, str]]
+Section = tuple[int, Report, Items]          # a variant seed, its report and its episodes
+
+STYLE = """
+body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; margin: 0; color: #1d1d22; background: #fafafa; }
+main { max-width: 1100px; margin: 0 auto; padding: 1rem 1.25rem 3rem; }
+h1 { margin-bottom: .2rem; } h2 { margin-top: 2.2rem; border-bottom: 1px solid #ddd; padding-bottom: .2rem; }
+img { max-width: 100%; height: auto; display: block; border: 1px solid #ddd; background: #fff; }
+table { border-collapse: collapse; margin: .6rem 0 1rem; display: block; overflow-x: auto; max-width: 100%; }
+th, td { border: 1px solid #ccc; padding: .25rem .55rem; text-align: left; vertical-align: top; }
+th { background: #eee; } td.pass { color: #0a6a3a; } td.fail { color: #a01919; font-weight: 600; }
+pre { background: #fff; border: 1px solid #ddd; padding: .7rem; overflow-x: auto; }
+nav ul { columns: 2; } .note { color: #555; }
+"""
 
 
-def _markdown(spec: Spec, text: str, report: Report, items: Items, policy: str, variant_seed: int,
-              seed: int) -> str:
+def _verdict(check: Any) -> str:
+    return "pass" if check.passed else ("n/a" if check.passed is None else "FAIL")
+
+
+def _markdown(spec: Spec, text: str, sections: list[Section], policy: str, seed: int) -> str:
     lines = [f"# {spec.name}", "", spec.description or "", "",
-             f"Variant `{report.variant_id}` (variant seed {variant_seed}); episodes seeded from {seed}; "
-             f"policy: {kind_of(spec).policies[policy]}.", "", kind_of(spec).legend, "",
-             "| parameter | value |", "| --- | --- |"]
-    lines += [f"| {k} | {v} |" for k, v in report.params.items()]
-    lines += ["", "| baseline | success | mean return | method |", "| --- | --- | --- | --- |"]
-    lines += [f"| {n} | {s} | {r} | {m} |" for n, s, r, m in _baseline_rows(report)]
-    lines += ["", "| check | result | reason |", "| --- | --- | --- |"]
-    lines += [f"| {c.name} | {'pass' if c.passed else ('n/a' if c.passed is None else 'FAIL')} | {c.reason} |"
-              for c in report.checks]
-    for episode, png, gif in items:
-        lines += ["", f"## Episode {episode.index}: return {episode.total_return:+.3f}, "
-                  f"{'success' if episode.success else 'no success'}", "",
-                  f"![episode {episode.index} filmstrip]({png})", "", f"[animation]({gif})"]
-    lines += ["", "## Spec", "", "```yaml", text.rstrip(), "```", ""]
+             f"{len(sections)} variant(s); episodes seeded from {seed}; policy: {kind_of(spec).policies[policy]}.", "",
+             kind_of(spec).legend, "", "Contents:", ""]
+    lines += [f"- [variant {report.variant_id}](#variant-{v})" for v, report, _ in sections] + ["- [spec](#spec)"]
+    for v, report, items in sections:
+        lines += ["", f"## Variant {report.variant_id} <a id=\"variant-{v}\"></a>", "",
+                  "| parameter | value |", "| --- | --- |"]
+        lines += [f"| {k} | {val} |" for k, val in report.params.items()]
+        lines += ["", "| baseline | success | mean return | method |", "| --- | --- | --- | --- |"]
+        lines += [f"| {n} | {succ} | {r} | {m} |" for n, succ, r, m in _baseline_rows(report)]
+        lines += ["", "| check | result | reason |", "| --- | --- | --- |"]
+        lines += [f"| {c.name} | {_verdict(c)} | {c.reason} |" for c in report.checks]
+        for episode, png, gif in items:
+            lines += ["", f"### Episode {episode.index}: return {episode.total_return:+.3f}, "
+                      f"{'success' if episode.success else 'no success'}", "",
+                      f"![variant {v} episode {episode.index} filmstrip]({png})", "", f"[animation]({gif})"]
+    lines += ["", "## Spec <a id=\"spec\"></a>", "", "```yaml", text.rstrip(), "```", ""]
     return "\n".join(lines)
 
 
-def _html(spec: Spec, text: str, report: Report, items: Items, policy: str, variant_seed: int, seed: int) -> str:
+def _html(spec: Spec, text: str, sections: list[Section], policy: str, seed: int) -> str:
     e = html.escape
-    rows = "".join(f"<tr><td>{e(str(k))}</td><td>{e(str(v))}</td></tr>" for k, v in report.params.items())
-    base = "".join(f"<tr><td>{e(n)}</td><td>{s}</td><td>{r}</td><td>{e(m)}</td></tr>"
-                   for n, s, r, m in _baseline_rows(report))
-    checks = "".join(f"<tr><td>{e(c.name)}</td><td>{'pass' if c.passed else ('n/a' if c.passed is None else 'FAIL')}"
-                     f"</td><td>{e(c.reason)}</td></tr>" for c in report.checks)
-    body = "".join(
-        f"<h2>Episode {ep.index}: return {ep.total_return:+.3f}, {'success' if ep.success else 'no success'}</h2>"
-        f'<p><img src="{png}" alt="episode {ep.index} filmstrip"></p><p><a href="{gif}">animation</a></p>'
-        for ep, png, gif in items)
-    return (f"<!DOCTYPE html><html><head><meta charset=\"utf-8\">{GENERATOR}<title>{e(spec.name)}</title></head><body>"
+    contents = "".join(f'<li><a href="#variant-{v}">variant {e(report.variant_id)}</a></li>'
+                       for v, report, _ in sections) + '<li><a href="#spec">spec</a></li>'
+    body = []
+    for v, report, items in sections:
+        rows = "".join(f"<tr><td>{e(str(k))}</td><td>{e(str(val))}</td></tr>" for k, val in report.params.items())
+        base = "".join(f"<tr><td>{e(n)}</td><td>{e(succ)}</td><td>{e(r)}</td><td>{e(m)}</td></tr>"
+                       for n, succ, r, m in _baseline_rows(report))
+        checks = "".join(f'<tr><td>{e(c.name)}</td><td class="{_verdict(c).lower().replace("/", "")}">{_verdict(c)}'
+                         f"</td><td>{e(c.reason)}</td></tr>" for c in report.checks)
+        episodes = "".join(
+            f"<h3>Episode {ep.index}: return {ep.total_return:+.3f}, {'success' if ep.success else 'no success'}</h3>"
+            f'<p><img src="{e(png)}" alt="variant {v}, episode {ep.index}: filmstrip" loading="lazy"></p>'
+            f'<p><a href="{e(gif)}">animation</a></p>' for ep, png, gif in items)
+        body.append(f'<section id="variant-{v}"><h2>Variant <code>{e(report.variant_id)}</code></h2>'
+                    f"<table><tr><th>parameter</th><th>value</th></tr>{rows}</table>"
+                    f"<table><tr><th>baseline</th><th>success</th><th>mean return</th><th>method</th></tr>{base}</table>"
+                    f"<table><tr><th>check</th><th>result</th><th>reason</th></tr>{checks}</table>{episodes}</section>")
+    return (f'<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">{GENERATOR}'
+            '<meta name="viewport" content="width=device-width, initial-scale=1">'
+            f"<title>{e(spec.name)}</title><style>{STYLE}</style></head><body><main>"
             f"<h1>{e(spec.name)}</h1><p>{e(spec.description or '')}</p>"
-            f"<p>Variant <code>{e(report.variant_id)}</code> (variant seed {variant_seed}); episodes seeded from "
-            f"{seed}; policy: {e(kind_of(spec).policies[policy])}.</p>"
-            f"<p>{e(kind_of(spec).legend)}</p>"
-            f"<table><tr><th>parameter</th><th>value</th></tr>{rows}</table>"
-            f"<table><tr><th>baseline</th><th>success</th><th>mean return</th><th>method</th></tr>{base}</table>"
-            f"<table><tr><th>check</th><th>result</th><th>reason</th></tr>{checks}</table>"
-            f"{body}<h2>Spec</h2><pre>{e(text)}</pre></body></html>\n")
+            f'<p class="note">{len(sections)} variant(s); episodes seeded from {seed}; policy: '
+            f"{e(kind_of(spec).policies[policy])}.</p><p class=\"note\">{e(kind_of(spec).legend)}</p>"
+            f"<nav><h2>Contents</h2><ul>{contents}</ul></nav>{''.join(body)}"
+            f'<section id="spec"><h2>Spec</h2><pre>{e(text)}</pre></section></main></body></html>\n')
 
 
-def spec_outputs(spec: Spec, out: str | os.PathLike[str], episodes: int) -> list[Path]:
+def spec_outputs(spec: Spec, out: str | os.PathLike[str], episodes: int, variants: Sequence[int] = (0,)) -> list[Path]:
     """The files a spec's gallery writes (its folder's pages and pictures)."""
     folder = child_path(out, spec.name + spec.override_tag)
     return [folder / "index.html", folder / "index.md"] + \
-        [folder / f"episode-{e}.{ext}" for e in range(episodes) for ext in ("png", "gif")]
+        [folder / _picture(v, e, ext) for v in variants for e in range(episodes) for ext in ("png", "gif")]
+
+
+def _picture(variant: int, episode: int, ext: str) -> str:
+    """The file name of a variant's episode picture."""
+    return f"variant-{variant}-episode-{episode}.{ext}"
 
 
 def _ours(page: Path) -> bool:
@@ -201,19 +235,20 @@ def _ours(page: Path) -> bool:
     return GENERATOR in head or MD_MARK in head
 
 
-def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "auto", seed: int = 0,
+def gallery(sources: Sequence[str], out: str, episodes: int = 1, policy: str = "auto", seed: int = 0,
             variant_seed: int = 0, overrides: Mapping[str, Any] | None = None, force: bool = False,
-            progress: bool | None = None, scale: int | None = None) -> list[Path]:
+            progress: bool | None = None, scale: int | None = None, variants: int = 3) -> list[Path]:
     """Galleries of several specs (each with ``overrides``, dotted keys, applied), plus a top-level
     index of the spec galleries in ``out``. Existing pages and pictures are replaced only with ``force``
     (the root index also when taskgen wrote it); one run at a time writes into ``out``."""
     specs = [resolve_spec(source, **(overrides or {})) for source in sources]   # all validated before drawing
     root = Path(out)
     with locked_folder(root):
-        mine = [path for spec in specs for path in spec_outputs(spec, root, episodes)]
+        mine = [path for spec in specs for path in
+                spec_outputs(spec, root, episodes, range(variant_seed, variant_seed + variants))]
         mine += [page for page in (root / "index.html", root / "index.md") if page.exists() and not _ours(page)]
         refuse_overwrite(mine, force, "taskgen gallery")
-        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed, progress, scale)
+        pages = [spec_gallery(spec, source, out, episodes, policy, seed, variant_seed, progress, scale, variants)
                  for source, spec in zip(sources, specs)]
         names = sorted(p.parent.name for p in root.glob("*/index.html") if _ours(p))   # taskgen's galleries only
         md = ["# Episode galleries", "", MD_MARK, "", "One page per spec: filmstrips, animations, baselines and the spec.",
@@ -221,7 +256,8 @@ def gallery(sources: Sequence[str], out: str, episodes: int = 2, policy: str = "
         md += [f"- [{n}]({quote(n)}/index.md)" for n in names]
         links = "".join(f'<li><a href="{html.escape(quote(n))}/index.html">{html.escape(n)}</a></li>' for n in names)
         write_text_atomic(root / "index.md", "\n".join(md) + "\n")
-        write_text_atomic(root / "index.html", f"<!DOCTYPE html><html><head><meta charset=\"utf-8\">{GENERATOR}<title>"
-                          "Episode galleries</title></head><body><h1>Episode galleries</h1><ul>"
-                          f"{links}</ul></body></html>\n")
+        write_text_atomic(root / "index.html", f'<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">{GENERATOR}'
+                          '<meta name="viewport" content="width=device-width, initial-scale=1">'
+                          f"<title>Episode galleries</title><style>{STYLE}</style></head><body><main>"
+                          f"<h1>Episode galleries</h1><ul>{links}</ul></main></body></html>\n")
     return pages
