@@ -89,7 +89,7 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     if workers > (os.cpu_count() or 1):
         raise click.BadParameter(f"{workers} is more than the {os.cpu_count()} CPUs of this machine",
                                  param_hint="--workers")
-    if is_manifest(spec) if os.path.isfile(spec) else False:
+    if os.path.isfile(spec) and is_manifest(spec):
         if split is None or sets:
             raise click.UsageError(f"{spec}: this is a variant manifest, not a spec; check a split of it with "
                                    "--split NAME (no --set: a manifest fixes its variants)")

@@ -18,16 +18,22 @@ GALLERY = Path(__file__).resolve().parents[1] / "gallery"
 
 
 class _Links(HTMLParser):
-    """Collects href and src attributes (Python's html.parser)."""
+    """Collects file links (href, src), in-page links (#...) and element ids (Python's html.parser)."""
 
     def __init__(self) -> None:
         super().__init__()
         self.targets: list[str] = []
+        self.anchors: list[str] = []
+        self.ids: list[str] = []
 
     def handle_starttag(self, tag, attrs):
-        self.targets += [v for k, v in attrs if k in ("href", "src") and v and not v.startswith("#")]
-        self.anchors = getattr(self, "anchors", []) + [v[1:] for k, v in attrs if k == "href" and v and v.startswith("#")]
-        self.ids = getattr(self, "ids", []) + [v for k, v in attrs if k == "id" and v]
+        for key, value in attrs:
+            if key in ("href", "src") and value and not value.startswith("#"):
+                self.targets.append(value)
+            elif key == "href" and value:
+                self.anchors.append(value[1:])
+            elif key == "id" and value:
+                self.ids.append(value)
 
 
 def _frames(path: Path) -> list[np.ndarray]:
@@ -84,7 +90,7 @@ def test_html_links_exist_and_markdown_names_the_same_files(page):
     assert parser.targets
     for target in parser.targets:
         assert (page.parent / target).is_file(), target
-    assert set(getattr(parser, "anchors", [])) <= set(getattr(parser, "ids", []))   # in-page links land
+    assert set(parser.anchors) <= set(parser.ids)   # in-page links land
     markdown = (page.parent / "index.md").read_text()
     md_targets = [t for t in re.findall(r"\]\(([^)]+)\)", markdown) if not t.startswith("#")]
     html_files = {t.replace("index.html", "index.md") for t in parser.targets}
@@ -186,8 +192,8 @@ def test_a_page_has_a_section_per_variant_and_a_contents_list():
 
 def _chromium():
     import shutil
-    return next((shutil.which(name) for name in ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable")
-                 if shutil.which(name)), None)
+    found = (shutil.which(name) for name in ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable"))
+    return next((path for path in found if path), None)
 
 
 @pytest.mark.skipif(_chromium() is None, reason="no Chromium or Chrome on this machine")
