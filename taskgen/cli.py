@@ -71,9 +71,12 @@ def cli() -> None:
 @click.option("--split", help="SPEC is a manifest: check the variants of this split (as listed, fingerprints checked).")
 @click.option("--update", is_flag=True, help="With a manifest: write the full figures of the split's variants into it "
               "(for a suite written with --baselines fast or none).")
+@click.option("--plot", type=click.Path(dir_okay=False), metavar="FILE.png",
+              help="Also draw each variant's memory gap and recall distance as a strip chart into FILE.png "
+              "(needs taskgen[plots]).")
 def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, max_work: str | None,
           max_bytes: str | None, paths: int, chance_budget: int, sets: tuple[str, ...], workers: int,
-          scheduler: str | None, quiet: bool, split: str | None, update: bool) -> None:
+          scheduler: str | None, quiet: bool, split: str | None, update: bool, plot: str | None) -> None:
     """Validate SPEC, compile variants and check that each is solvable and needs memory.
 
     Reports solvability, the memory gap and the optimal, chance (best memoryless) and random
@@ -89,6 +92,9 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
     if workers > (os.cpu_count() or 1):
         raise click.BadParameter(f"{workers} is more than the {os.cpu_count()} CPUs of this machine",
                                  param_hint="--workers")
+    if plot:
+        from .tools import plots
+        plots.require()      # asked now, not after the run
     if os.path.isfile(spec) and is_manifest(spec):
         if split is None or sets:
             raise click.UsageError(f"{spec}: this is a variant manifest, not a spec; check a split of it with "
@@ -103,6 +109,9 @@ def check(spec: str, variants: int, seed: int, min_gap: float, as_json: bool, ma
             run = run_check(loaded, spec, variants=variants, seed=seed, min_gap=min_gap, paths=paths,
                             budget=chance_budget, workers=workers, scheduler=scheduler, progress=not quiet)
     click.echo(json.dumps(run.to_dict(), indent=2) if as_json else format_text(run))
+    if plot:
+        drawn = plots.strip_plot(plots.report_rows(run.reports), run.spec.name + run.spec.override_tag, plot)
+        click.echo(f"drew {drawn}", err=True)
     sys.exit(0 if run.ok else EXIT_FAILED)
 
 
@@ -193,14 +202,18 @@ def bench(specs: tuple[str, ...], every: bool, num_envs: int, seconds: float, sy
 @click.option("--baselines", type=click.Choice(["full", "fast", "none"]), default="full", show_default=True,
               help="Analyses per variant: full (every baseline, the certified chance level and the checks), fast "
               "(optimal and random only, no chance search) or none.")
+@click.option("--plot", is_flag=True, help="Also draw DIR/sweep-<KEY>.png per swept key (each baseline's return "
+              "against the key) or, without a sweep, DIR/variants.png (each variant's memory gap and recall "
+              "distance); needs taskgen[plots].")
 @set_option
 @limit_options
 def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ...], zipped: bool,
              disjoint: bool, holdout: str | None, holdout_split: str, seed: int, workers: int,
              sets: tuple[str, ...], max_work: str | None, max_bytes: str | None, force: bool, scheduler: str | None,
-             quiet: bool, baselines: str, resume: bool) -> None:
+             quiet: bool, baselines: str, resume: bool, plot: bool) -> None:
     """Generate a reproducible suite of variants of SPEC with held-out splits, as DIR/manifest.yaml
     (byte for byte the same for any --workers or --scheduler)."""
+    from .tools import plots
     from .tools.variants import SuiteRequest, build_suite, parse_assignment, parse_splits, write_manifest
 
     cpus = os.cpu_count() or 1
@@ -214,12 +227,23 @@ def variants(spec: str, out: str, splits: tuple[str, ...], sweeps: tuple[str, ..
         holdout=parse_assignment(holdout) if holdout else None, holdout_split=holdout_split, seed=seed,
         baselines=baselines)
     loaded = resolve_spec(spec, **parse_assignments(sets))
+    pictures = [f"sweep-{key}.png" for key, _ in request.sweeps] if request.sweeps else ["variants.png"]
+    if plot:     # asked now, not after the run
+        plots.require()
+        if baselines == "none" or (baselines == "fast" and not request.sweeps):
+            raise click.UsageError(f"--plot needs figures: {'a sweep or ' if baselines == 'fast' else ''}"
+                                   "--baselines full")
     with limits.raised(max_work, max_bytes), locked_folder(out) as folder:
-        refuse_overwrite([folder / "manifest.yaml"], force, "taskgen variants")
+        refuse_overwrite([folder / "manifest.yaml"] + ([folder / p for p in pictures] if plot else []), force,
+                         "taskgen variants")
         manifest = build_suite(loaded, request, workers=workers, scheduler=scheduler, progress=not quiet,
                                shards=str(folder / "shards"), resume=resume)
         path = write_manifest(manifest, out)
         shutil.rmtree(folder / "shards", ignore_errors=True)     # the manifest holds every figure now
+        if plot:
+            drawn = plots.sweep_plots(manifest, folder) if request.sweeps else \
+                [plots.strip_plot(plots.entry_rows(manifest["variants"]), loaded.name, folder / "variants.png")]
+            click.echo("drew " + ", ".join(str(p) for p in drawn), err=True)
     counts: dict[str, int] = {}
     for v in manifest["variants"]:
         counts[v["split"]] = counts.get(v["split"], 0) + 1

@@ -126,20 +126,20 @@ def test_other_policies_record_episodes(policy, tmp_path):
 @pytest.mark.parametrize("observation", [None, {"vector": None, "pixels": {"height": 48, "width": 40}}],
                          ids=["drawn view", "pixels"])
 def test_agent_views_of_a_hidden_path_episode_show_no_path(observation):
-    """In every frame of a field episode, the agent's view (left) holds no pixel of the path's
-    colours while the ground truth (right) does; marks appear in the agent's view after a misstep."""
+    """In every frame of a field episode, what the agent saw (left: its vector or pixels drawn) holds no pixel
+    of the path's colours while the ground truth (right) does; marks appear in the agent's view after a misstep."""
     from taskgen.render.palette import MARK, PATH, PATH_END
     from conftest import field_spec_text
     spec = taskgen.load_spec_text(field_spec_text(width=5, height=6, turns=2, start="random", mark={"steps": 4},
                                                   observation=observation, rewards={"misstep": -0.1}))
     episode = gallery_module.record(spec, 0, "explorer", 0, 3)
-    from taskgen.tools.playback import GAP
+    from taskgen.tools.playback import GAP, TITLE
     height, agent_width, truth_width = episode.panels
     marked = 0
     for frame in episode.frames:
         pixels = np.asarray(frame)[GAP:GAP + height]
         agent = pixels[:, GAP:GAP + agent_width]
-        truth = pixels[:, 2 * GAP + agent_width:2 * GAP + agent_width + truth_width]
+        truth = pixels[TITLE:, 2 * GAP + agent_width:2 * GAP + agent_width + truth_width]
         for colour in (PATH, PATH_END):
             assert not (agent == colour).all(axis=2).any()
         assert (truth == PATH).all(axis=2).any()

@@ -176,8 +176,9 @@ class CueKind:
         "random": "uniform-random actions",
         "chance": "the best deterministic memoryless policy (acts on the current observation only)",
     }
-    legend: str = ("Each frame: the agent's view (left) and the ground truth (right: the whole map, the true "
-                   "cue and the goal it names, outlined).")
+    legend: str = ("Each frame: what the agent saw (left: its observation drawn, every modality, decoys and lures "
+                   "where they showed) and the ground truth (right: the whole map, the true cue and the goal it "
+                   "names, outlined).")
     details_json: type[Any] = CueDetailsJSON
 
     def draw(self, spec: Spec, seed: int) -> Variant:

@@ -164,8 +164,8 @@ class FieldKind:
         "random": "uniform-random actions",
         "chance": "the best deterministic memoryless policy (acts on the current observation, its marks included)",
     }
-    legend: str = ("Each frame: the agent's view (left: the agent and its marks, never the path) and the ground "
-                   "truth (right: the hidden path in green, its end in yellow, marks outlined).")
+    legend: str = ("Each frame: what the agent saw (left: its observation drawn, marks included, never the path) "
+                   "and the ground truth (right: the hidden path in green, its end in yellow, marks outlined).")
     details_json: type[Any] = PathDetailsJSON
 
     def draw(self, spec: Spec, seed: int) -> Variant:

@@ -17,12 +17,14 @@ from .topdown import TopDownRenderer
 
 def truth_picture(renderer: TopDownRenderer, model: TaskModel, state: int) -> np.ndarray:
     """uint8[H, W, 3]: the whole map with the agent at ``state`` of the model and, in a cue task, the
-    lamp lit in the true cue's colour and the goals the true cue (a sequence of values) names outlined."""
+    lamp lit in the colour of the true cue's value being shown (its first value while none is) and
+    the goals the true cue (a sequence of values) names outlined."""
     frame = renderer.frame(int(model.obs_key[state]))
     sequence = cue_sequence(model, state)
     if not sequence:
         return frame
-    renderer.light(frame, sequence[0])
+    shown = int(model.shown_cue()[model.obs_key[state]])
+    renderer.light(frame, shown if shown >= 0 else sequence[0])
     picture = Image.fromarray(frame)
     draw = ImageDraw.Draw(picture)
     goals = model.layout.sites.get("goal", np.zeros(0, dtype=np.int64))

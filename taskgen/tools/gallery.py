@@ -22,14 +22,17 @@ from PIL import Image, ImageDraw
 from ..analysis import Report
 from ..factory import resolve_spec
 from ..kinds import compile_variant, kind_of, make_variant
+from ..render.seen import GAP, TEXT, font
 from ..spec import Spec
+from . import plots
 from .check import check_variant
 from .output import child_path, locked_folder, refuse_overwrite, write_bytes_atomic, write_text_atomic
-from .playback import GAP, MIN_FRAME, TEXT, Episode, font, record, resolve_policy
+from .playback import MIN_FRAME, Episode, record, resolve_policy
 from .progress import Progress
 
 POLICIES = ("auto", "optimal", "random", "chance", "explorer")
 MAX_WIDTH = 1600     # a filmstrip's rows wrap before this width (as many whole steps as fit, at least one)
+CHART = "variants.png"   # the strip chart of the page's variants (taskgen[plots])
 FRAME_MS = 250
 
 __all__ = ["FRAME_MS", "MAX_WIDTH", "MIN_FRAME", "POLICIES", "Episode", "filmstrip", "gallery", "record",
@@ -113,13 +116,18 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
                 png, gif = _picture(v, e, "png"), _picture(v, e, "gif")
                 header = [f"{spec.name} · variant {episode.variant_id} · policy {episode.policy} · return "
                           f"{episode.total_return:+.2f} · {'success' if episode.success else 'no success'}",
-                          "each step: the agent's view (left) | the ground truth (right)"]
-                strip = filmstrip(episode.frames, header, kind_of(spec).swatches(compiled))
+                          "each step: what the agent saw, its observation drawn (left) | the ground truth (right)"]
+                strip = filmstrip(episode.frames, header, kind_of(spec).swatches(compiled) + list(episode.swatches))
                 _save_atomic(folder / png, strip, format="PNG", optimize=False)
                 _save_gif(folder / gif, episode.frames)
                 items.append((replace(episode, frames=[]), png, gif))   # on disk now: its frames are not kept
                 bar.update(1)
             sections.append((v, report, items))
+    chart = None
+    if plots.available():   # each variant's memory gap and recall distance, drawn when taskgen[plots] is installed
+        plots.strip_plot(plots.report_rows([report for _, report, _ in sections]), spec.name + spec.override_tag,
+                         folder / CHART)
+        chart = CHART
     if spec.overrides:      # the spec as run: the file's values with the overrides applied
         text = f"# {source}, with " + ", ".join(f"{key}={json.dumps(value)}" for key, value in spec.overrides.items()) \
             + "\n" + yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
@@ -127,8 +135,8 @@ def spec_gallery(spec: Spec, source: str, out: str | os.PathLike[str], episodes:
         text = Path(source).read_text(encoding="utf-8")
     else:
         text = yaml.safe_dump(spec.model_dump(mode="json"), sort_keys=False)
-    write_text_atomic(folder / "index.md", _markdown(spec, text, sections, policy, seed))
-    write_text_atomic(folder / "index.html", _html(spec, text, sections, policy, seed))
+    write_text_atomic(folder / "index.md", _markdown(spec, text, sections, policy, seed, chart))
+    write_text_atomic(folder / "index.html", _html(spec, text, sections, policy, seed, chart))
     return folder / "index.html"
 
 
@@ -163,11 +171,13 @@ def _verdict(check: Any) -> str:
     return "pass" if check.passed else ("n/a" if check.passed is None else "FAIL")
 
 
-def _markdown(spec: Spec, text: str, sections: list[Section], policy: str, seed: int) -> str:
+def _markdown(spec: Spec, text: str, sections: list[Section], policy: str, seed: int, chart: str | None) -> str:
     lines = [f"# {spec.name}", "", spec.description or "", "",
              f"{len(sections)} variant(s); episodes seeded from {seed}; policy: {kind_of(spec).policies[policy]}.", "",
              kind_of(spec).legend, "", "Contents:", ""]
     lines += [f"- [variant {report.variant_id}](#variant-{v})" for v, report, _ in sections] + ["- [spec](#spec)"]
+    if chart:
+        lines += ["", f"![memory gap and recall distance of each variant]({chart})"]
     for v, report, items in sections:
         lines += ["", f"## Variant {report.variant_id} <a id=\"variant-{v}\"></a>", "",
                   "| parameter | value |", "| --- | --- |"]
@@ -184,7 +194,7 @@ def _markdown(spec: Spec, text: str, sections: list[Section], policy: str, seed:
     return "\n".join(lines)
 
 
-def _html(spec: Spec, text: str, sections: list[Section], policy: str, seed: int) -> str:
+def _html(spec: Spec, text: str, sections: list[Section], policy: str, seed: int, chart: str | None) -> str:
     e = html.escape
     contents = "".join(f'<li><a href="#variant-{v}">variant {e(report.variant_id)}</a></li>'
                        for v, report, _ in sections) + '<li><a href="#spec">spec</a></li>'
@@ -209,14 +219,16 @@ def _html(spec: Spec, text: str, sections: list[Section], policy: str, seed: int
             f"<h1>{e(spec.name)}</h1><p>{e(spec.description or '')}</p>"
             f'<p class="note">{len(sections)} variant(s); episodes seeded from {seed}; policy: '
             f"{e(kind_of(spec).policies[policy])}.</p><p class=\"note\">{e(kind_of(spec).legend)}</p>"
-            f"<nav><h2>Contents</h2><ul>{contents}</ul></nav>{''.join(body)}"
+            f"<nav><h2>Contents</h2><ul>{contents}</ul></nav>"
+            + (f'<p><img src="{e(chart)}" alt="memory gap and recall distance of each variant"></p>' if chart else "")
+            + f"{''.join(body)}"
             f'<section id="spec"><h2>Spec</h2><pre>{e(text)}</pre></section></main></body></html>\n')
 
 
 def spec_outputs(spec: Spec, out: str | os.PathLike[str], episodes: int, variants: Sequence[int] = (0,)) -> list[Path]:
     """The files a spec's gallery writes (its folder's pages and pictures)."""
     folder = child_path(out, spec.name + spec.override_tag)
-    return [folder / "index.html", folder / "index.md"] + \
+    return [folder / "index.html", folder / "index.md", folder / CHART] + \
         [folder / _picture(v, e, ext) for v in variants for e in range(episodes) for ext in ("png", "gif")]
 
 

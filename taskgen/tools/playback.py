@@ -1,9 +1,9 @@
 """Playing one episode for a gallery, through an environment's public interface only.
 
-Each step is drawn twice: the agent's view (the spec's first-person or top-down pixels, or else
-``render()``, a top-down picture of what its observation shows) and ``ground_truth()`` (the
-hidden value drawn: the true cue and the goals it names, or the hidden path), labelled by the
-task kind. Policies read only what ``step`` returns (``info["analysis_only"]`` for the ones that
+Each step is drawn twice: what the agent saw (its observation made visible, every modality:
+render/seen.py) and ``ground_truth()`` (the hidden value drawn: the true cue and the goals it
+names, or the hidden path), captioned by the task kind, with any decoy or lure the agent saw and,
+at the end, why the episode ended. Policies read only what ``step`` returns (``info["analysis_only"]`` for the ones that
 know the hidden value).
 """
 
@@ -13,19 +13,18 @@ from dataclasses import dataclass
 from typing import Any
 
 import math
-from pathlib import Path
 
 import numpy as np
-from PIL import Image, ImageDraw, ImageFont
+from PIL import Image, ImageDraw
 
 from ..factory import make
 from ..kinds import kind_of
+from ..render.palette import MARK
+from ..render.seen import GAP, TEXT, distractors_seen, font, observation_picture, seen_swatches
 from ..spec import Spec
 
 MIN_FRAME = 160      # a frame is scaled up (nearest neighbour, by a whole factor) to at least this height
-GAP = 8              # pixels between the agent's view and the ground truth, and around a cell
-TEXT = 15            # label size in pixels
-FONT = Path(__file__).resolve().parent.parent / "render" / "fonts" / "DejaVuSans.ttf"   # shipped, with its licence
+TITLE = TEXT + 4     # the line above each panel that names it
 
 
 @dataclass
@@ -39,12 +38,9 @@ class Episode:
     success: bool
     variant_id: str = ""
     policy: str = ""
-    panels: tuple[int, int, int] = (0, 0, 0)   # height, agent view width, ground truth width (pixels)
-
-
-def font(size: int = TEXT) -> Any:
-    """DejaVu Sans, shipped with taskgen, so labels are the same pixels on every machine (with one Pillow)."""
-    return ImageFont.truetype(str(FONT), size)
+    panels: tuple[int, int, int] = (0, 0, 0)   # height, agent view width, ground truth width (pixels), each
+                                               # panel below its TITLE line, GAP in from the cell's top left
+    swatches: tuple[tuple[tuple[int, int, int], str], ...] = ()   # legend entries of the agent's drawn view
 
 
 def scaled(image: np.ndarray, height: int) -> Image.Image:
@@ -74,14 +70,15 @@ def resolve_policy(spec: Spec, policy: str) -> str:
 
 
 def _frame(agent: Image.Image, truth: Image.Image, lines: list[str], typeface: Any) -> Image.Image:
-    """One step of a gallery: the agent's view and the ground truth side by side (never split), with
-    ``lines`` of caption below, in a cell with a margin."""
-    height = max(agent.height, truth.height)
+    """One step of a gallery: what the agent saw (each modality under its title) and the ground truth
+    (under its own) side by side (never split), with ``lines`` of caption below, in a cell with a margin."""
+    height = max(agent.height, TITLE + truth.height)
     frame = Image.new("RGB", (GAP + agent.width + GAP + truth.width + GAP, GAP + height + (TEXT + 4) * len(lines)
                               + GAP), (255, 255, 255))
     frame.paste(agent, (GAP, GAP))
-    frame.paste(truth, (GAP + agent.width + GAP, GAP))
+    frame.paste(truth, (GAP + agent.width + GAP, GAP + TITLE))
     draw = ImageDraw.Draw(frame)
+    draw.text((GAP + agent.width + GAP, GAP), "ground truth", fill=(0, 0, 0), font=font(TEXT - 2))
     for i, line in enumerate(lines):
         draw.text((GAP, GAP + height + 2 + i * (TEXT + 4)), line, fill=(0, 0, 0), font=typeface)
     return frame
@@ -89,33 +86,49 @@ def _frame(agent: Image.Image, truth: Image.Image, lines: list[str], typeface: A
 
 def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int, scale: int | None = None) -> Episode:
     """Play one episode of variant ``variant_seed`` with a policy (reset seed ``seed + episode``) and draw
-    each step's agent view beside its ground truth, scaled up (``scale``; see :func:`frame_height`)."""
+    each step's observation beside its ground truth, pixels scaled up (``scale``; see :func:`frame_height`)."""
     kind = kind_of(spec)
     policy = resolve_policy(spec, policy)
     env = make(spec, variant=variant_seed, render_mode="rgb_array", analysis_info=True)
     model = env.model
-    choose = kind.policy(policy, model, env.observations, seed + episode)
+    observations = env.observations
+    choose = kind.policy(policy, model, observations, seed + episode)
     typeface = font()
+    mask = env.observation_mask() if observations.vector is not None else None
+    egocentric = spec.observation.grid is not None and spec.observation.grid.frame == "egocentric"
+    mark = model.paths.mark_colour if model.paths is not None else MARK
     obs, info = env.reset(seed=seed + episode)
-    frames, labels, total, reward, t, done = [], [], 0.0, 0.0, 0, False
+    frames, labels, total, reward, t = [], [], 0.0, 0.0, 0
+    terminated = truncated = False
     height, panels = 0, (0, 0, 0)
     while True:
-        parts = obs if isinstance(obs, dict) else {env.observations.names[0]: obs}
-        view = next((parts[name] for name in ("first_person", "pixels") if name in parts), None)
-        agent = view if view is not None else env.render()
-        assert agent is not None
-        height = height or frame_height(agent, scale)
+        truth_picture = env.ground_truth()
+        if not height:     # pixels the agent gets set the scale; without them, the ground truth does
+            parts = obs if isinstance(obs, dict) else {observations.names[0]: obs}
+            view = next((parts[name] for name in ("first_person", "pixels") if name in parts), None)
+            height = frame_height(view if view is not None else truth_picture, scale)
+        seen = Image.fromarray(observation_picture(observations, obs, height, mask, egocentric, mark))
+        truth = scaled(truth_picture, height)
+        done = terminated or truncated
         action = None if done else choose(t, info)
-        text = (f"t={t} " + ("end" if action is None else model.action_names[action]) + f" r={reward:+.2f}"
-                + kind.caption(model, info))
-        seen, truth = scaled(agent, height), scaled(env.ground_truth(), height)
-        panels = (height, seen.width, truth.width)
+        shown = distractors_seen(observations, obs, int(model.obs_key[info["analysis_only"]["state"]])) \
+            if model.paths is None else []
+        text = (f"t={t} " + (_ending(terminated, kind.succeeded(model, info)) if action is None
+                             else model.action_names[action]) + f" r={reward:+.2f}" + kind.caption(model, info)
+                + ("".join(f", {s} seen" for s in shown)))
+        panels = (max(seen.height, TITLE + truth.height), seen.width, truth.width)
         frames.append(_frame(seen, truth, [text, kind.truth_label(model, info)], typeface))
         labels.append(text)
         if action is None:
             return Episode(episode, frames, labels, total, kind.succeeded(model, info), model.variant_id, policy,
-                           panels)
+                           panels, tuple(seen_swatches(observations, mask)))
         obs, reward, terminated, truncated, info = env.step(action)
         total += reward
         t += 1
-        done = terminated or truncated
+
+
+def _ending(terminated: bool, success: bool) -> str:
+    """Why an episode ended: a terminal state (a success or not), or the step limit."""
+    if terminated:
+        return "end: terminal, " + ("success" if success else "no success")
+    return "end: step limit"

@@ -145,9 +145,9 @@ def _figures(job: tuple[tuple[str, str], int]) -> dict[str, Any]:
 
 def figures_of(report: Report) -> dict[str, Any]:
     """A report's figures as a manifest entry holds them (the same objects as `check --json`, without the
-    search's wall-clock time, so that a manifest repeats byte for byte)."""
-    return {"baselines": {name: _without_seconds(report.baselines[name].to_dict())
-                          for name in ("optimal", "chance", "chance_stochastic", "random")},
+    search's wall-clock time, so that a manifest repeats byte for byte): every baseline of the kind (a cue
+    task's cue-blind agent, a field's explorer as well)."""
+    return {"baselines": {name: _without_seconds(baseline.to_dict()) for name, baseline in report.baselines.items()},
             "memory_gap": report.memory_gap.to_dict(), "chance_level": report.chance_level, "checks_ok": report.ok,
             "details": report.details.to_dict() if report.details is not None else {}}
 
