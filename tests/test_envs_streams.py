@@ -80,3 +80,26 @@ def test_the_single_env_draws_in_python_integers_equal_the_numpy_ones():
     cumulative /= cumulative[-1]
     for u in np.concatenate([rng.random(200), cumulative, [0.0, 0.999999]]):
         assert categorical_one(float(u), cumulative.tolist()) == int(categorical(np.array([u]), cumulative[None])[0])
+
+
+def test_picking_by_integer_thresholds_equals_picking_by_floats():
+    """categorical_bits on uniform_bits equals categorical on uniform (the float path, numpy's
+    comparison the reference) for one shared row (a sorted search) and for a row per draw, with
+    probabilities padded with 1.0 and draws placed exactly on a threshold."""
+    from taskgen.envs.streams import categorical, categorical_bits, uniform_bits, unit_thresholds
+
+    rng = np.random.default_rng(3)
+    keys = subkeys(rng.integers(0, 2**63, size=4000, dtype=np.uint64), "cue")
+    u, m = uniform(keys), uniform_bits(keys)
+    assert np.array_equal(u, m.astype(np.float64) * 2.0**-53)
+    for width in (1, 2, 3, 7):
+        probs = rng.dirichlet(np.ones(width), size=4000)
+        cumulative = np.concatenate([np.cumsum(probs, axis=1), np.ones((4000, 2))], axis=1)   # padded
+        assert np.array_equal(categorical_bits(m, unit_thresholds(cumulative)), categorical(u, cumulative))
+        row = cumulative[0]
+        assert np.array_equal(categorical_bits(m, unit_thresholds(row)),
+                              categorical(u, np.broadcast_to(row, cumulative.shape)))
+        exact = unit_thresholds(row)[:-2]           # draws exactly on each threshold and one below it
+        on = np.concatenate([exact, exact - 1]).astype(np.uint64)
+        assert np.array_equal(categorical_bits(on, unit_thresholds(row)),
+                              categorical(on.astype(np.float64) * 2.0**-53, np.broadcast_to(row, (on.size, row.size))))

@@ -90,8 +90,10 @@ class Core(ABC):
         """Bytes held per environment (state arrays) and shared (tables), for the benchmark."""
 
     # -- one environment: correct defaults on the batched methods; kinds may override for speed --------
-    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
-        """Start the episode of a core of one whose key is ``key``: its first observation and info."""
+    def start_one(self, key: np.ndarray, origin: tuple[int, int] | None = None) -> tuple[Any, dict[str, Any]]:
+        """Start the episode of a core of one whose key is ``key``: its first observation and info.
+        ``origin`` is the episode's (stream, number), for a core that draws ahead for the stream's next
+        episodes."""
         self.begin(ROW, key)
         return self.observe_one(), self.info_one()
 

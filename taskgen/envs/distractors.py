@@ -4,8 +4,9 @@ applied the same way by the single and the batched runtime.
 Each step has six draws per environment (``uniform(key, step, 6)``, purpose 'distractor'): 0 decides
 a decoy and 1 its value; 2 decides a lure, 3 its value, 4 its grid cell and 5 its pixel tile. The
 batch draws column 0 (and 2) for every environment and the rest only for the environments whose
-decoy (lure) shows, so the work follows what is shown; a single env draws the same numbers one at a
-time (:func:`~taskgen.envs.streams.draw`) and calls the painters only on the steps where something shows.
+decoy (lure) shows, so the work follows what is shown; a single env draws each episode's decoys with
+the episode (:func:`decoy_tracks`, the same numbers), its lures one at a time
+(:func:`~taskgen.envs.streams.draw`), and calls the painters only on the steps where something shows.
 """
 
 from __future__ import annotations
@@ -30,6 +31,15 @@ _LAMPS = (("pixels", topdown_lamp), ("first_person", first_person_lamp))
 def _value(u: np.ndarray, k: int) -> np.ndarray:
     """A cue value drawn uniformly from ``u``."""
     return np.minimum((u * k).astype(np.int64), k - 1)
+
+
+def decoy_tracks(keys: np.ndarray, steps: int, probability: float, k: int) -> np.ndarray:
+    """int64[E, steps]: the decoy cue value of each episode whose 'distractor' key is ``keys`` [E] at
+    steps 0 … steps − 1 (−1: no decoy), the draws :func:`apply_distractors` makes step by step (shown
+    only where the real cue is not); a single env draws a block of episodes at once."""
+    keys = np.asarray(keys, dtype=np.uint64)[:, None]
+    at = np.arange(steps)[None, :]
+    return np.where(below(keys, at, 0, probability), _value(uniform_column(keys, at, 1), k), -1)
 
 
 def show_decoys(obs: ObservationSet, parts: dict[str, np.ndarray], rows: np.ndarray, value: np.ndarray) -> None:
@@ -75,7 +85,8 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
 
     ``keys`` are the environments' 'distractor' subkeys, ``cue_shown`` marks those whose real
     cue is in view (no decoy then); lure tiles of env i are rows ``tile_offsets[i] …
-    + tile_counts[i]`` of ``tiles``.
+    + tile_counts[i]`` of ``tiles``. (Drawing each episode's decoys at its start, as a single env
+    does, costs a batch more than it saves: the hash then runs over every step of the step limit.)
     """
     k = obs.cue_values
     if obs.decoy_probability > 0:
@@ -93,12 +104,14 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: n
 
 
 def distract_one(obs: ObservationSet, parts: dict[str, np.ndarray], key: int, step: int, cue_shown: bool,
-                 tile_count: np.ndarray, tile_offset: np.ndarray, tiles: np.ndarray | None) -> None:
+                 tile_count: np.ndarray, tile_offset: np.ndarray, tiles: np.ndarray | None, decoy: int) -> None:
     """The same overlay for one environment whose 'distractor' key is ``key`` (a Python int), at
-    ``step``; ``parts`` carry a batch axis of one. Nothing is painted on a step where nothing shows."""
+    ``step``; ``parts`` carry a batch axis of one. ``decoy`` is this step's decoy value, drawn ahead
+    with the episode (−1: none; see :func:`decoy_tracks`); lures are drawn now. Nothing is painted on a
+    step where nothing shows."""
     k, row = obs.cue_values, np.zeros(1, dtype=np.int64)
-    if obs.decoy_probability > 0 and not cue_shown and draw(key, step, 0) < obs.decoy_probability:
-        show_decoys(obs, parts, row, _value(np.array([draw(key, step, 1)]), k))
+    if decoy >= 0 and not cue_shown:
+        show_decoys(obs, parts, row, np.array([decoy]))
     if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts) and \
             draw(key, step, 2) < obs.lure_probability:
         show_lures(parts, row, _value(np.array([draw(key, step, 3)]), k), np.array([draw(key, step, 4)]),

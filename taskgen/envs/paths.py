@@ -225,7 +225,7 @@ class PathCore(Core):
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
 
     # -- one environment: the rule in Python numbers, observations cached by what they show -------------
-    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
+    def start_one(self, key: np.ndarray, origin: tuple[int, int] | None = None) -> tuple[Any, dict[str, Any]]:
         """Draw the episode's path (its cells as a list, for the scalar rule) and the episode's noise."""
         rule = self.rule
         path = subkey(int(key[0]), "path")        # begin's draws, in Python ints (equal, and quicker for one)

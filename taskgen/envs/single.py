@@ -74,7 +74,7 @@ class TaskEnv(gym.Env[Any, Any]):
         self._stream, self._episode, key = next_episode(self._stream, self._episode, seed is not None,
                                                         self.np_random)
         self._ended = False
-        return self.core.start_one(key)
+        return self.core.start_one(key, (self._stream, self._episode))
 
     def step(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
         """One step of the task; truncated at the step limit; ``info["is_success"]`` at the end."""

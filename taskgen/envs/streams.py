@@ -33,10 +33,13 @@ _S30, _S27, _S31 = np.uint64(30), np.uint64(27), np.uint64(31)
 
 
 def _mix(x: np.ndarray) -> np.ndarray:
-    """splitmix64's finaliser on a uint64 array (wrapping arithmetic)."""
-    x = np.multiply(x ^ (x >> _S30), _M1)
-    x = np.multiply(x ^ (x >> _S27), _M2)
-    return x ^ (x >> _S31)
+    """splitmix64's finaliser on a uint64 array (wrapping arithmetic); one new array, worked in place."""
+    x = np.asarray(x ^ (x >> _S30))      # a new array (a 0-d one for a scalar), then worked in place
+    np.multiply(x, _M1, out=x)
+    x ^= x >> _S27
+    np.multiply(x, _M2, out=x)
+    x ^= x >> _S31
+    return x
 
 
 def _at(keys: Any, step: Any) -> np.ndarray:
@@ -94,37 +97,64 @@ def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:
     """uint64 key of each (stream, episode number)."""
-    return _mix(np.add(_mix(np.add(np.asarray(streams, dtype=np.uint64), _GOLDEN)),
-                       np.multiply(np.asarray(episodes).astype(np.uint64), _GOLDEN)))
+    return episode_keys_of(stream_bases(streams), episodes)
+
+
+def stream_bases(streams: np.ndarray) -> np.ndarray:
+    """The part of :func:`episode_keys` that depends on the stream alone (kept per environment, so a
+    restart hashes once, not twice)."""
+    return _mix(np.add(np.asarray(streams, dtype=np.uint64), _GOLDEN))
+
+
+def episode_keys_of(bases: np.ndarray, episodes: np.ndarray) -> np.ndarray:
+    """:func:`episode_keys` from the streams' :func:`stream_bases`."""
+    return _mix(np.add(bases, np.multiply(np.asarray(episodes).astype(np.uint64), _GOLDEN)))
+
+
+#: each purpose's offset of :func:`subkeys` (purpose · _STEP, wrapping), made once
+_OFFSET = {name: np.multiply(np.uint64(number), _STEP, dtype=np.uint64) for name, number in _PURPOSE.items()}
 
 
 def subkeys(keys: np.ndarray, purpose: str) -> np.ndarray:
     """Per-episode key of one purpose (computed once per episode)."""
-    return _mix(_at(keys, _PURPOSE[purpose]))
+    return _mix(np.add(np.asarray(keys, dtype=np.uint64), _OFFSET[purpose]))
 
 
 def uniform(sub: np.ndarray, step: np.ndarray | int = 0, width: int | None = None) -> np.ndarray:
     """Uniform [0, 1) draws of per-purpose keys ``sub`` [N] at ``step`` (scalar or [N]):
     shape [N], or [N, width] with one draw per index."""
-    base = _at(sub, step)
+    base = np.asarray(sub, dtype=np.uint64) if isinstance(step, int) and step == 0 else _at(sub, step)
     if width is not None:
         base = np.add(base[:, None], _COLUMNS[:width] if width <= _COLUMNS.size else
                       np.multiply(np.arange(1, width + 1, dtype=np.uint64), _GOLDEN))
     return (_mix(base) >> _S11).astype(np.float64) * _TO_UNIT
 
 
+def _column_counter(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.ndarray:
+    """sub + step · _STEP + (index + 1) · _GOLDEN (uint64, wrapping): the counter of column ``index`` of
+    ``uniform(sub, step, width)``, in three ufunc calls (this runs on every step of a batch)."""
+    counter = np.asarray(np.add(np.multiply(step, _STEP, dtype=np.uint64, casting="unsafe"),   # int64 step
+                                np.asarray(sub, dtype=np.uint64)))
+    np.add(counter, _COLUMNS[index] if index < _COLUMNS.size else
+           np.multiply(np.uint64(index + 1), _GOLDEN, dtype=np.uint64), out=counter)
+    return counter
+
+
 def uniform_column(sub: np.ndarray, step: np.ndarray | int, index: int) -> np.ndarray:
     """Column ``index`` of ``uniform(sub, step, width)`` alone, for any width > index: [N]. A consumer
     that needs a later draw only for some rows computes it for those rows, with the same values."""
-    base = np.add(_at(sub, step), np.multiply(np.uint64(index + 1), _GOLDEN, dtype=np.uint64))
-    return (_mix(base) >> _S11).astype(np.float64) * _TO_UNIT
+    return (_mix(_column_counter(sub, step, index)) >> _S11).astype(np.float64) * _TO_UNIT
 
 
 def below(sub: np.ndarray, step: np.ndarray | int, index: int, probability: float) -> np.ndarray:
     """``uniform_column(sub, step, index) < probability``, compared as integers: a draw is m · 2⁻⁵³
-    for a 53-bit integer m, and m · 2⁻⁵³ < p exactly when m < ceil(p · 2⁵³) (p · 2⁵³ is exact)."""
-    base = np.add(_at(sub, step), np.multiply(np.uint64(index + 1), _GOLDEN, dtype=np.uint64))
-    return (_mix(base) >> _S11) < np.uint64(math.ceil(probability * (1 << 53)))
+    for a 53-bit integer m, and m · 2⁻⁵³ < p exactly when m < ceil(p · 2⁵³) (p · 2⁵³ is exact),
+    that is when the hash h (m = h >> 11) is below ceil(p · 2⁵³) · 2¹¹."""
+    h = _mix(_column_counter(sub, step, index))
+    threshold = math.ceil(probability * (1 << 53)) << 11
+    if threshold >= 1 << 64:          # p = 1: every draw is below
+        return np.ones(h.shape, dtype=bool)
+    return h < np.uint64(threshold)
 
 
 _MASK = (1 << 64) - 1
@@ -163,6 +193,26 @@ def draw(key: int, step: int, index: int) -> float:
 def categorical_one(u: float, cumulative: list[float]) -> int:
     """:func:`categorical` of one uniform and one row of cumulative probabilities."""
     return min(sum(u >= c for c in cumulative), len(cumulative) - 1)
+
+
+def uniform_bits(sub: np.ndarray) -> np.ndarray:
+    """uint64 m [N] of ``uniform(sub)`` = m · 2⁻⁵³, the 53-bit integers themselves (compared with
+    :func:`unit_thresholds` they pick as :func:`categorical` does, without converting to floats)."""
+    return _mix(np.asarray(sub, dtype=np.uint64)) >> _S11
+
+
+def unit_thresholds(cumulative: np.ndarray) -> np.ndarray:
+    """uint64 ceil(c · 2⁵³) of cumulative probabilities c: m · 2⁻⁵³ ≥ c exactly when m ≥ ceil(c · 2⁵³)
+    (scaling by a power of two is exact)."""
+    return np.ceil(np.asarray(cumulative, dtype=np.float64) * float(1 << 53)).astype(np.uint64)
+
+
+def categorical_bits(m: np.ndarray, thresholds: np.ndarray) -> np.ndarray:
+    """:func:`categorical` of ``uniform(sub)`` from its :func:`uniform_bits` ``m`` [N] and the
+    :func:`unit_thresholds` of the cumulative probabilities: rows [N, K], or one row [K] for all."""
+    if thresholds.ndim == 1:       # one row for every draw: a sorted search
+        return np.minimum(np.searchsorted(thresholds, m, side="right"), thresholds.size - 1)
+    return np.minimum((m[:, None] >= thresholds).sum(axis=1), thresholds.shape[1] - 1)
 
 
 def categorical(u: np.ndarray, cumulative: np.ndarray) -> np.ndarray:

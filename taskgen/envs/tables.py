@@ -21,9 +21,25 @@ from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table, scatter_index, with_noise_columns
 from .core import Core
-from .distractors import apply_distractors, distract_one
-from .streams import (EpisodeNoise, add_pixel_noise, categorical, categorical_one, draw, flip_threshold, noise_track,
-                      subkey, subkeys, uniform, uniform_one)
+from .distractors import apply_distractors, decoy_tracks, distract_one
+from .streams import (EpisodeNoise, add_pixel_noise, categorical_bits, categorical_one, episode_keys, flip_threshold,
+                      noise_track, subkey, subkeys, uniform, uniform_bits, uniform_one, unit_thresholds)
+
+BLOCK = 64                # episodes of one stream whose per-step draws a single env makes at once
+BLOCK_BYTES = 1 << 22     # at most this many bytes of them
+STATE_ROWS_BYTES = 1 << 26   # a batch keeps each state's vector (not only each key's) up to this many bytes
+
+
+@dataclass(frozen=True, eq=False)
+class _Block:
+    """A single env's per-step draws for consecutive episodes ``first …`` of one stream (made in one
+    numpy call per kind of draw, where one call per episode would cost more than the episodes' steps)."""
+
+    stream: int | None
+    first: int
+    keys: list[int]
+    noise: np.ndarray | None              # float32[E, H+1, bits]: each episode's noise bits at each step
+    decoys: list[list[int]] | None        # each episode's decoy value at each step (−1: none)
 
 
 @dataclass(frozen=True, eq=False)
@@ -37,6 +53,7 @@ class _PerVariant:
     timeout: np.ndarray         # float64[V]
     starts: np.ndarray          # int64[V, W]: global start states, padded with the last
     cumulative: np.ndarray      # float64[V, W]: cumulative start probabilities, padded with 1
+    thresholds: np.ndarray      # uint64[V, W]: their streams.unit_thresholds (a batch picks starts by them)
     tile_count: np.ndarray      # int64[V]
     tile_offset: np.ndarray     # int64[V]
     variant_ids: np.ndarray     # object[V]
@@ -87,7 +104,10 @@ class TableCore(Core):
         self._horizon = np.zeros(N, dtype=np.int64)
         self._timeout = np.zeros(N)
         self._starts = np.zeros((N, self._per.starts.shape[1]), dtype=np.int64)
-        self._cumulative = np.ones((N, self._per.cumulative.shape[1]))
+        self._thresholds = np.zeros((N, self._per.cumulative.shape[1]), dtype=np.uint64)   # unit_thresholds
+        # the start states and thresholds when every environment holds the same one variant (else None)
+        self._one_start = (self._per.starts[0], unit_thresholds(self._per.cumulative[0])) \
+            if len(models) == 1 else None
         self._tile_count = np.zeros(N, dtype=np.int64)
         self._tile_offset = np.zeros(N, dtype=np.int64)
         self._ids = np.empty(N, dtype=object)
@@ -112,6 +132,10 @@ class TableCore(Core):
         cue_bits = self.blocks.get("cue", slice(0, 0))          # a decoy shows in them (single env, vector only)
         self._decoy = self.observations.decoy_probability if cue_bits.stop > cue_bits.start else 0.0
         self._cue_start, self._cue_stop = cue_bits.start, cue_bits.stop
+        self._lured = self.observations.lure_probability > 0 and (self._grid is not None or self._pixels is not None)
+        self._one_hot = np.eye(max(cue_bits.stop - cue_bits.start, 1), dtype=np.float32)   # a decoy's cue bits
+        self._block: _Block | None = None
+        self._decoy_track: list[int] = []
 
     @property
     def models(self) -> list[TaskModel]:
@@ -148,7 +172,16 @@ class TableCore(Core):
         first = sets[0].vector
         self._bits = first.noise_bits if first is not None else 0
         self._table_bits = with_noise_columns(self._table, self._bits)
+        # each state's vector, so a step gathers once (not its key, then the key's row), when that table
+        # is small; the other modalities (and a larger vector table) are gathered by key
+        by_state = self._obs_key.size * self._table_bits.shape[1] * self._table_bits.itemsize
+        self._state_rows = np.take(self._table_bits, self._obs_key, axis=0) \
+            if self._has_vector and by_state <= STATE_ROWS_BYTES else None
+        self._keyed = self._state_rows is None or any(t is not None for t in (
+            sets[0].grid, sets[0].pixels, sets[0].first_person))
         self._key_cue = np.concatenate([m.shown_cue() for m in models])
+        self._state_shown = self._key_cue[self._obs_key] >= 0        # the real cue in view at each state
+        self._terminal_flat = self._terminal[self._next_flat]         # each (state, action)'s next state ends
         tiles = [o.lure_tiles if o.lure_tiles is not None else np.zeros((1, 4), dtype=np.int64) for o in sets]
         self._tiles = np.concatenate(tiles)
         tile_count = np.array([t.shape[0] for t in tiles])
@@ -165,7 +198,7 @@ class TableCore(Core):
             state_offset=state_off[:-1], flip=flip,
             threshold=np.array([flip_threshold(p) for p in flip], dtype=np.uint64),
             horizon=np.array([m.horizon for m in models]), timeout=np.array([m.timeout_reward for m in models]),
-            starts=starts, cumulative=cumulative, tile_count=tile_count,
+            starts=starts, cumulative=cumulative, thresholds=unit_thresholds(cumulative), tile_count=tile_count,
             tile_offset=np.cumsum([0] + list(tile_count))[:-1],
             variant_ids=np.array([m.variant_id for m in models], dtype=object))
         self._timeout_any = bool(self._per.timeout.any())
@@ -183,7 +216,7 @@ class TableCore(Core):
         self._horizon[rows] = per.horizon[chosen]
         self._timeout[rows] = per.timeout[chosen]
         self._starts[rows] = per.starts[chosen]
-        self._cumulative[rows] = per.cumulative[chosen]
+        self._thresholds[rows] = per.thresholds[chosen]
         self._tile_count[rows] = per.tile_count[chosen]
         self._tile_offset[rows] = per.tile_offset[chosen]
         self._ids[rows] = per.variant_ids[chosen]
@@ -205,8 +238,12 @@ class TableCore(Core):
             count = len(self._models)
             chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
             self._assign_rows(rows, chosen)
-        pick = categorical(uniform(subkeys(keys, "cue")), self._cumulative[rows])
-        self.state[rows] = self._starts[rows, pick]
+        bits = uniform_bits(subkeys(keys, "cue"))
+        if self._one_start is not None:      # every environment holds one variant: one row of thresholds
+            starts, thresholds = self._one_start
+            self.state[rows] = np.take(starts, categorical_bits(bits, thresholds))
+        else:
+            self.state[rows] = self._starts[rows, categorical_bits(bits, self._thresholds[rows])]
         self.step_count[rows] = 0
         self.noise.begin(rows, keys)
 
@@ -217,12 +254,11 @@ class TableCore(Core):
         flat += actions
         next_state = np.take(self._next_flat, flat)
         reward = np.take(self._reward_flat, flat)
+        terminated = np.take(self._terminal_flat, flat)
         step = self.step_count + 1
-        terminated = np.take(self._terminal, next_state)
-        truncated = step >= self._horizon
-        truncated &= ~terminated
+        truncated = np.greater(step >= self._horizon, terminated)    # at the limit and not terminated
         if self._timeout_any:
-            reward += truncated * self._timeout
+            np.add(reward, self._timeout, out=reward, where=truncated)
         self.noise.flip(step, self._threshold, moving)
         if moving is not None:                    # in place: the rows that start anew keep theirs
             np.copyto(self.state, next_state, where=moving)
@@ -233,11 +269,12 @@ class TableCore(Core):
 
     def observe(self) -> dict[str, np.ndarray]:
         """Gathered rows of every modality, noise bits appended, pixel noise and distractors laid over."""
-        keys = np.take(self._obs_key, self.state)
+        keys = np.take(self._obs_key, self.state) if self._keyed else self.state
         parts: dict[str, np.ndarray] = {}
         # rows are gathered with np.take along axis 0, several times faster than fancy indexing
-        if self._has_vector:
-            vector = np.take(self._table_bits, keys, axis=0)
+        if self._has_vector:   # by state where the table of each state's vector is small enough
+            vector = np.take(self._state_rows, self.state, axis=0) if self._state_rows is not None else \
+                np.take(self._table_bits, keys, axis=0)
             if self._bits:   # the bool bits are cast as they are copied into the zero columns
                 vector[:, self._width:] = self.noise.now
             parts["vector"] = vector
@@ -253,7 +290,7 @@ class TableCore(Core):
             parts["first_person"] = np.take(self._first_person, keys, axis=0)
         if self._distracted:
             apply_distractors(self.observations, parts, self.noise.distractor_keys, self.step_count,
-                              self._key_cue[keys] >= 0, self._tile_count, self._tile_offset, self._tiles)
+                              np.take(self._state_shown, self.state), self._tile_count, self._tile_offset, self._tiles)
         return parts
 
     def infos(self) -> dict[str, Any]:
@@ -308,21 +345,24 @@ class TableCore(Core):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes of the per-environment rows and of the stacked tables."""
-        per_env = [self.state, self.step_count, *self.noise.arrays(), self._starts, self._cumulative,
+        per_env = [self.state, self.step_count, *self.noise.arrays(), self._starts, self._thresholds,
                    self._threshold, self._horizon, self._timeout, self._state_offset, self.env_variant]
-        shared = [self._next, self._reward, self._terminal, self._obs_key, self._hidden, self._table]
+        shared = [self._next, self._reward, self._terminal, self._terminal_flat, self._obs_key, self._hidden,
+                  self._table, self._state_shown]
+        shared += [self._state_rows] if self._state_rows is not None else []
         shared += [self._table_bits] if self._table_bits is not self._table else []
         shared += [t for t in (self._grid, self._pixels, self._first_person) if t is not None]
         return {"per_env": sum(a.nbytes for a in per_env) // self.num_envs, "shared": sum(a.nbytes for a in shared)}
 
     # -- one environment: a scalar path through the same tables ---------------------------------------
-    def start_one(self, key: np.ndarray) -> tuple[Any, dict[str, Any]]:
-        """Draw the variant (pools) and the cue from ``key``; the episode's noise bits all at once."""
+    def start_one(self, key: np.ndarray, origin: tuple[int, int] | None = None) -> tuple[Any, dict[str, Any]]:
+        """Draw the variant (pools) and the cue from ``key``; the episode's noise bits and decoys all at once
+        (with ``origin``, the episode's (stream, number), for a block of the stream's next episodes)."""
         if not self._next_list:      # the tables as Python lists: indexing them beats numpy scalars
             self._next_list, self._reward_list = self._next.tolist(), self._reward.tolist()
             self._terminal_list, self._hidden_list = self._terminal.tolist(), self._hidden.tolist()
             self._local_list, self._key_list = self._local.tolist(), self._obs_key.tolist()
-            self._shown_list = (self._key_cue[self._obs_key] >= 0).tolist()
+            self._shown_list = self._state_shown.tolist()
             self._start_list, self._cumulative_list = self._per.starts.tolist(), self._per.cumulative.tolist()
             self._rows = self._table[self._obs_key]
         j = int(self.env_variant[0])
@@ -334,8 +374,12 @@ class TableCore(Core):
         state = self._start_list[j][categorical_one(uniform_one(subkey(episode, "cue")), self._cumulative_list[j])]
         self._s, self._t, self._h = state, 0, int(per.horizon[j])
         self._variant, self._variant_id, self._timeout_one = j, str(per.variant_ids[j]), float(per.timeout[j])
-        if self._bits:    # the whole episode's noise bits at once: one numpy call per reset
-            self._noise_track = noise_track(key, self._bits, float(per.flip[j]), self._h)[0].astype(np.float32)
+        if self._bits or self.observations.decoy_probability:   # drawn with the stream's next episodes'
+            row, block = self._episode_block(episode, origin)
+            if block.noise is not None:
+                self._noise_track = block.noise[row]
+            if block.decoys is not None:
+                self._decoy_track = block.decoys[row]
         if self.observations.pixel_noise is not None:
             self._pixel_key = np.array([subkey(episode, "pixel_noise")], dtype=np.uint64)
         if self._distracted:
@@ -355,10 +399,10 @@ class TableCore(Core):
         if self._vector_only:
             obs = np.concatenate((self._rows[state], self._noise_track[min(t, self._h)])) if self._bits \
                 else self._rows[state].copy()
-            if self._decoy and not self._shown_list[state] and draw(self._distractor_key, t, 0) < self._decoy:
-                k = self.observations.cue_values      # a decoy cue value in the cue bits (distractors.show_decoys)
-                obs[self._cue_start:self._cue_stop] = 0.0
-                obs[self._cue_start + min(int(draw(self._distractor_key, t, 1) * k), k - 1)] = 1.0
+            if self._decoy:      # a decoy cue value in the cue bits (distractors.show_decoys), drawn at reset
+                value = self._decoy_track[t]
+                if value >= 0 and not self._shown_list[state]:
+                    obs[self._cue_start:self._cue_stop] = self._one_hot[value]
         else:
             obs = self._observe_scalar()
         if self.analysis_info:
@@ -366,6 +410,39 @@ class TableCore(Core):
                 "variant_id": self._variant_id, "step": t,
                 "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
         return obs, reward, terminated, truncated, {"variant_id": self._variant_id, "step": t}
+
+    def _episode_block(self, key: int, origin: tuple[int, int] | None) -> tuple[int, _Block]:
+        """The block holding the episode whose key is ``key`` and its row in it: the current block when
+        it holds it, else a new one from this episode on (of this episode alone without ``origin``). A
+        block that follows the last one on the same stream is twice its size, up to BLOCK (and
+        BLOCK_BYTES), so an env reseeded at every reset draws one episode at a time."""
+        block = self._block
+        size = 1
+        if origin is not None and block is not None and block.stream == origin[0]:
+            row = origin[1] - block.first
+            if 0 <= row < len(block.keys) and block.keys[row] == key:
+                return row, block
+            if row == len(block.keys):
+                size = 2 * len(block.keys)
+        per = self._per
+        horizon = int(per.horizon.max())
+        size = max(1, min(size, BLOCK, BLOCK_BYTES // ((horizon + 1) * (4 * self._bits + 8))))
+        keys = np.array([key], dtype=np.uint64) if origin is None else \
+            episode_keys(np.full(size, origin[0], dtype=np.uint64), np.arange(origin[1], origin[1] + size))
+        if int(keys[0]) != key:      # not the stream's episode: this episode alone
+            keys = np.array([key], dtype=np.uint64)
+        if self._draw:               # each episode's variant (as start_one draws it) sets its flip probability
+            count = len(self._models)
+            flip = per.flip[np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)]
+        else:
+            flip = np.full(keys.size, per.flip[int(self.env_variant[0])])
+        noise = noise_track(keys, self._bits, flip, horizon).astype(np.float32) if self._bits else None
+        p = self.observations.decoy_probability
+        decoys = decoy_tracks(subkeys(keys, "distractor"), horizon + 1, p, self.observations.cue_values).tolist() \
+            if p else None
+        self._block = _Block(origin[0] if origin is not None else None, origin[1] if origin is not None else 0,
+                             keys.tolist(), noise, decoys)
+        return 0, self._block
 
     def _observe_scalar(self) -> Any:
         """The single env's observation, every modality (the vector-only case is inlined in step_one)."""
@@ -385,11 +462,12 @@ class TableCore(Core):
             parts["pixels"] = frame.copy()
         if self._first_person is not None:
             parts["first_person"] = self._first_person[key].copy()
-        if self._distracted:
+        decoy = self._decoy_track[t] if self._decoy_track else -1
+        if self._lured or (decoy >= 0 and not self._shown_list[state]):   # something may show on this step
             j = self._variant
             distract_one(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key, t,
                          bool(self._key_cue[key] >= 0), self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1],
-                         self._tiles)
+                         self._tiles, decoy)
         return assemble(self.observations, parts)
 
     def _info_scalar(self) -> dict[str, Any]:

@@ -22,7 +22,7 @@ from ..model import TaskModel
 from ..render.observations import assemble
 from .core import Core
 from .single import RENDER_MODES, check_render_mode
-from .streams import episode_keys, vector_reset_keys
+from .streams import episode_keys_of, stream_bases, vector_reset_keys
 
 
 def as_autoreset_mode(mode: AutoresetMode | str) -> AutoresetMode:
@@ -68,6 +68,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         self._advance, self._begin, self._observe, self._core_infos = core.advance, core.begin, core.observe, core.infos
         self._observations = core.observations
         self._streams = np.zeros(N, dtype=np.uint64)
+        self._bases = stream_bases(self._streams)   # each stream's hash, for the keys of its next episodes
         self._episodes = np.zeros(N, dtype=np.int64)
         self._keys = np.zeros(N, dtype=np.uint64)
         self._seeded = np.zeros(N, dtype=bool)
@@ -99,6 +100,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         if mask is not None and not self._started:
             raise ValueError("the first reset resets every environment: call reset() without a reset_mask")
         episodes, keys = vector_reset_keys(seed, self._seeded, self._generators, self._streams, self._episodes, rows)
+        self._bases[rows] = stream_bases(self._streams[rows])
         self._episodes[rows], self._keys[rows] = episodes, keys
         self._begin(rows, keys)
         self._autoreset[rows] = False
@@ -158,7 +160,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
     def _restart(self, rows: np.ndarray) -> None:
         """Start the next episode of each environment in ``rows``."""
         self._episodes[rows] += 1
-        self._keys[rows] = episode_keys(self._streams[rows], self._episodes[rows])
+        self._keys[rows] = episode_keys_of(self._bases[rows], self._episodes[rows])
         self._begin(rows, self._keys[rows])
 
     def _same_step(self, ended: np.ndarray) -> dict[str, Any] | None:

@@ -164,21 +164,31 @@ class PathRule:
                 path: np.ndarray | None = None) -> Outcome:
         """One step of each query: ``state`` and ``action`` [n] on the path in row ``path[i]``
         (default i) of ``kind`` [P, C] and ``start`` [P]."""
-        path = np.arange(state.shape[0]) if path is None else path
-        row = path * kind.shape[1]                                         # each query's path row, flat
+        # flat lookups with np.take, several times faster than fancy indexing on the hot path
+        row = self._rows_of(state.shape[0], kind.shape[1]) if path is None else path * kind.shape[1]
         flat_kind = kind.reshape(-1)
-        move = state * self.aim.shape[1] + action
-        aim = self._aim_flat[move]
-        k = flat_kind[row + aim]
+        move = state * self.aim.shape[1]
+        move += action
+        aim = np.take(self._aim_flat, move)
+        k = np.take(flat_kind, row + aim)
         misstep = k == OFF
-        misstep_to = self._misstep_flat[move]
+        misstep_to = np.take(self._misstep_flat, move)
         if self.to_start:
-            misstep_to += start[path]
-        nxt = np.where(misstep, misstep_to, self._move_flat[move])
-        reward = self._reward_of_kind[k]
-        reached = flat_kind[row + self.state_cell[nxt]] == GOAL
-        out = self.state_out[nxt]
+            misstep_to += start if path is None else start[path]
+        nxt = np.where(misstep, misstep_to, np.take(self._move_flat, move))
+        reward = np.take(self._reward_of_kind, k)
+        reached = np.take(flat_kind, row + np.take(self.state_cell, nxt)) == GOAL
+        out = np.take(self.state_out, nxt)
         return Outcome(nxt, reward, misstep, aim, reached | out, reached & ~out)
+
+    def _rows_of(self, n: int, cells: int) -> np.ndarray:
+        """int64[n]: i · cells, the flat start of query i's path row (kept for the last n and cells)."""
+        kept = self._row_starts
+        if kept.size != n or (n > 1 and kept[1] != cells):
+            kept = np.arange(n, dtype=np.int64) * cells
+            kept.flags.writeable = False
+            self.__dict__["_row_starts"] = kept          # a frozen dataclass: kept as cached_property keeps
+        return kept
 
     def outcome_one(self, state: int, action: int, kind: list[int], start: int) -> tuple[int, float, bool, int, bool]:
         """:meth:`outcome` of one query in Python numbers (a single env's step): (next state, reward,
@@ -207,6 +217,10 @@ class PathRule:
         table[ON] = self.step_reward + 0.0 + 0.0
         table[GOAL] = self.step_reward + self.goal_reward + 0.0
         return table
+
+    @cached_property
+    def _row_starts(self) -> np.ndarray:
+        return np.zeros(0, dtype=np.int64)
 
     @cached_property
     def _aim_flat(self) -> np.ndarray:
