@@ -9,6 +9,7 @@ when the agent saw them. Pictures for people, never observations.
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 from typing import Any, Sequence
 
@@ -37,8 +38,10 @@ _SIDE_NAMES = "N E S W"
 _BLOCK_LABELS = {"walls": f"walls {_SIDE_NAMES}", "heading": f"heading {_SIDE_NAMES}"}
 
 
+@functools.lru_cache(maxsize=8)
 def font(size: int = TEXT) -> Any:
-    """DejaVu Sans, shipped with taskgen, so labels are the same pixels on every machine (with one Pillow)."""
+    """DejaVu Sans, shipped with taskgen, so labels are the same pixels on every machine (with one Pillow);
+    loaded once per size."""
     return ImageFont.truetype(str(FONT), size)
 
 

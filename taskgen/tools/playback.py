@@ -3,8 +3,8 @@
 Each step is drawn twice: what the agent saw (its observation made visible, every modality:
 render/seen.py) and ``ground_truth()`` (the hidden value drawn: the true cue and the goals it
 names, or the hidden path), captioned by the task kind, with any decoy or lure the agent saw and,
-at the end, why the episode ended. Policies read only what ``step`` returns (``info["analysis_only"]`` for the ones that
-know the hidden value).
+at the end, why the episode ended. Policies read only what ``step`` returns
+(``info["analysis_only"]`` for the ones that know the hidden value).
 """
 
 from __future__ import annotations
