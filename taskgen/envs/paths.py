@@ -74,6 +74,9 @@ class PathCore(Core):
         self._cells = self.rule.state_cell
         self._cell_list: list[int] = self._cells.tolist()
         self._until_of: dict[int, int] = {}      # a single env: cell → the step its mark shows until (excluded)
+        # a single env whose one modality gets no noise returns its kept noise-free picture, copied
+        self._plain = observations.names[0] if observations.single and not self.bits and \
+            observations.pixel_noise is None else None
         self._missteps = 0
         self._mark_block = self.overlay.block
         self._marks, self._horizon = self.rule.mark_steps > 0, self.rule.horizon
@@ -275,7 +278,10 @@ class PathCore(Core):
         if self._vector_only:
             return self._vector_one(self._s, self._t)
         step, cell = self._t, self._cell_list[self._s]
-        shown = [c for c, until in self._until_of.items() if until > step]     # as shown_marks, in ints
+        until_of = self._until_of
+        shown = [c for c, until in until_of.items() if until > step]     # as shown_marks, in ints
+        if len(shown) < len(until_of):       # a mark that has gone never shows again this episode
+            self._until_of = {c: until_of[c] for c in shown}
         decoy = self._decoy_one(cell, step)
         if decoy >= 0:
             shown.append(decoy)
@@ -288,6 +294,8 @@ class PathCore(Core):
             if len(self._seen) >= self._seen_limit:
                 self._seen.clear()
             self._seen[key] = seen
+        if self._plain is not None:
+            return seen[self._plain].copy()
         parts = {name: part.copy() for name, part in seen.items()}
         if self.bits:
             parts["vector"][-self.bits:] = self._noise_track[min(self._t, self._horizon)]
