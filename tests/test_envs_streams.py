@@ -103,3 +103,17 @@ def test_picking_by_integer_thresholds_equals_picking_by_floats():
         on = np.concatenate([exact, exact - 1]).astype(np.uint64)
         assert np.array_equal(categorical_bits(on, unit_thresholds(row)),
                               categorical(on.astype(np.float64) * 2.0**-53, np.broadcast_to(row, (on.size, row.size))))
+
+
+def test_flips_with_one_threshold_equal_flips_with_one_per_environment():
+    """A single threshold for every environment (compared as 16-bit numbers) flips exactly the bits that a
+    threshold per environment flips (the array path, numpy's comparison, is the reference), at 0, at
+    65,536 (probability 1) and between."""
+    from taskgen.envs.streams import flips
+
+    keys = subkeys(np.arange(1, 2049, dtype=np.uint64), "noise_flip")
+    step = np.arange(2048) % 23
+    for threshold in (0, 1, 13107, 32768, 65535, 65536):
+        per_env = np.full(2048, threshold, dtype=np.uint64)
+        for bits in (1, 4, 7, 9):
+            assert np.array_equal(flips(keys, step, bits, threshold), flips(keys, step, bits, per_env))

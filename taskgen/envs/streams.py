@@ -230,10 +230,16 @@ def flips(flip_keys: np.ndarray, step: np.ndarray | int, bits: int, threshold: n
     """bool[N, bits]: which noise bits flip at ``step``. One 64-bit hash yields four 16-bit
     draws, so flipping B bits costs ceil(B / 4) hashes per environment and step."""
     words = -(-bits // 4)
-    base = _at(flip_keys, step)
-    h = _mix(np.add(base[..., None], np.multiply(np.arange(1, words + 1, dtype=np.uint64), _GOLDEN)))
+    base = np.add(np.multiply(step, _STEP, dtype=np.uint64, casting="unsafe"), np.asarray(flip_keys, dtype=np.uint64))
+    h = _mix(np.add(np.asarray(base)[..., None], _COLUMNS[:words] if words <= _COLUMNS.size else
+                    np.multiply(np.arange(1, words + 1, dtype=np.uint64), _GOLDEN)))
     # the four 16-bit parts of each hash, low to high, read through a little-endian view
     draws = h.astype("<u8", copy=False).view("<u2")[..., :bits]
+    if np.ndim(threshold) == 0:        # one threshold for all: compared as 16-bit numbers, no casts
+        limit = int(threshold)
+        if limit <= 0 or limit >= 1 << 16:
+            return np.full(draws.shape, limit > 0)
+        return draws < np.uint16(limit)
     return draws < np.asarray(threshold, dtype=np.uint32)[..., None]
 
 

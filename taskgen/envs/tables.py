@@ -202,6 +202,8 @@ class TableCore(Core):
             tile_offset=np.cumsum([0] + list(tile_count))[:-1],
             variant_ids=np.array([m.variant_id for m in models], dtype=object))
         self._timeout_any = bool(self._per.timeout.any())
+        thresholds = set(self._per.threshold.tolist())      # one noise-flip threshold for every variant: an int
+        self._threshold_one: int | None = thresholds.pop() if len(thresholds) == 1 else None
         self._every_id = self._per.variant_ids[self.env_variant]
         self._every_id.flags.writeable = False   # shared by every info dict while no env draws: read-only
 
@@ -259,7 +261,7 @@ class TableCore(Core):
         truncated = np.greater(step >= self._horizon, terminated)    # at the limit and not terminated
         if self._timeout_any:
             np.add(reward, self._timeout, out=reward, where=truncated)
-        self.noise.flip(step, self._threshold, moving)
+        self.noise.flip(step, self._threshold if self._threshold_one is None else self._threshold_one, moving)
         if moving is not None:                    # in place: the rows that start anew keep theirs
             np.copyto(self.state, next_state, where=moving)
             np.copyto(self.step_count, step, where=moving)
