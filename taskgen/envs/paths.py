@@ -142,7 +142,7 @@ class PathCore(Core):
 
     def observe(self) -> dict[str, np.ndarray]:
         """Observations of every environment: gathered rows, marks laid over, then noise."""
-        cell = np.take(self.rule.state_cell, self.state)
+        cell = self.rule.state_cell.take(self.state)
         parts = self._gathered(cell)
         if self.bits:
             parts["vector"][:, -self.bits:] = self.noise.now
@@ -154,14 +154,14 @@ class PathCore(Core):
 
     def _gathered(self, cell: np.ndarray) -> dict[str, np.ndarray]:
         """The rows of cells ``cell`` [n] in every modality (the vector's noise bits still zero), gathered
-        with np.take along axis 0, several times faster than fancy indexing."""
+        with ndarray.take along axis 0, several times faster than fancy indexing."""
         parts: dict[str, np.ndarray] = {}
         if self.vector is not None:
-            parts["vector"] = np.take(self._table_bits, cell, axis=0)
+            parts["vector"] = self._table_bits.take(cell, axis=0)
         if self.observations.grid is not None:
-            parts["grid"] = np.take(self.observations.grid, cell, axis=0)
+            parts["grid"] = self.observations.grid.take(cell, axis=0)
         if self.observations.pixels is not None:
-            parts["pixels"] = np.take(self.observations.pixels, cell, axis=0)
+            parts["pixels"] = self.observations.pixels.take(cell, axis=0)
         return parts
 
     def infos(self) -> dict[str, Any]:
@@ -175,8 +175,8 @@ class PathCore(Core):
 
     def success(self) -> np.ndarray:
         """Whether each environment stands on its path's end, not out of the field."""
-        cell = np.take(self.rule.state_cell, self.state)
-        return (self.kind[self.rows, cell] == GOAL) & ~np.take(self.rule.state_out, self.state)
+        cell = self.rule.state_cell.take(self.state)
+        return (self.kind[self.rows, cell] == GOAL) & ~self.rule.state_out.take(self.state)
 
     def success_one(self) -> bool:
         """A single env's success, read from its Python-int state."""

@@ -175,7 +175,7 @@ class TableCore(Core):
         # each state's vector, so a step gathers once (not its key, then the key's row), when that table
         # is small; the other modalities (and a larger vector table) are gathered by key
         by_state = self._obs_key.size * self._table_bits.shape[1] * self._table_bits.itemsize
-        self._state_rows = np.take(self._table_bits, self._obs_key, axis=0) \
+        self._state_rows = self._table_bits.take(self._obs_key, axis=0) \
             if self._has_vector and by_state <= STATE_ROWS_BYTES else None
         self._keyed = self._state_rows is None or any(t is not None for t in (
             sets[0].grid, sets[0].pixels, sets[0].first_person))
@@ -243,7 +243,7 @@ class TableCore(Core):
         bits = uniform_bits(subkeys(keys, "cue"))
         if self._one_start is not None:      # every environment holds one variant: one row of thresholds
             starts, thresholds = self._one_start
-            self.state[rows] = np.take(starts, categorical_bits(bits, thresholds))
+            self.state[rows] = starts.take(categorical_bits(bits, thresholds))
         else:
             self.state[rows] = self._starts[rows, categorical_bits(bits, self._thresholds[rows])]
         self.step_count[rows] = 0
@@ -254,9 +254,9 @@ class TableCore(Core):
         """Gathers of next state, reward and terminal; noise flips; only ``moving`` rows change."""
         flat = self.state * self.num_actions
         flat += actions
-        next_state = np.take(self._next_flat, flat)
-        reward = np.take(self._reward_flat, flat)
-        terminated = np.take(self._terminal_flat, flat)
+        next_state = self._next_flat.take(flat)
+        reward = self._reward_flat.take(flat)
+        terminated = self._terminal_flat.take(flat)
         step = self.step_count + 1
         truncated = np.greater(step >= self._horizon, terminated)    # at the limit and not terminated
         if self._timeout_any:
@@ -271,28 +271,29 @@ class TableCore(Core):
 
     def observe(self) -> dict[str, np.ndarray]:
         """Gathered rows of every modality, noise bits appended, pixel noise and distractors laid over."""
-        keys = np.take(self._obs_key, self.state) if self._keyed else self.state
+        keys = self._obs_key.take(self.state) if self._keyed else self.state
         parts: dict[str, np.ndarray] = {}
-        # rows are gathered with np.take along axis 0, several times faster than fancy indexing
+        # rows are gathered with ndarray.take along axis 0, several times faster than fancy indexing (the
+        # method, not np.take, which wraps it in Python)
         if self._has_vector:   # by state where the table of each state's vector is small enough
-            vector = np.take(self._state_rows, self.state, axis=0) if self._state_rows is not None else \
-                np.take(self._table_bits, keys, axis=0)
+            vector = self._state_rows.take(self.state, axis=0) if self._state_rows is not None else \
+                self._table_bits.take(keys, axis=0)
             if self._bits:   # the bool bits are cast as they are copied into the zero columns
                 vector[:, self._width:] = self.noise.now
             parts["vector"] = vector
         if self._grid is not None:
-            parts["grid"] = np.take(self._grid, keys, axis=0)
+            parts["grid"] = self._grid.take(keys, axis=0)
         if self._pixels is not None:
-            frames = np.take(self._pixels, keys, axis=0)
+            frames = self._pixels.take(keys, axis=0)
             if self.observations.pixel_noise is not None:
                 kind, amplitude = self.observations.pixel_noise
                 frames = add_pixel_noise(frames, self.noise.pixel_keys, self.step_count, kind, amplitude)
             parts["pixels"] = frames
         if self._first_person is not None:
-            parts["first_person"] = np.take(self._first_person, keys, axis=0)
+            parts["first_person"] = self._first_person.take(keys, axis=0)
         if self._distracted:
             apply_distractors(self.observations, parts, self.noise.distractor_keys, self.step_count,
-                              np.take(self._state_shown, self.state), self._tile_count, self._tile_offset, self._tiles)
+                              self._state_shown.take(self.state), self._tile_count, self._tile_offset, self._tiles)
         return parts
 
     def infos(self) -> dict[str, Any]:
@@ -306,7 +307,7 @@ class TableCore(Core):
 
     def success(self) -> np.ndarray:
         """Whether each environment's state is a success state of its variant."""
-        return np.take(self._success, self.state)
+        return self._success.take(self.state)
 
     def success_one(self) -> bool:
         """A single env's success, read from its Python-int state."""

@@ -164,21 +164,21 @@ class PathRule:
                 path: np.ndarray | None = None) -> Outcome:
         """One step of each query: ``state`` and ``action`` [n] on the path in row ``path[i]``
         (default i) of ``kind`` [P, C] and ``start`` [P]."""
-        # flat lookups with np.take, several times faster than fancy indexing on the hot path
+        # flat lookups with ndarray.take, several times faster than fancy indexing on the hot path
         row = self._rows_of(state.shape[0], kind.shape[1]) if path is None else path * kind.shape[1]
         flat_kind = kind.reshape(-1)
         move = state * self.aim.shape[1]
         move += action
-        aim = np.take(self._aim_flat, move)
-        k = np.take(flat_kind, row + aim)
+        aim = self._aim_flat.take(move)
+        k = flat_kind.take(row + aim)
         misstep = k == OFF
-        misstep_to = np.take(self._misstep_flat, move)
+        misstep_to = self._misstep_flat.take(move)
         if self.to_start:
             misstep_to += start if path is None else start[path]
-        nxt = np.where(misstep, misstep_to, np.take(self._move_flat, move))
-        reward = np.take(self._reward_of_kind, k)
-        reached = np.take(flat_kind, row + np.take(self.state_cell, nxt)) == GOAL
-        out = np.take(self.state_out, nxt)
+        nxt = np.where(misstep, misstep_to, self._move_flat.take(move))
+        reward = self._reward_of_kind.take(k)
+        reached = flat_kind.take(row + self.state_cell.take(nxt)) == GOAL
+        out = self.state_out.take(nxt)
         return Outcome(nxt, reward, misstep, aim, reached | out, reached & ~out)
 
     def _rows_of(self, n: int, cells: int) -> np.ndarray:
