@@ -220,6 +220,6 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
 
     def memory_bytes(self) -> dict[str, int]:
         """Bytes held per environment (the core's state and the episode keys) and shared (tables)."""
-        own = [self._streams, self._episodes, self._keys, self._seeded, self._autoreset]
+        own = [self._streams, self._bases, self._episodes, self._keys, self._seeded, self._autoreset]
         core = self.core.memory_bytes()
         return {"per_env": core["per_env"] + sum(a.nbytes for a in own) // self.num_envs, "shared": core["shared"]}
