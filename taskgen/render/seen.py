@@ -67,7 +67,8 @@ def vector_picture(obs: ObservationSet, vector: np.ndarray, mask: np.ndarray | N
     rows = [max(1, -(-(block.stop - block.start) // PER_ROW)) for _, block in blocks]
     widest = max(min(block.stop - block.start, PER_ROW) for _, block in blocks)
     table = obs.vector.table          # noise-free: which blocks hold values other than 0 and 1 (coordinates)
-    valued = {name for name, block in blocks if block.stop <= table.shape[1] and not np.isin(table[:, block], (0, 1)).all()}
+    valued = {name for name, block in blocks
+              if block.stop <= table.shape[1] and not np.isin(table[:, block], (0, 1)).all()}
     values_width = int(probe.textlength("0.00 " * 3, font=typeface)) if valued else 0
     width = label_width + widest * step + GAP + values_width
     height = sum(r * step + 4 for r in rows)
@@ -92,8 +93,8 @@ def vector_picture(obs: ObservationSet, vector: np.ndarray, mask: np.ndarray | N
                 draw.rectangle(box, fill=NOISE if value > 0.5 else OFF, outline=OUTLINE)
             else:
                 draw.rectangle(box, fill=_grey(value), outline=OUTLINE)
-        used = values if mask is None else values[mask[block]]
         if name in valued:
+            used = values if mask is None else values[mask[block]]
             words = " ".join(f"{v:.2f}" for v in used[:3])
             draw.text((label_width + min(values.size, PER_ROW) * step + GAP // 2, y), words, fill=INK, font=typeface)
         y += lines * step + 4
@@ -143,8 +144,8 @@ def grid_picture(grid: np.ndarray, cell_px: int, headings: bool, egocentric: boo
                     tip = [(0, -d), (d, 0), (0, d), (-d, 0)][heading]
                     back = [(-d, d), (-d, -d), (d, -d), (d, d)][heading]
                     fore = [(d, d), (-d, d), (-d, -d), (d, -d)][heading]
-                    draw.polygon([(cx + tip[0], cy + tip[1]), (cx + back[0], cy + back[1]), (cx + fore[0], cy + fore[1])],
-                                 fill=AGENT)
+                    corners = [(cx + dx, cy + dy) for dx, dy in (tip, back, fore)]
+                    draw.polygon(corners, fill=AGENT)
                 else:
                     draw.ellipse((x0 + inner, y0 + inner, x1 - inner, y1 - inner), fill=AGENT)
     return image
