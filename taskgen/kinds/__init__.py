@@ -80,8 +80,8 @@ class TaskKind(Protocol):
     def truth_label(self, model: TaskModel, info: dict[str, Any]) -> str:
         """The label of a ground-truth picture at ``info``'s state."""
 
-    def caption(self, model: TaskModel, info: dict[str, Any]) -> str:
-        """What a frame's caption adds at ``info``'s state (may be empty)."""
+    def caption(self, model: TaskModel, info: dict[str, Any], observations: ObservationSet, observation: Any) -> str:
+        """What a frame's caption adds at ``info``'s state, where the agent got ``observation`` (may be empty)."""
 
     def succeeded(self, model: TaskModel, info: dict[str, Any]) -> bool:
         """Whether the episode ended in success at ``info``'s state."""

@@ -22,6 +22,7 @@ from ..model import TaskModel, compile_cue
 from ..render import ObservationSet, observation_set
 from ..render.palette import AGENT, CUE_COLOURS, FLOOR, WALL
 from ..render.pictures import cue_sequence
+from ..render.seen import distractors_seen
 from ..spec import CueTaskSpec, Spec
 from ..spec.params import IntParam
 from ..spec.schema import Maze, Observation
@@ -259,10 +260,12 @@ class CueKind:
         """The true cue (its values in order)."""
         return f"true cue {'-'.join(map(str, cue_sequence(model, info['analysis_only']['state'])))}"
 
-    def caption(self, model: TaskModel, info: dict[str, Any]) -> str:
-        """Whether the cue is shown at this step."""
+    def caption(self, model: TaskModel, info: dict[str, Any], observations: ObservationSet, observation: Any) -> str:
+        """Whether the cue is shown at this step, and any decoy or lure the agent saw in ``observation``."""
         assert model.cue is not None
-        return f" cue {'shown' if model.cue.window[info['analysis_only']['state']] else 'hidden'}"
+        state = info["analysis_only"]["state"]
+        seen = distractors_seen(observations, observation, int(model.obs_key[state]))
+        return f" cue {'shown' if model.cue.window[state] else 'hidden'}" + "".join(f", {s} seen" for s in seen)
 
     def swatches(self, model: TaskModel) -> list[tuple[tuple[int, int, int], str]]:
         """The cue colours with their values (goals are outlined in them, the lamp lights in them), the

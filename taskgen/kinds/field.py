@@ -246,8 +246,8 @@ class FieldKind:
         """How often the agent has stepped off the path."""
         return f"missteps {int(info['analysis_only']['missteps'])}"
 
-    def caption(self, model: TaskModel, info: dict[str, Any]) -> str:
-        """Nothing: the path is never shown."""
+    def caption(self, model: TaskModel, info: dict[str, Any], observations: ObservationSet, observation: Any) -> str:
+        """Nothing: the path is never shown, and a field's distractors are decoy marks, drawn as marks."""
         return ""
 
     def succeeded(self, model: TaskModel, info: dict[str, Any]) -> bool:

@@ -152,10 +152,12 @@ def grid_picture(grid: np.ndarray, cell_px: int, headings: bool, egocentric: boo
 
 
 def observation_picture(obs: ObservationSet, observation: Any, height: int, mask: np.ndarray | None = None,
-                        egocentric: bool = False, mark_colour: tuple[int, int, int] = MARK) -> np.ndarray:
+                        egocentric: bool = False) -> np.ndarray:
     """uint8[H, W, 3]: every modality of ``observation`` (an array, or a dict of several) drawn side by
     side under its name: pixels scaled up to ``height`` (nearest neighbour), the grid view as a window
-    about ``height`` high, the vector as rows of squares (``mask``: the elements its variant fills)."""
+    about ``height`` high, the vector as rows of squares (``mask``: the elements its variant fills);
+    marks in the colour the observations paint them."""
+    mark_colour = obs.marks.colour if obs.marks is not None else MARK
     parts = observation if isinstance(observation, dict) else {obs.names[0]: observation}
     typeface = font(TEXT - 2)
     panels: list[tuple[str, Image.Image]] = []

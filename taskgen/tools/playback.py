@@ -19,8 +19,7 @@ from PIL import Image, ImageDraw
 
 from ..factory import make
 from ..kinds import kind_of
-from ..render.palette import MARK
-from ..render.seen import GAP, TEXT, distractors_seen, font, observation_picture, seen_swatches
+from ..render.seen import GAP, TEXT, font, observation_picture, seen_swatches
 from ..spec import Spec
 
 MIN_FRAME = 160      # a frame is scaled up (nearest neighbour, by a whole factor) to at least this height
@@ -96,7 +95,6 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int, 
     typeface = font()
     mask = env.observation_mask() if observations.vector is not None else None
     egocentric = spec.observation.grid is not None and spec.observation.grid.frame == "egocentric"
-    mark = model.paths.mark_colour if model.paths is not None else MARK
     obs, info = env.reset(seed=seed + episode)
     frames, labels, total, reward, t = [], [], 0.0, 0.0, 0
     terminated = truncated = False
@@ -107,15 +105,13 @@ def record(spec: Spec, variant_seed: int, policy: str, episode: int, seed: int, 
             parts = obs if isinstance(obs, dict) else {observations.names[0]: obs}
             view = next((parts[name] for name in ("first_person", "pixels") if name in parts), None)
             height = frame_height(view if view is not None else truth_picture, scale)
-        seen = Image.fromarray(observation_picture(observations, obs, height, mask, egocentric, mark))
+        seen = Image.fromarray(observation_picture(observations, obs, height, mask, egocentric))
         truth = scaled(truth_picture, height)
         done = terminated or truncated
         action = None if done else choose(t, info)
-        shown = distractors_seen(observations, obs, int(model.obs_key[info["analysis_only"]["state"]])) \
-            if model.paths is None else []
         text = (f"t={t} " + (_ending(terminated, kind.succeeded(model, info)) if action is None
-                             else model.action_names[action]) + f" r={reward:+.2f}" + kind.caption(model, info)
-                + ("".join(f", {s} seen" for s in shown)))
+                             else model.action_names[action]) + f" r={reward:+.2f}"
+                + kind.caption(model, info, observations, obs))
         panels = (max(seen.height, TITLE + truth.height), seen.width, truth.width)
         frames.append(_frame(seen, truth, [text, kind.truth_label(model, info)], typeface))
         labels.append(text)
