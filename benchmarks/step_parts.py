@@ -47,11 +47,11 @@ def main() -> None:
         rows = np.flatnonzero(ended)
         parts = {
             "step": lambda: env.step(actions[next(counter) % 256]),
-            "advance": lambda: core.advance(actions[0], None),
+            "advance": lambda: core.advance(actions[0]),
             "observe": core.observe,
             "infos": env._infos,
             "infos, 5% ended": lambda: env._infos(ended),
-            "restart 5%": lambda: env._restart(rows),
+            "restart 5%": lambda: env._next.restart(rows),
         }
         print(f"{name} ({n} environments): " + ", ".join(f"{part} {per_call(run, calls):.1f} µs"
                                                          for part, run in parts.items()))

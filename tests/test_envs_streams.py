@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from taskgen.envs.streams import draw, subkeys, uniform, uniform_column
+from taskgen.envs.streams import draw, subkeys, subkeys_of, uniform, uniform_column
 
 
 def test_a_column_drawn_alone_equals_that_column_of_the_full_draw():
@@ -17,6 +17,18 @@ def test_a_column_drawn_alone_equals_that_column_of_the_full_draw():
     for j in range(6):
         assert np.array_equal(uniform_column(keys, step, j), full[:, j])
         assert np.array_equal(uniform_column(keys, step, j), uniform(keys, step, j + 1)[:, j])
+
+
+def test_subkeys_of_several_purposes_in_one_hash_equal_each_purpose_s():
+    """Column j of subkeys_of(keys, purposes) is subkeys(keys, purposes[j]), for keys across the uint64
+    range (common practice: the same hash of the same counter)."""
+    keys = np.concatenate([np.random.default_rng(4).integers(0, 2**63, size=50, dtype=np.uint64) * np.uint64(2),
+                           np.array([0, 2**64 - 1], dtype=np.uint64)])
+    purposes = ("noise_flip", "pixel_noise", "distractor", "cue")
+    stacked = subkeys_of(keys, purposes)
+    assert stacked.shape == (keys.size, len(purposes))
+    for j, purpose in enumerate(purposes):
+        assert np.array_equal(stacked[:, j], subkeys(keys, purpose))
 
 
 def test_a_single_draw_in_python_integers_equals_numpy_s():

@@ -122,6 +122,19 @@ def test_draws_made_step_by_step_equal_draws_made_ahead(monkeypatch):
              observation__distractors={"decoy_probability": 0.3, "lure_probability": 0.4})
 
 
+@pytest.mark.parametrize("spec_name, mode", [("seed-cache", AutoresetMode.NEXT_STEP),
+                                             ("marsh-stones", AutoresetMode.NEXT_STEP),
+                                             ("tide-pools", AutoresetMode.SAME_STEP)])
+def test_episodes_drawn_ahead_in_small_windows_equal_single_envs(spec_name, mode, monkeypatch):
+    """With windows of two episodes (refilled many times over) and resets through a reset_mask, some of
+    them seeded, the batch, which starts its episodes from draws made ahead, still gives what
+    gymnasium's SyncVectorEnv of single envs gives (the reference)."""
+    import taskgen.envs.ahead as ahead
+    monkeypatch.setattr(ahead, "AHEAD", 2)
+    _compare(spec_name, variants=[2] * 4, reset_seed=6, steps=800, mode=mode, masked=True,
+             observation__distractors={"decoy_probability": 0.3})
+
+
 def test_a_padded_field_variant_equals_single_envs():
     """A field variant narrower than its family (marks block moved by the padding) steps in a batch
     exactly as gymnasium's SyncVectorEnv of single envs does."""

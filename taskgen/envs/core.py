@@ -1,7 +1,7 @@
 """The batched core of every runtime: what a task kind implements, under one single-env and one vector shell.
 
-A core holds N environments of one kind as arrays and steps them together: :meth:`Core.begin`
-starts episodes from their keys, :meth:`Core.advance` takes one step, :meth:`Core.observe` and
+A core holds N environments of one kind as arrays and steps them together: :meth:`Core.draws`
+makes what episodes draw from their keys and :meth:`Core.begin_drawn` starts them from it, :meth:`Core.advance` takes one step, :meth:`Core.observe` and
 :meth:`Core.infos` read out what the agents see and what the infos report. The
 shells (``TaskEnv``, ``TaskVectorEnv``) own everything else once: render modes, action
 validation, seeding and episode keys, and next-step autoreset.
@@ -45,13 +45,26 @@ class Core(ABC):
         """The observation space of one environment."""
 
     @abstractmethod
-    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
-        """Start new episodes in environments ``rows`` from their episode keys (uint64, one per row)."""
+    def draws(self, rows: np.ndarray, keys: np.ndarray) -> dict[str, np.ndarray]:
+        """Everything an episode draws at its start, for the episodes whose keys are ``keys`` [n] in
+        environments ``rows`` [n] (an environment may appear once per episode): arrays with one row per
+        key. A function of the key (and the environment's variant) alone, so a batch may draw the
+        next episodes of its environments ahead of time (see ahead.py)."""
 
     @abstractmethod
-    def advance(self, actions: np.ndarray,
-                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """One step of every environment (only ``moving`` ones change): reward, terminated, truncated."""
+    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
+        """Start new episodes in environments ``rows`` from their :meth:`draws` (one row per row)."""
+
+    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
+        """Start new episodes in environments ``rows`` from their episode keys (uint64, one per row)."""
+        if rows.size:
+            self.begin_drawn(rows, self.draws(rows, keys))
+
+    @abstractmethod
+    def advance(self, actions: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """One step of every environment: reward, terminated, truncated (fresh arrays). The shell restarts
+        the environments whose episode ended on the step before this one (next-step autoreset) after
+        it, so what this step did to them is overwritten."""
 
     @abstractmethod
     def observe(self) -> dict[str, np.ndarray]:

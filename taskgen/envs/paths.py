@@ -90,18 +90,20 @@ class PathCore(Core):
         """The space of one environment."""
         return self.observations.space()
 
-    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
-        """Start the episodes of ``rows`` whose keys are ``keys``: a new path for each."""
-        if not rows.size:
-            return
-        u = uniform(subkeys(keys, "path"), 0, self.rule.draws)
-        kind, start = self.rule.draw(u)
-        self.kind[rows], self.start[rows] = kind, start
-        self.state[rows] = start                        # (start cell, no missteps)
+    def draws(self, rows: np.ndarray, keys: np.ndarray) -> dict[str, np.ndarray]:
+        """Each episode's path (its cells' kinds and its start cell) and noise."""
+        drawn = self.noise.draws(keys)
+        drawn["kind"], drawn["start"] = self.rule.draw(uniform(subkeys(keys, "path"), 0, self.rule.draws))
+        return drawn
+
+    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
+        """Start the episodes of ``rows`` on their drawn paths, at their start cells with no marks."""
+        self.kind[rows], self.start[rows] = drawn["kind"], drawn["start"]
+        self.state[rows] = drawn["start"]                        # (start cell, no missteps)
         self.step_count[rows] = 0
         self.until[rows] = 0
         self.missteps[rows] = 0
-        self.noise.begin(rows, keys)
+        self.noise.begin_drawn(rows, drawn)
 
     def shown_marks(self) -> np.ndarray:
         """bool[N, C]: the marks each agent sees now: its missteps' marks and, with decoys, this
@@ -117,9 +119,8 @@ class PathCore(Core):
                 marked[show, other + (other >= cell)] = True        # every cell but the agent's
         return marked
 
-    def advance(self, actions: np.ndarray,
-                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """One step of every environment (only ``moving`` ones change): reward, terminated, truncated."""
+    def advance(self, actions: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """One step of every environment: reward, terminated, truncated."""
         rule = self.rule
         out = rule.outcome(self.state, actions, self.kind, self.start)
         step = self.step_count + 1
@@ -128,16 +129,10 @@ class PathCore(Core):
         reward = out.reward                       # a fresh array: the timeout is added in place
         if rule.timeout_reward:
             reward += truncated * rule.timeout_reward
-        misstep = out.misstep
-        if moving is not None:                    # in place: the rows that start anew keep theirs
-            misstep &= moving
-            np.copyto(self.state, out.next_state, where=moving)
-            np.copyto(self.step_count, step, where=moving)
-        else:
-            self.state, self.step_count = out.next_state, step
-        self.missteps += misstep
-        rule.mark_after(self.until, misstep, out.aim, self.rows, self.step_count)
-        self.noise.flip(step, self.threshold, moving)
+        self.state, self.step_count = out.next_state, step
+        self.missteps += out.misstep
+        rule.mark_after(self.until, out.misstep, out.aim, self.rows, self.step_count)
+        self.noise.flip(step, self.threshold)
         return reward, out.terminal, truncated
 
     def observe(self) -> dict[str, np.ndarray]:

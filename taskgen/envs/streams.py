@@ -120,6 +120,12 @@ def subkeys(keys: np.ndarray, purpose: str) -> np.ndarray:
     return _mix(np.add(np.asarray(keys, dtype=np.uint64), _OFFSET[purpose]))
 
 
+def subkeys_of(keys: np.ndarray, purposes: tuple[str, ...]) -> np.ndarray:
+    """uint64[N, P]: :func:`subkeys` of several purposes in one hash (column j is ``purposes[j]``'s)."""
+    offsets = np.array([_OFFSET[purpose] for purpose in purposes], dtype=np.uint64)
+    return _mix(np.add(np.asarray(keys, dtype=np.uint64)[:, None], offsets))
+
+
 def uniform(sub: np.ndarray, step: np.ndarray | int = 0, width: int | None = None) -> np.ndarray:
     """Uniform [0, 1) draws of per-purpose keys ``sub`` [N] at ``step`` (scalar or [N]):
     shape [N], or [N, width] with one draw per index."""
@@ -296,24 +302,40 @@ class EpisodeNoise:
         self.pixel_keys = np.zeros(n, dtype=np.uint64)
         self.distractor_keys = np.zeros(n, dtype=np.uint64)
         self._pixel_noise, self._distractors = pixel_noise, distractors
+        # the per-step keys an episode starts with, by purpose, and where they are kept
+        self._purposes = tuple(purpose for purpose, used in (("noise_flip", bits > 0), ("pixel_noise", pixel_noise),
+                                                             ("distractor", distractors)) if used)
+
+    def draws(self, keys: np.ndarray) -> dict[str, np.ndarray]:
+        """What the episodes whose keys are ``keys`` [n] start with (one row per key): their first noise
+        bits and their per-step keys by purpose."""
+        drawn: dict[str, np.ndarray] = {}
+        if self.bits:
+            drawn["noise_init"] = noise_init(keys, self.bits)
+        if self._purposes:
+            sub = subkeys_of(keys, self._purposes)
+            for j, purpose in enumerate(self._purposes):
+                drawn[purpose] = sub[:, j]
+        return drawn
+
+    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
+        """New episodes in ``rows`` from their :meth:`draws`: fresh bits and fresh per-step keys."""
+        if self.bits:
+            self.now[rows] = drawn["noise_init"]
+            self.flip_keys[rows] = drawn["noise_flip"]
+        if self._pixel_noise:
+            self.pixel_keys[rows] = drawn["pixel_noise"]
+        if self._distractors:
+            self.distractor_keys[rows] = drawn["distractor"]
 
     def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
-        """New episodes in ``rows`` from their keys: fresh bits and fresh per-step keys."""
-        if self.bits:
-            self.now[rows] = noise_init(keys, self.bits)
-            self.flip_keys[rows] = subkeys(keys, "noise_flip")
-        if self._pixel_noise:
-            self.pixel_keys[rows] = subkeys(keys, "pixel_noise")
-        if self._distractors:
-            self.distractor_keys[rows] = subkeys(keys, "distractor")
+        """New episodes in ``rows`` from their keys."""
+        self.begin_drawn(rows, self.draws(keys))
 
-    def flip(self, step: np.ndarray, threshold: np.ndarray | int, moving: np.ndarray | None) -> None:
-        """Flip this step's bits (``step``: the step just taken); rows not ``moving`` keep theirs."""
+    def flip(self, step: np.ndarray, threshold: np.ndarray | int) -> None:
+        """Flip this step's bits (``step``: the step just taken)."""
         if self.bits:
-            flipped = flips(self.flip_keys, step, self.bits, threshold)
-            if moving is not None:
-                flipped &= moving[:, None]
-            self.now ^= flipped
+            self.now ^= flips(self.flip_keys, step, self.bits, threshold)
 
     def arrays(self) -> list[np.ndarray]:
         """The arrays held per environment (for memory counts)."""

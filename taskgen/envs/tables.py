@@ -232,26 +232,32 @@ class TableCore(Core):
             parts["vector"] = spaces.Box(0.0, 1.0, shape=(size,), dtype=np.float32)
         return next(iter(parts.values())) if len(parts) == 1 else spaces.Dict(parts)
 
-    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
-        """Start new episodes: a variant (pools), the cue, the noise bits and the per-step keys."""
-        if not rows.size:
-            return
-        if self._draw:    # a new variant from the pool
-            count = len(self._models)
-            chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
-            self._assign_rows(rows, chosen)
+    def draws(self, rows: np.ndarray, keys: np.ndarray) -> dict[str, np.ndarray]:
+        """Each episode's variant (pools), start state (which holds the cue) and noise."""
+        drawn = self.noise.draws(keys)
         bits = uniform_bits(subkeys(keys, "cue"))
-        if self._one_start is not None:      # every environment holds one variant: one row of thresholds
+        if self._draw:    # a new variant from the pool, and a start state of it
+            count, per = len(self._models), self._per
+            chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
+            drawn["variant"] = chosen
+            drawn["state"] = per.starts[chosen, categorical_bits(bits, per.thresholds[chosen])]
+        elif self._one_start is not None:      # every environment holds one variant: one row of thresholds
             starts, thresholds = self._one_start
-            self.state[rows] = starts.take(categorical_bits(bits, thresholds))
+            drawn["state"] = starts.take(categorical_bits(bits, thresholds))
         else:
-            self.state[rows] = self._starts[rows, categorical_bits(bits, self._thresholds[rows])]
-        self.step_count[rows] = 0
-        self.noise.begin(rows, keys)
+            drawn["state"] = self._starts[rows, categorical_bits(bits, self._thresholds[rows])]
+        return drawn
 
-    def advance(self, actions: np.ndarray,
-                moving: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Gathers of next state, reward and terminal; noise flips; only ``moving`` rows change."""
+    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
+        """Start new episodes: the variant (pools), the start state, step 0 and the noise."""
+        if self._draw:
+            self._assign_rows(rows, drawn["variant"])
+        self.state[rows] = drawn["state"]
+        self.step_count[rows] = 0
+        self.noise.begin_drawn(rows, drawn)
+
+    def advance(self, actions: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Gathers of next state, reward and terminal; noise flips."""
         flat = self.state * self.num_actions
         flat += actions
         next_state = self._next_flat.take(flat)
@@ -261,12 +267,8 @@ class TableCore(Core):
         truncated = np.greater(step >= self._horizon, terminated)    # at the limit and not terminated
         if self._timeout_any:
             np.add(reward, self._timeout, out=reward, where=truncated)
-        self.noise.flip(step, self._threshold if self._threshold_one is None else self._threshold_one, moving)
-        if moving is not None:                    # in place: the rows that start anew keep theirs
-            np.copyto(self.state, next_state, where=moving)
-            np.copyto(self.step_count, step, where=moving)
-        else:
-            self.state, self.step_count = next_state, step
+        self.noise.flip(step, self._threshold if self._threshold_one is None else self._threshold_one)
+        self.state, self.step_count = next_state, step
         return reward, terminated, truncated
 
     def observe(self) -> dict[str, np.ndarray]:

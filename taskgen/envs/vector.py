@@ -20,9 +20,10 @@ from gymnasium.vector.utils import batch_space
 
 from ..model import TaskModel
 from ..render.observations import assemble
+from .ahead import NextEpisodes
 from .core import Core
 from .single import RENDER_MODES, check_render_mode
-from .streams import episode_keys_of, stream_bases, vector_reset_keys
+from .streams import vector_reset_keys
 
 
 def as_autoreset_mode(mode: AutoresetMode | str) -> AutoresetMode:
@@ -68,9 +69,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         self._advance, self._begin, self._observe, self._core_infos = core.advance, core.begin, core.observe, core.infos
         self._observations = core.observations
         self._streams = np.zeros(N, dtype=np.uint64)
-        self._bases = stream_bases(self._streams)   # each stream's hash, for the keys of its next episodes
-        self._episodes = np.zeros(N, dtype=np.int64)
-        self._keys = np.zeros(N, dtype=np.uint64)
+        self._next = NextEpisodes(core)   # episode numbers, and the next episodes' start draws made ahead
         self._seeded = np.zeros(N, dtype=bool)
         self._generators: list[np.random.Generator | None] = [None] * N
         self._autoreset = np.zeros(N, dtype=bool)   # ended last step (next-step mode: restart now)
@@ -99,10 +98,10 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         rows = np.arange(self.num_envs) if mask is None else np.flatnonzero(mask)
         if mask is not None and not self._started:
             raise ValueError("the first reset resets every environment: call reset() without a reset_mask")
-        episodes, keys = vector_reset_keys(seed, self._seeded, self._generators, self._streams, self._episodes, rows)
-        self._bases[rows] = stream_bases(self._streams[rows])
-        self._episodes[rows], self._keys[rows] = episodes, keys
+        episodes, keys = vector_reset_keys(seed, self._seeded, self._generators, self._streams,
+                                           self._next.numbers(), rows)
         self._begin(rows, keys)
+        self._next.begun(rows, self._streams[rows], episodes)
         self._autoreset[rows] = False
         self._started = True
         info = self._infos()
@@ -127,9 +126,8 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         a = np.asarray(actions)
         if a.dtype != np.int64 and a.dtype.kind in "iu":
             a = a.astype(np.int64)
-        # viewed as unsigned, a negative action is huge: one comparison checks both bounds
-        if a.shape != (self.num_envs,) or a.dtype != np.int64 or \
-                (a.view(np.uint64) >= self._bound).any():
+        # viewed as unsigned, a negative action is huge: the largest checks both bounds
+        if a.shape != (self.num_envs,) or a.dtype != np.int64 or a.view(np.uint64).max() >= self._bound:
             raise ValueError(f"actions must be {self.num_envs} integers in [0, {self._num_actions}), "
                              f"got {actions!r}")
         if not self._started:
@@ -139,13 +137,13 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         if mode is not AutoresetMode.NEXT_STEP and resetting.any():
             raise ValueError(f"environments {np.flatnonzero(resetting).tolist()} have ended: with autoreset "
                              "disabled, reset them with reset(options={'reset_mask': mask}) before stepping")
-        moving = ~resetting if resetting.any() else None
-        reward, terminated, truncated = self._advance(a, moving)
-        if moving is not None:
-            self._restart(np.flatnonzero(resetting))
-            reward[resetting] = 0.0
-            terminated &= moving
-            truncated &= moving
+        reward, terminated, truncated = self._advance(a)
+        rows = resetting.nonzero()[0]
+        if rows.size:   # these start anew instead (overwriting what the step did to them)
+            self._next.restart(rows)
+            reward[rows] = 0.0
+            terminated[rows] = False
+            truncated[rows] = False
         ended = terminated | truncated
         if mode is AutoresetMode.SAME_STEP:
             final = self._same_step(ended)
@@ -156,12 +154,6 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
             return obs, reward, terminated, truncated, info
         self._autoreset = ended
         return assemble(self._observations, self._observe()), reward, terminated, truncated, self._infos(ended)
-
-    def _restart(self, rows: np.ndarray) -> None:
-        """Start the next episode of each environment in ``rows``."""
-        self._episodes[rows] += 1
-        self._keys[rows] = episode_keys_of(self._bases[rows], self._episodes[rows])
-        self._begin(rows, self._keys[rows])
 
     def _same_step(self, ended: np.ndarray) -> dict[str, Any] | None:
         """Same-step autoreset: the ended environments' last observations and infos, then their new
@@ -174,7 +166,7 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         for i in rows.tolist():   # one object per ended environment, as gymnasium's final_obs holds them
             final_obs[i] = assemble(self._observations, {name: part[i] for name, part in parts.items()})
         final_info = self._restricted(self._infos(ended), ended)
-        self._restart(rows)
+        self._next.restart(rows)
         return {"final_obs": final_obs, "_final_obs": ended, "final_info": final_info, "_final_info": ended.copy()}
 
     def _infos(self, ended: np.ndarray | None = None) -> dict[str, Any]:
@@ -219,7 +211,8 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         return self.core.ground_truth(i)
 
     def memory_bytes(self) -> dict[str, int]:
-        """Bytes held per environment (the core's state and the episode keys) and shared (tables)."""
-        own = [self._streams, self._bases, self._episodes, self._keys, self._seeded, self._autoreset]
+        """Bytes held per environment (the core's state, the streams and the episodes drawn ahead) and
+        shared (tables)."""
+        own = sum(a.nbytes for a in (self._streams, self._seeded, self._autoreset)) + self._next.memory_bytes()
         core = self.core.memory_bytes()
-        return {"per_env": core["per_env"] + sum(a.nbytes for a in own) // self.num_envs, "shared": core["shared"]}
+        return {"per_env": core["per_env"] + own // self.num_envs, "shared": core["shared"]}
