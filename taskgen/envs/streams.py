@@ -63,36 +63,34 @@ def next_episode(stream: int | None, episode: int, seeded: bool,
     return stream, episode, np.array([episode_key(stream, episode)], dtype=np.uint64)
 
 
-def vector_reset_keys(seed: Any, seeded: np.ndarray, generators: list[np.random.Generator | None],
-                      streams: np.ndarray, episodes: np.ndarray,
-                      rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """(episodes, keys) of a batched reset of environments ``rows`` (None: all); ``seed`` is None,
-    an int (env i gets seed + i) or a list with one entry per environment. A seeded env (or one
-    never seeded) draws a new stream from its generator and starts at episode 0; the others go
-    on to their stream's next episode. Updates ``seeded``, ``generators`` and ``streams`` in place,
-    as the single envs' resets would; returns the episodes and keys of ``rows`` only."""
+def vector_reset_streams(seed: Any, seeded: np.ndarray, generators: list[np.random.Generator | None],
+                         streams: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """bool[rows]: which environments of a batched reset of ``rows`` start a new stream (at its episode
+    0); the others go on to their stream's next episode. ``seed`` is None, an int (env i gets seed + i)
+    or a list with one entry per environment. A seeded env (or one never seeded) draws its new stream
+    from its generator; ``seeded``, ``generators`` and ``streams`` are updated in place, as the single
+    envs' resets would."""
     n = seeded.shape[0]
-    rows = np.arange(n) if rows is None else rows
-    if seed is None:
+    if seed is None:          # only the environments never seeded draw a stream (a Python step each, once)
         seeds: list[int | None] = [None] * n
-    elif isinstance(seed, (int, np.integer)):
-        seeds = [int(seed) + i for i in range(n)]
+        drawing = rows[~seeded[rows]]
     else:
-        seeds = list(seed)
-        if len(seeds) != n:
-            raise ValueError(f"reset needs {n} seeds, got {len(seeds)}")
-    fresh = np.zeros(rows.size, dtype=bool)
-    for j, i in enumerate(rows.tolist()):   # once per reset call, not per step
+        if isinstance(seed, (int, np.integer)):
+            seeds = [int(seed) + i for i in range(n)]
+        else:
+            seeds = list(seed)
+            if len(seeds) != n:
+                raise ValueError(f"reset needs {n} seeds, got {len(seeds)}")
+        drawing = rows[[seeds[i] is not None or not seeded[i] for i in rows.tolist()]]
+    for i in drawing.tolist():   # a generator per seeded environment: once per seeded reset, not per step
         s = seeds[i]
-        if s is not None or not seeded[i]:
-            generator = generators[i]
-            if s is not None or generator is None:
-                generator, _ = seeding.np_random(s)
-                generators[i] = generator
-            streams[i] = stream_from(generator)
-            seeded[i] = fresh[j] = True
-    chosen = np.where(fresh, 0, episodes[rows] + 1)
-    return chosen, episode_keys(streams[rows], chosen)
+        generator = generators[i]
+        if s is not None or generator is None:
+            generator, _ = seeding.np_random(s)
+            generators[i] = generator
+        streams[i] = stream_from(generator)
+    seeded[drawing] = True
+    return np.isin(rows, drawing)
 
 
 def episode_keys(streams: np.ndarray, episodes: np.ndarray) -> np.ndarray:

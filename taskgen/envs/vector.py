@@ -23,7 +23,7 @@ from ..render.observations import assemble
 from .ahead import NextEpisodes
 from .core import Core
 from .single import RENDER_MODES, check_render_mode
-from .streams import vector_reset_keys
+from .streams import episode_keys, vector_reset_streams
 
 
 def as_autoreset_mode(mode: AutoresetMode | str) -> AutoresetMode:
@@ -98,10 +98,14 @@ class TaskVectorEnv(VectorEnv[Any, Any, Any]):
         rows = np.arange(self.num_envs) if mask is None else np.flatnonzero(mask)
         if mask is not None and not self._started:
             raise ValueError("the first reset resets every environment: call reset() without a reset_mask")
-        episodes, keys = vector_reset_keys(seed, self._seeded, self._generators, self._streams,
-                                           self._next.numbers(), rows)
-        self._begin(rows, keys)
-        self._next.begun(rows, self._streams[rows], episodes)
+        fresh = vector_reset_streams(seed, self._seeded, self._generators, self._streams, rows)
+        new, going_on = rows[fresh], rows[~fresh]
+        if going_on.size:      # the stream's next episode, drawn ahead
+            self._next.restart(going_on)
+        if new.size:           # a new stream's episode 0
+            first = np.zeros(new.size, dtype=np.int64)
+            self._begin(new, episode_keys(self._streams[new], first))
+            self._next.begun(new, self._streams[new], first)
         self._autoreset[rows] = False
         self._started = True
         info = self._infos()
