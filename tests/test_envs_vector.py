@@ -111,11 +111,11 @@ def test_batch_with_distractors_equals_single_envs(spec_name, overrides):
     _compare(spec_name, variants=[3] * 4, reset_seed=2, steps=1200, **overrides)
 
 
-def test_draws_made_step_by_step_equal_draws_made_ahead(monkeypatch):
+def test_draws_made_one_episode_at_a_time_equal_draws_made_ahead(monkeypatch):
     """With the single envs drawing one episode's noise bits and decoys per reset (a block of one, not
-    of the stream's next episodes), they still give what the batch, which draws step by step, and
-    SyncVectorEnv give (gymnasium's SyncVectorEnv of our single envs is the reference; the test above
-    covers blocks of episodes)."""
+    of the stream's next episodes), they still give what the batch, which draws its environments' next
+    episodes in windows, gives (gymnasium's SyncVectorEnv of our single envs is the reference; the test
+    above covers blocks of episodes, the one below windows of two)."""
     import taskgen.envs.tables as tables
     monkeypatch.setattr(tables, "BLOCK", 1)
     _compare("seed-cache", variants=[3] * 4, reset_seed=5, steps=600,

@@ -2,11 +2,11 @@
 applied the same way by the single and the batched runtime.
 
 Each step has six draws per environment (``uniform(key, step, 6)``, purpose 'distractor'): 0 decides
-a decoy and 1 its value; 2 decides a lure, 3 its value, 4 its grid cell and 5 its pixel tile. The
-batch draws column 0 (and 2) for every environment and the rest only for the environments whose
-decoy (lure) shows, so the work follows what is shown; a single env draws each episode's decoys with
-the episode (:func:`decoy_tracks`, the same numbers), its lures one at a time
-(:func:`~taskgen.envs.streams.draw`), and calls the painters only on the steps where something shows.
+a decoy and 1 its value; 2 decides a lure, 3 its value, 4 its grid cell and 5 its pixel tile. Decoys
+are drawn with the episode, for all its steps (:func:`decoy_tracks`). The batch draws the lures'
+column 2 for every environment and the rest only for the environments whose lure shows, so the work
+follows what is shown; a single env draws its lures one at a time (:func:`~taskgen.envs.streams.draw`)
+and calls the painters only on the steps where something shows.
 """
 
 from __future__ import annotations
@@ -34,12 +34,16 @@ def _value(u: np.ndarray, k: int) -> np.ndarray:
 
 
 def decoy_tracks(keys: np.ndarray, steps: int, probability: float, k: int) -> np.ndarray:
-    """int64[E, steps]: the decoy cue value of each episode whose 'distractor' key is ``keys`` [E] at
-    steps 0 … steps − 1 (−1: no decoy), the draws :func:`apply_distractors` makes step by step (shown
-    only where the real cue is not); a single env draws a block of episodes at once."""
-    keys = np.asarray(keys, dtype=np.uint64)[:, None]
-    at = np.arange(steps)[None, :]
-    return np.where(below(keys, at, 0, probability), _value(uniform_column(keys, at, 1), k), -1)
+    """int64[E, steps]: the decoy value (of ``k``) of each episode whose 'distractor' key is ``keys`` [E]
+    at steps 0 … steps − 1 (−1: no decoy): draw 0 decides a decoy, draw 1 its value, made only where
+    one shows. Drawn with the episode: a batch with its next episodes (envs/noise.py), a single env
+    with a block of them. A cue decoy shows only where the real cue does not."""
+    keys = np.asarray(keys, dtype=np.uint64)
+    shown = below(keys[:, None], np.arange(steps)[None, :], 0, probability)
+    track = np.full(shown.shape, -1, dtype=np.int64)
+    episode, step = shown.nonzero()
+    track[episode, step] = _value(uniform_column(keys[episode], step, 1), k)
+    return track
 
 
 def show_decoys(obs: ObservationSet, parts: dict[str, np.ndarray], rows: np.ndarray, value: np.ndarray) -> None:
@@ -78,21 +82,21 @@ def show_lures(parts: dict[str, np.ndarray], rows: np.ndarray, value: np.ndarray
             box[(box == _FLOOR).all(axis=2)] = _COLOURS[value[i]]
 
 
-def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], keys: np.ndarray, step: np.ndarray,
-                      cue_shown: np.ndarray, tile_counts: np.ndarray, tile_offsets: np.ndarray,
-                      tiles: np.ndarray | None) -> None:
+def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], decoys: np.ndarray | None,
+                      keys: np.ndarray, step: np.ndarray, cue_shown: np.ndarray, tile_counts: np.ndarray,
+                      tile_offsets: np.ndarray, tiles: np.ndarray | None) -> None:
     """Overlay this step's decoys and lures on batched observations ``parts`` (in place).
 
-    ``keys`` are the environments' 'distractor' subkeys, ``cue_shown`` marks those whose real
-    cue is in view (no decoy then); lure tiles of env i are rows ``tile_offsets[i] …
-    + tile_counts[i]`` of ``tiles``. (Drawing each episode's decoys at its start, as a single env
-    does, costs a batch more than it saves: the hash then runs over every step of the step limit.)
+    ``decoys`` are this step's decoy values (−1: none; from the episodes' :func:`decoy_tracks`),
+    shown where ``cue_shown``, the real cue in view, is not; lures are drawn now from ``keys``,
+    the environments' 'distractor' subkeys, at ``step``; lure tiles of env i are rows
+    ``tile_offsets[i] … + tile_counts[i]`` of ``tiles``.
     """
     k = obs.cue_values
-    if obs.decoy_probability > 0:
-        rows = np.flatnonzero(below(keys, step, 0, obs.decoy_probability) & ~cue_shown)
+    if decoys is not None:
+        rows = ((decoys >= 0) > cue_shown).nonzero()[0]       # a decoy, and the real cue not in view
         if rows.size:
-            show_decoys(obs, parts, rows, _value(uniform_column(keys[rows], step[rows], 1), k))
+            show_decoys(obs, parts, rows, decoys.take(rows))
     if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts):
         rows = np.flatnonzero(below(keys, step, 2, obs.lure_probability))
         if rows.size:

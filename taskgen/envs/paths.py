@@ -21,8 +21,8 @@ from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import with_noise_columns
 from .core import ROW, Core
-from .streams import (EpisodeNoise, add_pixel_noise, below, draw, flip_threshold, noise_track, subkey, subkeys,
-                      uniform, uniform_column)
+from .noise import EpisodeNoise
+from .streams import add_pixel_noise, draw, subkey, subkeys, uniform
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
               "or a split of a field holds one variant")
@@ -45,7 +45,7 @@ class PathCore(Core):
         n, C = num_envs, self.rule.num_cells
         self.vector = observations.vector
         self.bits = self.vector.noise_bits if self.vector is not None else 0
-        self.threshold = flip_threshold(self.vector.flip_probability) if self.vector is not None else 0
+        self.flip = self.vector.flip_probability if self.vector is not None else 0.0
         self.state = np.zeros(n, dtype=np.int64)
         self.step_count = np.zeros(n, dtype=np.int64)
         self.kind = np.zeros((n, C), dtype=np.int8)
@@ -53,7 +53,9 @@ class PathCore(Core):
         self.until = np.zeros((n, C), dtype=np.int64)
         self.missteps = np.zeros(n, dtype=np.int64)
         self.decoy = observations.decoy_probability
-        self.noise = EpisodeNoise(n, self.bits, observations.pixel_noise is not None, self.decoy > 0)
+        # a decoy mark is on one of the cells other than the agent's
+        self.noise = EpisodeNoise(n, self.bits, self.rule.horizon, observations.pixel_noise is not None,
+                                  decoy_probability=self.decoy, decoy_values=C - 1)
         self.rows = np.arange(n)
         self._ids = np.full(n, model.variant_id, dtype=object)
         self._ids.flags.writeable = False    # shared by every info dict: read-only
@@ -62,7 +64,7 @@ class PathCore(Core):
         self._noise_track = np.zeros((self.rule.horizon + 1, self.bits), dtype=np.float32)
         # a single env: its state and step as Python ints, and what its step reads, looked up once
         self._vector_only = self.vector is not None and observations.names == ("vector",)
-        self._distractor_key = 0       # a single env's 'distractor' key (decoy marks, as shown_marks draws them)
+        self._decoys: list[int] = []    # a single env's decoy mark at each step (−1: none), as shown_marks reads it
         self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
         self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
         self._table_bits = with_noise_columns(self._rows, self.bits)
@@ -92,7 +94,7 @@ class PathCore(Core):
 
     def draws(self, rows: np.ndarray, keys: np.ndarray) -> dict[str, np.ndarray]:
         """Each episode's path (its cells' kinds and its start cell) and noise."""
-        drawn = self.noise.draws(keys)
+        drawn = self.noise.draws(keys, self.flip)
         drawn["kind"], drawn["start"] = self.rule.draw(uniform(subkeys(keys, "path"), 0, self.rule.draws))
         return drawn
 
@@ -107,15 +109,14 @@ class PathCore(Core):
 
     def shown_marks(self) -> np.ndarray:
         """bool[N, C]: the marks each agent sees now: its missteps' marks and, with decoys, this
-        step's decoy mark (a cell other than the agent's, drawn from the 'distractor' stream)."""
+        step's decoy mark (a cell other than the agent's, from the episode's decoy track)."""
         marked = self.until > self.step_count[:, None]
-        if self.decoy > 0:
-            keys, step = self.noise.distractor_keys, self.step_count
-            show = np.flatnonzero(below(keys, step, 0, self.decoy))
-            if show.size:     # the second draw only where a decoy shows
-                C = self.rule.num_cells
-                cell = self.rule.state_cell[self.state[show]]
-                other = np.minimum((uniform_column(keys[show], step[show], 1) * (C - 1)).astype(np.int64), C - 2)
+        if self.noise.decoy_probability:
+            other = self.noise.decoys_at(self.step_count)
+            show = (other >= 0).nonzero()[0]
+            if show.size:
+                other = other.take(show)
+                cell = self.rule.state_cell.take(self.state.take(show))
                 marked[show, other + (other >= cell)] = True        # every cell but the agent's
         return marked
 
@@ -132,7 +133,6 @@ class PathCore(Core):
         self.state, self.step_count = out.next_state, step
         self.missteps += out.misstep
         rule.mark_after(self.until, out.misstep, out.aim, self.rows, self.step_count)
-        self.noise.flip(step, self.threshold)
         return reward, out.terminal, truncated
 
     def observe(self) -> dict[str, np.ndarray]:
@@ -140,7 +140,7 @@ class PathCore(Core):
         cell = self.rule.state_cell.take(self.state)
         parts = self._gathered(cell)
         if self.bits:
-            parts["vector"][:, -self.bits:] = self.noise.now
+            parts["vector"][:, -self.bits:] = self.noise.bits_at(self.step_count)
         self.overlay.apply(parts, cell, self.shown_marks())
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
@@ -230,15 +230,14 @@ class PathCore(Core):
         kind, self._kind_list, start = rule.draw_one([draw(path, 0, j) for j in range(rule.draws)])
         self.kind[0], self.start[0], self.state[0] = kind, start, start
         self.step_count[0] = self.until[0] = self.missteps[0] = self._missteps = 0
-        self.noise.begin(ROW, key)
+        noise = self.noise
+        noise.begin_drawn(ROW, noise.draws(key, self.flip))     # the episode's noise bits and decoys, every step
         self._until_of = {}
-        if self.bits:   # the whole episode's bits at once, equal to the batched runtime's step-by-step flips
-            assert self.vector is not None
-            self._noise_track = noise_track(key, self.bits, self.vector.flip_probability,
-                                            rule.horizon)[0].astype(np.float32)
+        if self.bits:
+            self._noise_track = noise.bit_track[:noise.steps].astype(np.float32)
         self._s, self._t, self._start = int(self.state[0]), 0, int(self.start[0])
-        if self.decoy > 0:
-            self._distractor_key = int(self.noise.distractor_keys[0])
+        if noise.decoy_probability:
+            self._decoys = noise.decoy_track[:noise.steps].tolist()
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
@@ -322,13 +321,12 @@ class PathCore(Core):
         return out
 
     def _decoy_one(self, cell: int, step: int) -> int:
-        """A single env's decoy mark at ``step`` when the agent is on ``cell`` (−1: none), drawn as
-        :meth:`shown_marks` draws it: a cell other than the agent's."""
-        if self.decoy == 0 or draw(self._distractor_key, step, 0) >= self.decoy:
+        """A single env's decoy mark at ``step`` when the agent is on ``cell`` (−1: none), read as
+        :meth:`shown_marks` reads it: a cell other than the agent's."""
+        if not self._decoys:
             return -1
-        C = self.rule.num_cells
-        other = min(int(draw(self._distractor_key, step, 1) * (C - 1)), C - 2)
-        return other + (other >= cell)
+        other = self._decoys[step]
+        return other + (other >= cell) if other >= 0 else -1
 
     def _info_scalar(self) -> dict[str, Any]:
         if not self.analysis_info:

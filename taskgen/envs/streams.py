@@ -254,7 +254,7 @@ def noise_init(keys: np.ndarray, bits: int) -> np.ndarray:
 
 def noise_track(keys: np.ndarray, bits: int, flip_probability: float | np.ndarray, horizon: int) -> np.ndarray:
     """bool[N, horizon+1, bits]: each episode's noise bits at every step (uniform at step 0, then
-    ``flips`` at steps 1 … horizon); the same bits the step-by-step path gives. The flip
+    ``flips`` at steps 1 … horizon), as applying each step's flips in turn gives them. The flip
     probability may differ per episode (an array of N)."""
     keys = np.asarray(keys, dtype=np.uint64)
     flip_keys = subkeys(keys, "noise_flip")
@@ -286,55 +286,3 @@ def add_pixel_noise(frames: np.ndarray, noise_keys: np.ndarray, step: np.ndarray
     u = uniform(noise_keys, step, 2 * h * w * c).reshape(n, 2, h, w, c)
     normal = np.sqrt(-2.0 * np.log1p(-u[:, 0])) * np.cos(2.0 * np.pi * u[:, 1])
     return np.clip(np.rint(frames + normal * (amplitude * 255.0)), 0, 255).astype(np.uint8)
-
-
-class EpisodeNoise:
-    """The per-episode randomness every runtime core draws the same way, for N environments: the
-    vector's noise bits (uniform at the start of an episode, then flipped per step) and the keys of
-    this episode's pixel noise and distractors."""
-
-    def __init__(self, n: int, bits: int, pixel_noise: bool, distractors: bool) -> None:
-        self.bits = bits
-        self.now = np.zeros((n, bits), dtype=bool)              # the noise bits each agent sees now
-        self.flip_keys = np.zeros(n, dtype=np.uint64)
-        self.pixel_keys = np.zeros(n, dtype=np.uint64)
-        self.distractor_keys = np.zeros(n, dtype=np.uint64)
-        self._pixel_noise, self._distractors = pixel_noise, distractors
-        # the per-step keys an episode starts with, by purpose, and where they are kept
-        self._purposes = tuple(purpose for purpose, used in (("noise_flip", bits > 0), ("pixel_noise", pixel_noise),
-                                                             ("distractor", distractors)) if used)
-
-    def draws(self, keys: np.ndarray) -> dict[str, np.ndarray]:
-        """What the episodes whose keys are ``keys`` [n] start with (one row per key): their first noise
-        bits and their per-step keys by purpose."""
-        drawn: dict[str, np.ndarray] = {}
-        if self.bits:
-            drawn["noise_init"] = noise_init(keys, self.bits)
-        if self._purposes:
-            sub = subkeys_of(keys, self._purposes)
-            for j, purpose in enumerate(self._purposes):
-                drawn[purpose] = sub[:, j]
-        return drawn
-
-    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
-        """New episodes in ``rows`` from their :meth:`draws`: fresh bits and fresh per-step keys."""
-        if self.bits:
-            self.now[rows] = drawn["noise_init"]
-            self.flip_keys[rows] = drawn["noise_flip"]
-        if self._pixel_noise:
-            self.pixel_keys[rows] = drawn["pixel_noise"]
-        if self._distractors:
-            self.distractor_keys[rows] = drawn["distractor"]
-
-    def begin(self, rows: np.ndarray, keys: np.ndarray) -> None:
-        """New episodes in ``rows`` from their keys."""
-        self.begin_drawn(rows, self.draws(keys))
-
-    def flip(self, step: np.ndarray, threshold: np.ndarray | int) -> None:
-        """Flip this step's bits (``step``: the step just taken)."""
-        if self.bits:
-            self.now ^= flips(self.flip_keys, step, self.bits, threshold)
-
-    def arrays(self) -> list[np.ndarray]:
-        """The arrays held per environment (for memory counts)."""
-        return [self.now, self.flip_keys, self.pixel_keys, self.distractor_keys]

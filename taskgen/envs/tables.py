@@ -22,8 +22,9 @@ from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table, scatter_index, with_noise_columns
 from .core import Core
 from .distractors import apply_distractors, decoy_tracks, distract_one
-from .streams import (EpisodeNoise, add_pixel_noise, categorical_bits, categorical_one, episode_keys, flip_threshold,
-                      noise_track, subkey, subkeys, uniform, uniform_bits, uniform_one, unit_thresholds)
+from .noise import EpisodeNoise
+from .streams import (add_pixel_noise, categorical_bits, categorical_one, episode_keys, noise_track, subkey, subkeys,
+                      uniform, uniform_bits, uniform_one, unit_thresholds)
 
 BLOCK = 64                # episodes of one stream whose per-step draws a single env makes at once
 BLOCK_BYTES = 1 << 22     # at most this many bytes of them
@@ -48,7 +49,6 @@ class _PerVariant:
 
     state_offset: np.ndarray    # int64[V]
     flip: np.ndarray            # float64[V]: noise flip probability
-    threshold: np.ndarray       # uint64[V]
     horizon: np.ndarray         # int64[V]
     timeout: np.ndarray         # float64[V]
     starts: np.ndarray          # int64[V, W]: global start states, padded with the last
@@ -100,7 +100,6 @@ class TableCore(Core):
         N = num_envs
         self._state_offset = np.zeros(N, dtype=np.int64)   # a variant's states are numbered from it
         self._flip = np.zeros(N)
-        self._threshold = np.zeros(N, dtype=np.uint64)
         self._horizon = np.zeros(N, dtype=np.int64)
         self._timeout = np.zeros(N)
         self._starts = np.zeros((N, self._per.starts.shape[1]), dtype=np.int64)
@@ -115,7 +114,10 @@ class TableCore(Core):
         self.state = self._starts[np.arange(N), 0].copy()
         self.step_count = np.zeros(N, dtype=np.int64)
         self._distracted = self.observations.decoy_probability > 0 or self.observations.lure_probability > 0
-        self.noise = EpisodeNoise(N, self._bits, self.observations.pixel_noise is not None, self._distracted)
+        obs = self.observations
+        self.noise = EpisodeNoise(N, self._bits, int(self._per.horizon.max()), obs.pixel_noise is not None,
+                                  lures=obs.lure_probability > 0 and (self._grid is not None or self._pixels is not None),
+                                  decoy_probability=obs.decoy_probability, decoy_values=obs.cue_values)
         self._renderers: dict[int, TopDownRenderer] = {}
         # a single env's episode: its state and step as Python ints, the tables as lists (made once)
         self._s, self._t, self._h = -1, 0, 0
@@ -196,14 +198,11 @@ class TableCore(Core):
         flip = np.array([o.vector.flip_probability if o.vector is not None else 0.0 for o in sets])
         self._per = _PerVariant(
             state_offset=state_off[:-1], flip=flip,
-            threshold=np.array([flip_threshold(p) for p in flip], dtype=np.uint64),
             horizon=np.array([m.horizon for m in models]), timeout=np.array([m.timeout_reward for m in models]),
             starts=starts, cumulative=cumulative, thresholds=unit_thresholds(cumulative), tile_count=tile_count,
             tile_offset=np.cumsum([0] + list(tile_count))[:-1],
             variant_ids=np.array([m.variant_id for m in models], dtype=object))
         self._timeout_any = bool(self._per.timeout.any())
-        thresholds = set(self._per.threshold.tolist())      # one noise-flip threshold for every variant: an int
-        self._threshold_one: int | None = thresholds.pop() if len(thresholds) == 1 else None
         self._every_id = self._per.variant_ids[self.env_variant]
         self._every_id.flags.writeable = False   # shared by every info dict while no env draws: read-only
 
@@ -214,7 +213,6 @@ class TableCore(Core):
         self.env_variant[rows] = chosen
         self._state_offset[rows] = per.state_offset[chosen]
         self._flip[rows] = per.flip[chosen]
-        self._threshold[rows] = per.threshold[chosen]
         self._horizon[rows] = per.horizon[chosen]
         self._timeout[rows] = per.timeout[chosen]
         self._starts[rows] = per.starts[chosen]
@@ -234,14 +232,16 @@ class TableCore(Core):
 
     def draws(self, rows: np.ndarray, keys: np.ndarray) -> dict[str, np.ndarray]:
         """Each episode's variant (pools), start state (which holds the cue) and noise."""
-        drawn = self.noise.draws(keys)
         bits = uniform_bits(subkeys(keys, "cue"))
         if self._draw:    # a new variant from the pool, and a start state of it
             count, per = len(self._models), self._per
             chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
+            drawn = self.noise.draws(keys, per.flip[chosen])
             drawn["variant"] = chosen
             drawn["state"] = per.starts[chosen, categorical_bits(bits, per.thresholds[chosen])]
-        elif self._one_start is not None:      # every environment holds one variant: one row of thresholds
+            return drawn
+        drawn = self.noise.draws(keys, self._flip[rows])
+        if self._one_start is not None:      # every environment holds one variant: one row of thresholds
             starts, thresholds = self._one_start
             drawn["state"] = starts.take(categorical_bits(bits, thresholds))
         else:
@@ -257,7 +257,7 @@ class TableCore(Core):
         self.noise.begin_drawn(rows, drawn)
 
     def advance(self, actions: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Gathers of next state, reward and terminal; noise flips."""
+        """Gathers of next state, reward and terminal (the noise bits are read from their tracks)."""
         flat = self.state * self.num_actions
         flat += actions
         next_state = self._next_flat.take(flat)
@@ -267,7 +267,6 @@ class TableCore(Core):
         truncated = np.greater(step >= self._horizon, terminated)    # at the limit and not terminated
         if self._timeout_any:
             np.add(reward, self._timeout, out=reward, where=truncated)
-        self.noise.flip(step, self._threshold if self._threshold_one is None else self._threshold_one)
         self.state, self.step_count = next_state, step
         return reward, terminated, truncated
 
@@ -281,7 +280,7 @@ class TableCore(Core):
             vector = self._state_rows.take(self.state, axis=0) if self._state_rows is not None else \
                 self._table_bits.take(keys, axis=0)
             if self._bits:   # the bool bits are cast as they are copied into the zero columns
-                vector[:, self._width:] = self.noise.now
+                vector[:, self._width:] = self.noise.bits_at(self.step_count)
             parts["vector"] = vector
         if self._grid is not None:
             parts["grid"] = self._grid.take(keys, axis=0)
@@ -294,7 +293,9 @@ class TableCore(Core):
         if self._first_person is not None:
             parts["first_person"] = self._first_person.take(keys, axis=0)
         if self._distracted:
-            apply_distractors(self.observations, parts, self.noise.distractor_keys, self.step_count,
+            noise = self.noise
+            apply_distractors(self.observations, parts, noise.decoys_at(self.step_count) if noise.decoy_probability
+                              else None, noise.distractor_keys, self.step_count,
                               self._state_shown.take(self.state), self._tile_count, self._tile_offset, self._tiles)
         return parts
 
@@ -351,7 +352,7 @@ class TableCore(Core):
     def memory_bytes(self) -> dict[str, int]:
         """Bytes of the per-environment rows and of the stacked tables."""
         per_env = [self.state, self.step_count, *self.noise.arrays(), self._starts, self._thresholds,
-                   self._threshold, self._horizon, self._timeout, self._state_offset, self.env_variant]
+                   self._flip, self._horizon, self._timeout, self._state_offset, self.env_variant]
         shared = [self._next, self._reward, self._terminal, self._terminal_flat, self._obs_key, self._hidden,
                   self._table, self._state_shown]
         shared += [self._state_rows] if self._state_rows is not None else []

@@ -1,0 +1,80 @@
+"""An episode's observation noise for N environments, drawn at its start: every runtime core draws it
+the same way.
+
+The vector's noise bits and the decoys are drawn for every step of the episode at once, as tracks
+(one row per step, 0 … the step limit), so a step reads its row with one gather instead of hashing
+anew (a batch makes the tracks ahead, with its next episodes: see ahead.py). Pixel noise and lures
+are drawn per step from their keys, where a track would be as large as the pictures.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .distractors import decoy_tracks
+from .streams import noise_track, subkeys_of
+
+
+class EpisodeNoise:
+    """N environments' noise bits and decoys at every step of their episodes, and their episodes' keys
+    of pixel noise and lures.
+
+    ``decoy_values`` is the number of values a decoy draws from (cue values, or a field's other cells);
+    a track's decoy is −1 at the steps without one. Tracks have ``horizon + 1`` rows.
+    """
+
+    def __init__(self, n: int, bits: int, horizon: int, pixel_noise: bool = False, lures: bool = False,
+                 decoy_probability: float = 0.0, decoy_values: int = 0) -> None:
+        self.bits, self.horizon, self.steps = bits, horizon, horizon + 1
+        self.decoy_probability = decoy_probability if decoy_values > 0 else 0.0
+        self.decoy_values = decoy_values
+        self.track_row = np.arange(n, dtype=np.int64) * self.steps     # env i's step t: row track_row[i] + t
+        self.bit_track = np.zeros((n * self.steps if bits else 0, bits), dtype=bool)
+        self.decoy_track = np.full(n * self.steps if self.decoy_probability else 0, -1, dtype=np.int16)
+        self.pixel_keys = np.zeros(n if pixel_noise else 0, dtype=np.uint64)
+        self.distractor_keys = np.zeros(n if lures else 0, dtype=np.uint64)     # lures: drawn per step
+        self._pixel_noise, self._lures = pixel_noise, lures
+        self._purposes = tuple(purpose for purpose, used in (("pixel_noise", pixel_noise), ("distractor", lures or
+                                                             self.decoy_probability > 0)) if used)
+
+    def draws(self, keys: np.ndarray, flip_probability: float | np.ndarray) -> dict[str, np.ndarray]:
+        """What the episodes whose keys are ``keys`` [n] draw at their start (one row per key): their noise
+        bits and decoys at every step, and the keys of their pixel noise and lures. ``flip_probability``
+        is the noise bits' (one, or one per episode)."""
+        drawn: dict[str, np.ndarray] = {}
+        if self.bits:
+            drawn["noise_bits"] = noise_track(keys, self.bits, flip_probability, self.horizon)
+        if self._purposes:
+            sub = dict(zip(self._purposes, subkeys_of(keys, self._purposes).T))
+            if self.decoy_probability:
+                drawn["decoys"] = decoy_tracks(sub["distractor"], self.steps, self.decoy_probability,
+                                               self.decoy_values).astype(np.int16)
+            if self._pixel_noise:
+                drawn["pixel_noise"] = sub["pixel_noise"]
+            if self._lures:
+                drawn["distractor"] = sub["distractor"]
+        return drawn
+
+    def begin_drawn(self, rows: np.ndarray, drawn: dict[str, np.ndarray]) -> None:
+        """New episodes in ``rows`` from their :meth:`draws`."""
+        n = self.track_row.size
+        if self.bits:
+            self.bit_track.reshape(n, self.steps, self.bits)[rows] = drawn["noise_bits"]
+        if self.decoy_probability:
+            self.decoy_track.reshape(n, self.steps)[rows] = drawn["decoys"]
+        if self._pixel_noise:
+            self.pixel_keys[rows] = drawn["pixel_noise"]
+        if self._lures:
+            self.distractor_keys[rows] = drawn["distractor"]
+
+    def bits_at(self, step: np.ndarray) -> np.ndarray:
+        """bool[N, bits]: the noise bits every environment shows at its ``step`` [N] (at most the horizon)."""
+        return self.bit_track.take(self.track_row + step, axis=0)
+
+    def decoys_at(self, step: np.ndarray) -> np.ndarray:
+        """int16[N]: every environment's decoy at its ``step`` [N] (−1: none)."""
+        return self.decoy_track.take(self.track_row + step)
+
+    def arrays(self) -> list[np.ndarray]:
+        """The arrays held per environment (for memory counts)."""
+        return [self.bit_track, self.decoy_track, self.pixel_keys, self.distractor_keys]
