@@ -26,6 +26,11 @@ MODALITIES = {
     "grid": {"vector": None, "grid": {"size": 5}},
     "decoys": {"vector": {"position": "one_hot"}, "pixels": {"height": 24, "width": 24},
                "distractors": {"decoy_probability": 0.3}},
+    "window-decoys": {"vector": None, "pixels": {"height": 24, "width": 24, "view": "window", "window": 3},
+                      "distractors": {"decoy_probability": 0.4}},
+    "grid-decoys": {"vector": None, "grid": {"size": 3}, "pixels": {"height": 30, "width": 30, "view": "window",
+                                                                    "window": 3},
+                    "distractors": {"decoy_probability": 0.4}},
 }
 
 

@@ -116,10 +116,12 @@ def test_draws_made_one_episode_at_a_time_equal_draws_made_ahead(monkeypatch):
     of the stream's next episodes), they still give what the batch, which draws its environments' next
     episodes in windows, gives (gymnasium's SyncVectorEnv of our single envs is the reference; the test
     above covers blocks of episodes, the one below windows of two)."""
-    import taskgen.envs.tables as tables
-    monkeypatch.setattr(tables, "BLOCK", 1)
+    import taskgen.envs.noise as noise
+    monkeypatch.setattr(noise, "BLOCK", 1)
     _compare("seed-cache", variants=[3] * 4, reset_seed=5, steps=600,
              observation__distractors={"decoy_probability": 0.3, "lure_probability": 0.4})
+    _compare("marsh-stones", variants=[2] * 4, reset_seed=5, steps=600,
+             observation__distractors={"decoy_probability": 0.3})
 
 
 @pytest.mark.parametrize("spec_name, mode", [("seed-cache", AutoresetMode.NEXT_STEP),

@@ -9,10 +9,16 @@ are drawn per step from their keys, where a track would be as large as the pictu
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+from typing import Callable
+
 import numpy as np
 
 from .distractors import decoy_tracks
-from .streams import noise_track, subkeys_of
+from .streams import episode_keys, noise_track, subkeys_of
+
+BLOCK = 64                # episodes of one stream whose draws a single env makes at once
+BLOCK_BYTES = 1 << 22     # at most about this many bytes of them
 
 
 class EpisodeNoise:
@@ -78,3 +84,50 @@ class EpisodeNoise:
     def arrays(self) -> list[np.ndarray]:
         """The arrays held per environment (for memory counts)."""
         return [self.bit_track, self.decoy_track, self.pixel_keys, self.distractor_keys]
+
+
+@dataclass(frozen=True, eq=False)
+class _Block:
+    """:meth:`EpisodeNoise.draws` of consecutive episodes ``first …`` of one stream (of one episode alone
+    when ``stream`` is None), one row per episode."""
+
+    stream: int | None
+    first: int
+    keys: list[int]
+    drawn: dict[str, np.ndarray]
+
+
+class EpisodeBlocks:
+    """A single env's episode draws made for blocks of its stream's next episodes: one numpy call per
+    kind of draw for a block, where one per episode would cost more than the episode's steps.
+
+    A block that follows the last one on the same stream is twice its size, up to BLOCK (and
+    BLOCK_BYTES), so an env reseeded at every reset draws one episode at a time."""
+
+    def __init__(self, noise: EpisodeNoise, flip: Callable[[np.ndarray], float | np.ndarray]) -> None:
+        self.noise, self.flip = noise, flip   # flip(keys): the noise bits' flip probability of each episode
+        self._block: _Block | None = None
+        per_episode = noise.steps * (noise.bits + (2 if noise.decoy_probability else 0)) + 16
+        self._most = max(1, min(BLOCK, BLOCK_BYTES // per_episode))
+
+    def draws(self, key: int, origin: tuple[int, int] | None) -> dict[str, np.ndarray]:
+        """The draws of the episode whose key is ``key`` (no batch axis): from the current block when it
+        holds it, else from a new one from this episode on (of this episode alone without ``origin``,
+        the episode's (stream, number))."""
+        block = self._block
+        size = 1
+        if origin is not None and block is not None and block.stream == origin[0]:
+            row = origin[1] - block.first
+            if 0 <= row < len(block.keys) and block.keys[row] == key:
+                return {name: value[row] for name, value in block.drawn.items()}
+            if row == len(block.keys):
+                size = 2 * len(block.keys)
+        size = min(size, self._most, BLOCK)
+        keys = np.array([key], dtype=np.uint64) if origin is None else \
+            episode_keys(np.full(size, origin[0], dtype=np.uint64), np.arange(origin[1], origin[1] + size))
+        if int(keys[0]) != key:      # not the stream's episode: this episode alone
+            keys = np.array([key], dtype=np.uint64)
+        drawn = self.noise.draws(keys, self.flip(keys))
+        self._block = _Block(origin[0] if origin is not None else None, origin[1] if origin is not None else 0,
+                             keys.tolist(), drawn)
+        return {name: value[0] for name, value in drawn.items()}

@@ -21,7 +21,7 @@ from ..render import MarkOverlay, PathPictures
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import with_noise_columns
 from .core import ROW, Core
-from .noise import EpisodeNoise
+from .noise import EpisodeBlocks, EpisodeNoise
 from .streams import add_pixel_noise, draw, subkey, subkeys, uniform
 
 NOT_POOLED = ("a field's variants differ in observation size and its paths are drawn per episode, so a batch "
@@ -65,6 +65,9 @@ class PathCore(Core):
         # a single env: its state and step as Python ints, and what its step reads, looked up once
         self._vector_only = self.vector is not None and observations.names == ("vector",)
         self._decoys: list[int] = []    # a single env's decoy mark at each step (−1: none), as shown_marks reads it
+        self._blocks = EpisodeBlocks(self.noise, lambda keys: self.flip)   # a single env's draws, by blocks
+        self._drawn_one: dict[str, np.ndarray] | None = None    # this episode's, until _sync_one needs them
+        self._pixel_key = np.zeros(1, dtype=np.uint64)        # this episode's pixel noise key (single env)
         self._s, self._t, self._start, self._variant_id = 0, 0, 0, model.variant_id
         self._rows = self.vector.table if self.vector is not None else np.zeros((self.rule.num_cells, 0))
         self._table_bits = with_noise_columns(self._rows, self.bits)
@@ -76,6 +79,8 @@ class PathCore(Core):
         self._cells = self.rule.state_cell
         self._cell_list: list[int] = self._cells.tolist()
         self._until_of: dict[int, int] = {}      # a single env: cell → the step its mark shows until (excluded)
+        self._shown: frozenset[int] = frozenset()   # the cells of until_of whose marks show, until step _expiry
+        self._expiry = MARK_FOREVER
         # a single env whose one modality gets no noise returns its kept noise-free picture, copied
         self._plain = observations.names[0] if observations.single and not self.bits and \
             observations.pixel_noise is None else None
@@ -195,9 +200,12 @@ class PathCore(Core):
 
     def _sync_one(self) -> None:
         """A single env keeps its state, step and missteps as Python ints while it steps; copy them
-        into the arrays the batched methods (pictures, shown_marks) read."""
+        into the arrays the batched methods (pictures, shown_marks) read, with its episode's noise."""
         if self._kind_list:
             self.state[0], self.step_count[0], self.missteps[0] = self._s, self._t, self._missteps
+        if self._drawn_one is not None:
+            self.noise.begin_drawn(ROW, {name: value[None] for name, value in self._drawn_one.items()})
+            self._drawn_one = None
 
     def picture(self, i: int) -> np.ndarray:
         """What environment i's agent could see, drawn larger: the agent and its marks, no path."""
@@ -230,14 +238,16 @@ class PathCore(Core):
         kind, self._kind_list, start = rule.draw_one([draw(path, 0, j) for j in range(rule.draws)])
         self.kind[0], self.start[0], self.state[0] = kind, start, start
         self.step_count[0] = self.until[0] = self.missteps[0] = self._missteps = 0
-        noise = self.noise
-        noise.begin_drawn(ROW, noise.draws(key, self.flip))     # the episode's noise bits and decoys, every step
-        self._until_of = {}
-        if self.bits:
-            self._noise_track = noise.bit_track[:noise.steps].astype(np.float32)
+        if self.bits or self.noise.decoy_probability or self.observations.pixel_noise is not None:
+            self._drawn_one = drawn = self._blocks.draws(int(key[0]), origin)   # with the stream's next episodes'
+            if self.bits:
+                self._noise_track = drawn["noise_bits"].astype(np.float32)
+            if "decoys" in drawn:
+                self._decoys = drawn["decoys"].tolist()
+            if "pixel_noise" in drawn:
+                self._pixel_key = drawn["pixel_noise"][None]
+        self._until_of, self._shown, self._expiry = {}, frozenset(), MARK_FOREVER
         self._s, self._t, self._start = int(self.state[0]), 0, int(self.start[0])
-        if noise.decoy_probability:
-            self._decoys = noise.decoy_track[:noise.steps].tolist()
         return self._observe_scalar(), self._info_scalar()
 
     def step_one(self, action: int) -> tuple[Any, float, bool, bool, dict[str, Any]]:
@@ -251,6 +261,7 @@ class PathCore(Core):
             if self._marks:
                 self._until_of[aim] = until = min(step + rule.mark_steps, MARK_FOREVER)   # rule.mark_until
                 self.until[0, aim] = until
+                self._shown, self._expiry = self._shown | {aim}, min(self._expiry, until)
         truncated = not terminated and step >= self._horizon
         if truncated:
             reward += rule.timeout_reward
@@ -272,30 +283,33 @@ class PathCore(Core):
         if self._vector_only:
             return self._vector_one(self._s, self._t)
         step, cell = self._t, self._cell_list[self._s]
-        until_of = self._until_of
-        shown = [c for c, until in until_of.items() if until > step]     # as shown_marks, in ints
-        if len(shown) < len(until_of):       # a mark that has gone never shows again this episode
-            self._until_of = {c: until_of[c] for c in shown}
-        decoy = self._decoy_one(cell, step)
-        if decoy >= 0:
-            shown.append(decoy)
-        key = (cell, frozenset(shown))
+        if step >= self._expiry:     # a mark has gone (as shown_marks: shown while until > step), for good
+            self._until_of = {c: until for c, until in self._until_of.items() if until > step}
+            self._shown = frozenset(self._until_of)
+            self._expiry = min(self._until_of.values(), default=MARK_FOREVER)
+        shown = self._shown
+        decoy = self._decoy_one(cell, step) if self._decoys else -1   # laid over the kept picture below
+        key = (cell, shown)
         seen = self._seen.get(key)
         if seen is None:
             marked = np.zeros((1, self.rule.num_cells), dtype=bool)
-            marked[0, shown] = True
+            marked[0, list(shown)] = True
             seen = self._noise_free(cell, marked)
             if len(self._seen) >= self._seen_limit:
                 self._seen.clear()
             self._seen[key] = seen
-        if self._plain is not None:
+        if self._plain is not None and decoy < 0:
             return seen[self._plain].copy()
         parts = {name: part.copy() for name, part in seen.items()}
+        if decoy >= 0:
+            self.overlay.apply_one(parts, cell, decoy)
+            if self._plain is not None:
+                return parts[self._plain]
         if self.bits:
             parts["vector"][-self.bits:] = self._noise_track[min(self._t, self._horizon)]
         if "pixels" in parts and self.observations.pixel_noise is not None:
             kind, amplitude = self.observations.pixel_noise
-            parts["pixels"] = add_pixel_noise(parts["pixels"][None], self.noise.pixel_keys[:1], np.array([self._t]),
+            parts["pixels"] = add_pixel_noise(parts["pixels"][None], self._pixel_key, np.array([self._t]),
                                               kind, amplitude)[0]
         return assemble(self.observations, parts)
 

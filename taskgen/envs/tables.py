@@ -21,26 +21,12 @@ from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table, scatter_index, with_noise_columns
 from .core import Core
-from .distractors import apply_distractors, decoy_tracks, distract_one
-from .noise import EpisodeNoise
-from .streams import (add_pixel_noise, categorical_bits, categorical_one, episode_keys, noise_track, subkey, subkeys,
-                      uniform, uniform_bits, uniform_one, unit_thresholds)
+from .distractors import apply_distractors, distract_one
+from .noise import EpisodeBlocks, EpisodeNoise
+from .streams import (add_pixel_noise, categorical_bits, categorical_one, subkey, subkeys, uniform, uniform_bits,
+                      uniform_one, unit_thresholds)
 
-BLOCK = 64                # episodes of one stream whose per-step draws a single env makes at once
-BLOCK_BYTES = 1 << 22     # at most this many bytes of them
 STATE_ROWS_BYTES = 1 << 26   # a batch keeps each state's vector (not only each key's) up to this many bytes
-
-
-@dataclass(frozen=True, eq=False)
-class _Block:
-    """A single env's per-step draws for consecutive episodes ``first …`` of one stream (made in one
-    numpy call per kind of draw, where one call per episode would cost more than the episodes' steps)."""
-
-    stream: int | None
-    first: int
-    keys: list[int]
-    noise: np.ndarray | None              # float32[E, H+1, bits]: each episode's noise bits at each step
-    decoys: list[list[int]] | None        # each episode's decoy value at each step (−1: none)
 
 
 @dataclass(frozen=True, eq=False)
@@ -136,7 +122,7 @@ class TableCore(Core):
         self._cue_start, self._cue_stop = cue_bits.start, cue_bits.stop
         self._lured = self.observations.lure_probability > 0 and (self._grid is not None or self._pixels is not None)
         self._one_hot = np.eye(max(cue_bits.stop - cue_bits.start, 1), dtype=np.float32)   # a decoy's cue bits
-        self._block: _Block | None = None
+        self._blocks = EpisodeBlocks(self.noise, self._episode_flips)   # a single env's draws, by blocks
         self._decoy_track: list[int] = []
 
     @property
@@ -381,11 +367,11 @@ class TableCore(Core):
         self._s, self._t, self._h = state, 0, int(per.horizon[j])
         self._variant, self._variant_id, self._timeout_one = j, str(per.variant_ids[j]), float(per.timeout[j])
         if self._bits or self.observations.decoy_probability:   # drawn with the stream's next episodes'
-            row, block = self._episode_block(episode, origin)
-            if block.noise is not None:
-                self._noise_track = block.noise[row]
-            if block.decoys is not None:
-                self._decoy_track = block.decoys[row]
+            drawn = self._blocks.draws(episode, origin)
+            if self._bits:
+                self._noise_track = drawn["noise_bits"].astype(np.float32)
+            if "decoys" in drawn:
+                self._decoy_track = drawn["decoys"].tolist()
         if self.observations.pixel_noise is not None:
             self._pixel_key = np.array([subkey(episode, "pixel_noise")], dtype=np.uint64)
         if self._distracted:
@@ -417,38 +403,14 @@ class TableCore(Core):
                 "analysis_only": {"cue": self._hidden_list[state], "state": self._local_list[state]}}
         return obs, reward, terminated, truncated, {"variant_id": self._variant_id, "step": t}
 
-    def _episode_block(self, key: int, origin: tuple[int, int] | None) -> tuple[int, _Block]:
-        """The block holding the episode whose key is ``key`` and its row in it: the current block when
-        it holds it, else a new one from this episode on (of this episode alone without ``origin``). A
-        block that follows the last one on the same stream is twice its size, up to BLOCK (and
-        BLOCK_BYTES), so an env reseeded at every reset draws one episode at a time."""
-        block = self._block
-        size = 1
-        if origin is not None and block is not None and block.stream == origin[0]:
-            row = origin[1] - block.first
-            if 0 <= row < len(block.keys) and block.keys[row] == key:
-                return row, block
-            if row == len(block.keys):
-                size = 2 * len(block.keys)
+    def _episode_flips(self, keys: np.ndarray) -> np.ndarray | float:
+        """The noise bits' flip probability of the episodes whose keys are ``keys`` (a pool's episodes
+        draw their variants from their keys, as :meth:`start_one` does)."""
         per = self._per
-        horizon = int(per.horizon.max())
-        size = max(1, min(size, BLOCK, BLOCK_BYTES // ((horizon + 1) * (4 * self._bits + 8))))
-        keys = np.array([key], dtype=np.uint64) if origin is None else \
-            episode_keys(np.full(size, origin[0], dtype=np.uint64), np.arange(origin[1], origin[1] + size))
-        if int(keys[0]) != key:      # not the stream's episode: this episode alone
-            keys = np.array([key], dtype=np.uint64)
-        if self._draw:               # each episode's variant (as start_one draws it) sets its flip probability
+        if self._draw:
             count = len(self._models)
-            flip = per.flip[np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)]
-        else:
-            flip = np.full(keys.size, per.flip[int(self.env_variant[0])])
-        noise = noise_track(keys, self._bits, flip, horizon).astype(np.float32) if self._bits else None
-        p = self.observations.decoy_probability
-        decoys = decoy_tracks(subkeys(keys, "distractor"), horizon + 1, p, self.observations.cue_values).tolist() \
-            if p else None
-        self._block = _Block(origin[0] if origin is not None else None, origin[1] if origin is not None else 0,
-                             keys.tolist(), noise, decoys)
-        return 0, self._block
+            return per.flip[np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)]
+        return float(per.flip[int(self.env_variant[0])])
 
     def _observe_scalar(self) -> Any:
         """The single env's observation, every modality (the vector-only case is inlined in step_one)."""

@@ -8,6 +8,7 @@ the gathered rows by :class:`MarkOverlay`, the same way in the single and the ba
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -109,6 +110,51 @@ class MarkOverlay:
         paint = self.floor[agent_cell[env][:, None], pixels]
         where = env[:, None] * (h * w) + pixels
         frames.reshape(n * h * w, 3)[where[paint]] = np.asarray(self.colour, dtype=np.uint8)
+
+
+    def apply_one(self, parts: dict[str, np.ndarray], agent_cell: int, cell: int) -> None:
+        """Lay one more mark, on ``cell``, over one environment's observations ``parts`` (no batch axis;
+        in place), as :meth:`apply` draws it: a single env adds a step's decoy mark to its kept picture
+        of the other marks this way (marks paint floor only, so the order they are laid in is
+        irrelevant). Kept to Python numbers and one scatter: it runs on a single env's steps."""
+        if self.block is not None and "vector" in parts:
+            parts["vector"][self.block.start + cell] = 1.0
+        frames = parts.get("pixels")
+        if self.paint is None or frames is None or not frames.flags.c_contiguous:
+            batched = {name: part[None] for name, part in parts.items() if name in ("grid", "pixels")}
+            if batched:
+                marked = np.zeros((1, self.cells.shape[0]), dtype=bool)
+                marked[0, cell] = True
+                self.apply(batched, np.array([agent_cell]), marked)
+            return
+        (r, c), (r0, c0) = self._cell_list[cell], self._cell_list[agent_cell]
+        if self.grid and "grid" in parts:
+            half = self.grid // 2
+            if abs(r - r0) <= half and abs(c - c0) <= half:
+                parts["grid"][r - r0 + half, c - c0 + half, MARK_CHANNEL] = 1
+        row, tile = 0, cell
+        if self.window:
+            half = self.window // 2
+            if abs(r - r0) > half or abs(c - c0) > half:
+                return
+            row, tile = agent_cell, (r - r0 + half) * self.window + c - c0 + half
+        spans = self._spans
+        first, count = spans[0][row][tile], spans[1][row][tile]
+        frames.reshape(-1, 3)[self.paint[0][first:first + count]] = self._colour
+
+    @cached_property
+    def _cell_list(self) -> list[tuple[int, int]]:
+        return [(int(r), int(c)) for r, c in self.cells]
+
+    @cached_property
+    def _spans(self) -> tuple[list[list[int]], list[list[int]]]:
+        """The paint table's (start, count) as lists, for :meth:`apply_one`."""
+        assert self.paint is not None
+        return self.paint[1].tolist(), self.paint[2].tolist()
+
+    @cached_property
+    def _colour(self) -> np.ndarray:
+        return np.asarray(self.colour, dtype=np.uint8)
 
 
 def ring(height: int, width: int) -> np.ndarray:
