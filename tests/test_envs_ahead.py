@@ -29,10 +29,11 @@ def _pool(tmp_path):
 ], ids=["cue-noise-distractors", "field", "variant-per-env", "pool"])
 @pytest.mark.parametrize("size", [1, 2, 5])
 def test_windows_give_the_draws_made_at_each_start(make, size, tmp_path, monkeypatch):
-    """Through restarts in any order, resets that keep or change streams and jumps of episode, each
-    episode starts from exactly the draws :meth:`Core.draws` makes from its key then (the direct
+    """Through restarts in any order, resets that keep or change streams and jumps of episode, and
+    refills drawn in pieces, each episode starts from exactly the draws :meth:`Core.draws` makes from its key then (the direct
     computation is the reference; common practice for a cache)."""
     monkeypatch.setattr(ahead, "AHEAD", size)
+    monkeypatch.setattr(ahead, "FILL_EPISODES", 4)     # refills drawn a few environments at a time
     env = make(tmp_path)
     core, n = env.core, env.num_envs
     nxt = NextEpisodes(core)

@@ -19,6 +19,7 @@ from .streams import episode_keys_of, stream_bases
 
 AHEAD = 64                  # episodes per environment drawn at once, at most
 AHEAD_BYTES = 1 << 25       # and at most about this many bytes of them for the whole batch
+FILL_EPISODES = 1024        # episodes drawn per call when windows are refilled (their temporaries fit in cache)
 
 
 class NextEpisodes:
@@ -82,12 +83,15 @@ class NextEpisodes:
         used = self.cursor - self.base_row
         due = ((used >= max(1, size // 2)) | ~self.ready.take(self.cursor)).nonzero()[0]
         following = self.first[due] + used[due]
-        keys = episode_keys_of(np.repeat(self.bases[due], size), (following[:, None] + self._slots).ravel())
-        drawn = self.core.draws(np.repeat(due, size), keys)
-        index = (self.base_row[due][:, None] + self._slots).ravel()
-        for name, value in drawn.items():
-            self.arrays[name][index] = value
-        self.ready[index] = True
+        step = max(1, FILL_EPISODES // size)     # environments per draw
+        for start in range(0, due.size, step):
+            rows, first = due[start:start + step], following[start:start + step]
+            keys = episode_keys_of(np.repeat(self.bases[rows], size), (first[:, None] + self._slots).ravel())
+            drawn = self.core.draws(np.repeat(rows, size), keys)
+            index = (self.base_row[rows][:, None] + self._slots).ravel()
+            for name, value in drawn.items():
+                self.arrays[name][index] = value
+            self.ready[index] = True
         self.first[due] = following
         self.cursor[due] = self.base_row[due]
 

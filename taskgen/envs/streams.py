@@ -255,18 +255,21 @@ def noise_init(keys: np.ndarray, bits: int) -> np.ndarray:
 def noise_track(keys: np.ndarray, bits: int, flip_probability: float | np.ndarray, horizon: int) -> np.ndarray:
     """bool[N, horizon+1, bits]: each episode's noise bits at every step (uniform at step 0, then
     ``flips`` at steps 1 … horizon), as applying each step's flips in turn gives them. The flip
-    probability may differ per episode (an array of N)."""
+    probability may differ per episode (an array of N). (A strided view: the bits of a step are laid
+    out in whole 8-byte words, so that the running XOR over steps is one pass over words.)"""
     keys = np.asarray(keys, dtype=np.uint64)
-    flip_keys = subkeys(keys, "noise_flip")
-    steps = np.arange(1, horizon + 1)
     # the same rounding as flip_threshold (half to even), for one probability or one per episode
     threshold = np.rint(np.asarray(flip_probability, dtype=np.float64) * 65536).astype(np.int64)
-    threshold = np.broadcast_to(threshold, keys.shape)[:, None]
-    flipped = flips(flip_keys[:, None], steps[None, :], bits, threshold)
-    track = np.empty((keys.shape[0], horizon + 1, bits), dtype=bool)
-    track[:, 0] = noise_init(keys, bits)
-    track[:, 1:] = track[:, :1] ^ np.logical_xor.accumulate(flipped, axis=1)
-    return track
+    if threshold.ndim == 0 or (threshold == threshold.flat[0]).all():
+        limit: np.ndarray | int = int(threshold.flat[0]) if threshold.size else 0
+    else:
+        limit = threshold[:, None]
+    track = np.zeros((keys.shape[0], horizon + 1, -(-bits // 8) * 8), dtype=bool)
+    track[:, 0, :bits] = noise_init(keys, bits)
+    track[:, 1:, :bits] = flips(subkeys(keys, "noise_flip")[:, None], np.arange(1, horizon + 1)[None, :], bits, limit)
+    words = track.view(np.uint64)       # eight bools a word: XOR works on each byte alone
+    np.bitwise_xor.accumulate(words, axis=1, out=words)
+    return track[:, :, :bits]
 
 
 def add_pixel_noise(frames: np.ndarray, noise_keys: np.ndarray, step: np.ndarray | int, kind: str,
