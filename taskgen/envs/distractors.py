@@ -50,9 +50,13 @@ def show_decoys(obs: ObservationSet, parts: dict[str, np.ndarray], rows: np.ndar
     """Show decoy cue ``value`` [n] in environments ``rows`` [n] of batched ``parts`` (in place): the
     vector's cue bits, the grid's cue channel at the agent, the lamp of pixel frames."""
     if "vector" in parts and obs.vector is not None and "cue" in obs.vector.blocks:
-        block = obs.vector.blocks["cue"]
-        parts["vector"][rows, block] = 0.0
-        parts["vector"][rows, block.start + value] = 1.0
+        # a decoy shows only where the real cue is not in view, where the cue bits are all 0: setting the
+        # decoy's bit is all there is to do (one scatter into the flat rows)
+        vector, start = parts["vector"], obs.vector.blocks["cue"].start
+        if vector.flags.c_contiguous:
+            vector.reshape(-1)[rows * vector.shape[1] + (value + start)] = 1.0
+        else:
+            vector[rows, start + value] = 1.0
     if "grid" in parts:
         half = parts["grid"].shape[1] // 2
         parts["grid"][rows, half, half, _CUE] = value + 1
