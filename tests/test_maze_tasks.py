@@ -14,7 +14,6 @@ import taskgen
 from taskgen import LayoutError, compile_variant, load_spec_text, make_variant
 from taskgen import analyse, observation_set
 from taskgen.analysis import shortest_solutions
-from taskgen.tools.check import observation_tables
 
 SOUND = {"correct": 1.0, "wrong": -1.0, "step": -0.01, "timeout": -1.0}
 

@@ -41,9 +41,10 @@ class MarkOverlay:
                                       # cell (marks paint floor only, never walls or the agent)
     grid: int = 0                # cells across the grid view (0: no grid view)
     colour: tuple[int, int, int] = MARK   # of a mark in pixels
-    paint: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
-    # the floor pixels of every mark ring, made once (see paint_table): (flat pixel indices, start[K, T],
-    # count[K, T]) by (agent cell, window tile) in the window view, by tile (K = 1) in the full view
+    paint: tuple[np.ndarray, np.ndarray] | None = None
+    # the floor pixels of every mark ring, made once (see paint_table): (flat pixel indices int32[K, T, P'],
+    # padded by repeating the first; their count[K, T]) by (agent cell, window tile) in the window view, by
+    # tile (K = 1) in the full view
 
     def seen(self, agent_cell: int, marked: frozenset[int]) -> tuple[frozenset[Any], ...]:
         """What the agent's noise-free observation shows of the marks on cells ``marked`` when it stands
@@ -75,7 +76,7 @@ class MarkOverlay:
             parts["vector"][:, self.block] = marked
         if (self.tiles is None or "pixels" not in parts) and not (self.grid and "grid" in parts):
             return
-        env, cell = np.nonzero(marked)
+        env, cell = np.divmod(marked.reshape(-1).nonzero()[0], marked.shape[1])   # (2-D nonzero is far slower)
         if not env.size:
             return
         if self.grid and "grid" in parts:
@@ -95,13 +96,13 @@ class MarkOverlay:
         frames = parts["pixels"]
         n, h, w, _ = frames.shape
         if self.paint is not None and frames.flags.c_contiguous:
-            # the precomputed floor pixels of each (row, tile) ring, gathered as one ragged run
-            index, start, count = self.paint
-            row = agent_cell[env] if self.window else np.zeros_like(env)
-            first, size = start[row, tile], count[row, tile]
-            ends = np.cumsum(size)
-            at = np.arange(int(ends[-1]) if ends.size else 0) + np.repeat(first - (ends - size), size)
-            where = index[at] + np.repeat(env * (h * w), size)
+            # the precomputed floor pixels of each (row, tile) ring, one padded row per pair
+            table, count = self.paint
+            at = agent_cell.take(env) * table.shape[1] + tile if self.window else tile   # the (row, tile)
+            if self._empty_rings:       # a ring with no floor pixel paints nothing: leave its pairs out
+                keep = (count.reshape(-1).take(at) > 0).nonzero()[0]
+                env, at = env.take(keep), at.take(keep)
+            where = table.reshape(-1, table.shape[2]).take(at, axis=0) + (env * (h * w))[:, None]
             pixels = frames.reshape(-1).view("V3")          # a view: one 3-byte item per pixel
             pixels[where] = np.asarray([self.colour], dtype=np.uint8).view("V3")[0]   # one scatter
             return
@@ -138,19 +139,22 @@ class MarkOverlay:
             if abs(r - r0) > half or abs(c - c0) > half:
                 return
             row, tile = agent_cell, (r - r0 + half) * self.window + c - c0 + half
-        spans = self._spans
-        first, count = spans[0][row][tile], spans[1][row][tile]
-        frames.reshape(-1, 3)[self.paint[0][first:first + count]] = self._colour
+        frames.reshape(-1, 3)[self.paint[0][row, tile, :self._counts[row][tile]]] = self._colour
 
     @cached_property
     def _cell_list(self) -> list[tuple[int, int]]:
         return [(int(r), int(c)) for r, c in self.cells]
 
     @cached_property
-    def _spans(self) -> tuple[list[list[int]], list[list[int]]]:
-        """The paint table's (start, count) as lists, for :meth:`apply_one`."""
+    def _counts(self) -> list[list[int]]:
+        """The paint table's counts as lists, for :meth:`apply_one`."""
         assert self.paint is not None
-        return self.paint[1].tolist(), self.paint[2].tolist()
+        return self.paint[1].tolist()
+
+    @cached_property
+    def _empty_rings(self) -> bool:
+        """Whether some (row, tile) of the paint table has no floor pixel to paint."""
+        return self.paint is not None and bool((self.paint[1] == 0).any())
 
     @cached_property
     def _colour(self) -> np.ndarray:
@@ -186,8 +190,8 @@ def _tile_pixels(boxes: np.ndarray, width: int) -> np.ndarray:
 PAINT_ENTRIES = 4_000_000   # the largest paint table made; past it marks are painted from the tiles
 
 
-def paint_table(tiles: np.ndarray, floor: np.ndarray, window: int) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
-    """The floor pixels of every mark ring, so that painting marks is one ragged gather: by (agent cell,
+def paint_table(tiles: np.ndarray, floor: np.ndarray, window: int) -> tuple[np.ndarray, np.ndarray] | None:
+    """The floor pixels of every mark ring, so that painting marks is one gather and one scatter: by (agent cell,
     window position) in the window view, where what lies under a window tile depends on the agent's
     cell; by tile alone in the full view, where the floor of a tile changes only when the agent stands
     on it, which never happens to a marked cell (marks lie off the path, decoys never on the agent).
@@ -204,9 +208,12 @@ def paint_table(tiles: np.ndarray, floor: np.ndarray, window: int) -> tuple[np.n
     else:   # tile t: the floor of a frame whose agent stands elsewhere
         chosen = (floor[(np.arange(T) + 1) % C][np.arange(T)[:, None], tiles] & valid)[None]
     count = chosen.sum(axis=2)
-    start = (np.cumsum(count.ravel()) - count.ravel()).reshape(count.shape)
-    index = np.broadcast_to(tiles, chosen.shape)[chosen].astype(np.int64)
-    return index, start, count
+    # each (row, tile)'s floor pixels first (a stable sort keeps their order), padded to the longest by
+    # repeating the first: painting a pixel twice in the same colour paints it once
+    order = np.argsort(~chosen, axis=2, kind="stable")[:, :, :max(int(count.max()), 1)]
+    pixels = np.take_along_axis(np.broadcast_to(tiles, chosen.shape), order, axis=2)
+    pixels = np.where(np.arange(pixels.shape[2]) < count[:, :, None], pixels, pixels[:, :, :1])
+    return pixels.astype(np.int32), count
 
 
 def path_observation_set(model: TaskModel, spec: Observation) -> ObservationSet:
