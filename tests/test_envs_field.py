@@ -73,6 +73,26 @@ def test_batch_equals_sync_vector_env_of_single_envs(modality):
             assert np.array_equal(x[-1]["analysis_only"][key], y[-1]["analysis_only"][key]), (t, key)
 
 
+def test_decoy_marks_on_a_field_of_many_cells_equal_single_envs():
+    """On a field of 16 × 8 cells (a decoy mark drawn among the 127 other cells, numbers that fill a signed
+    byte, kept in one) the batch shows the same decoy marks as gymnasium's SyncVectorEnv of single envs
+    (the reference)."""
+    spec = _spec({"vector": {"position": "one_hot"}, "distractors": {"decoy_probability": 0.5}}, width=16, height=8,
+                 turns=2, start="random", mark={"steps": 3}, episode={"max_steps": 40})
+    ours = taskgen.make_vec(spec, 3)
+    theirs = gym.vector.SyncVectorEnv([lambda: taskgen.make(spec)] * 3)
+    x, y = ours.reset(seed=1)[0], theirs.reset(seed=1)[0]
+    rng = np.random.default_rng(2)
+    shown = 0
+    for t in range(400):
+        assert np.array_equal(x, y), t
+        marks = x[:, ours.observation_blocks["marks"]]
+        shown += int(marks[:, 120:].sum())        # marks on the last cells show too
+        a = rng.integers(4, size=3)
+        x, y = ours.step(a)[0], theirs.step(a)[0]
+    assert shown > 0
+
+
 def _paths(seed: int, episodes: int = 6) -> list[list[int]]:
     env = taskgen.make("marsh-stones", analysis_info=True)
     out = []

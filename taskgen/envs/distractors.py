@@ -101,7 +101,7 @@ def apply_distractors(obs: ObservationSet, parts: dict[str, np.ndarray], decoys:
     if decoys is not None:
         rows = ((decoys >= 0) > cue_shown).nonzero()[0]       # a decoy, and the real cue not in view
         if rows.size:
-            show_decoys(obs, parts, rows, decoys.take(rows))
+            show_decoys(obs, parts, rows, decoys.take(rows).astype(np.int64))   # (tracks keep a narrow type)
     if obs.lure_probability > 0 and ("grid" in parts or "pixels" in parts):
         rows = np.flatnonzero(below(keys, step, 2, obs.lure_probability))
         if rows.size:

@@ -34,9 +34,10 @@ class EpisodeNoise:
         self.bits, self.horizon, self.steps = bits, horizon, horizon + 1
         self.decoy_probability = decoy_probability if decoy_values > 0 else 0.0
         self.decoy_values = decoy_values
+        self._decoy_type = np.min_scalar_type(-max(decoy_values, 1))    # holds −1 … decoy_values − 1
         self.track_row = np.arange(n, dtype=np.int64) * self.steps     # env i's step t: row track_row[i] + t
         self.bit_track = np.zeros((n * self.steps if bits else 0, bits), dtype=bool)
-        self.decoy_track = np.full(n * self.steps if self.decoy_probability else 0, -1, dtype=np.int16)
+        self.decoy_track = np.full(n * self.steps if self.decoy_probability else 0, -1, dtype=self._decoy_type)
         self.pixel_keys = np.zeros(n if pixel_noise else 0, dtype=np.uint64)
         self.distractor_keys = np.zeros(n if lures else 0, dtype=np.uint64)     # lures: drawn per step
         self._pixel_noise, self._lures = pixel_noise, lures
@@ -54,7 +55,7 @@ class EpisodeNoise:
             sub = dict(zip(self._purposes, subkeys_of(keys, self._purposes).T))
             if self.decoy_probability:
                 drawn["decoys"] = decoy_tracks(sub["distractor"], self.steps, self.decoy_probability,
-                                               self.decoy_values).astype(np.int16)
+                                               self.decoy_values).astype(self._decoy_type)
             if self._pixel_noise:
                 drawn["pixel_noise"] = sub["pixel_noise"]
             if self._lures:
@@ -78,7 +79,7 @@ class EpisodeNoise:
         return self.bit_track.take(self.track_row + step, axis=0)
 
     def decoys_at(self, step: np.ndarray) -> np.ndarray:
-        """int16[N]: every environment's decoy at its ``step`` [N] (−1: none)."""
+        """int[N]: every environment's decoy at its ``step`` [N] (−1: none)."""
         return self.decoy_track.take(self.track_row + step)
 
     def arrays(self) -> list[np.ndarray]:

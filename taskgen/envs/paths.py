@@ -120,7 +120,7 @@ class PathCore(Core):
             other = self.noise.decoys_at(self.step_count)
             show = (other >= 0).nonzero()[0]
             if show.size:
-                other = other.take(show)
+                other = other.take(show).astype(np.int64)     # (tracks keep a narrow type)
                 cell = self.rule.state_cell.take(self.state.take(show))
                 marked[show, other + (other >= cell)] = True        # every cell but the agent's
         return marked

@@ -101,9 +101,11 @@ class TableCore(Core):
         self.step_count = np.zeros(N, dtype=np.int64)
         self._distracted = self.observations.decoy_probability > 0 or self.observations.lure_probability > 0
         obs = self.observations
+        # lures flash in the grid view and top-down pixels only (never in a vector or a first-person view)
+        self._lured = obs.lure_probability > 0 and (self._grid is not None or self._pixels is not None)
         self.noise = EpisodeNoise(N, self._bits, int(self._per.horizon.max()), obs.pixel_noise is not None,
-                                  lures=obs.lure_probability > 0 and (self._grid is not None or self._pixels is not None),
-                                  decoy_probability=obs.decoy_probability, decoy_values=obs.cue_values)
+                                  lures=self._lured, decoy_probability=obs.decoy_probability,
+                                  decoy_values=obs.cue_values)
         self._renderers: dict[int, TopDownRenderer] = {}
         # a single env's episode: its state and step as Python ints, the tables as lists (made once)
         self._s, self._t, self._h = -1, 0, 0
@@ -120,7 +122,6 @@ class TableCore(Core):
         cue_bits = self.blocks.get("cue", slice(0, 0))          # a decoy shows in them (single env, vector only)
         self._decoy = self.observations.decoy_probability if cue_bits.stop > cue_bits.start else 0.0
         self._cue_start, self._cue_stop = cue_bits.start, cue_bits.stop
-        self._lured = self.observations.lure_probability > 0 and (self._grid is not None or self._pixels is not None)
         self._one_hot = np.eye(max(cue_bits.stop - cue_bits.start, 1), dtype=np.float32)   # a decoy's cue bits
         self._blocks = EpisodeBlocks(self.noise, self._episode_flips)   # a single env's draws, by blocks
         self._decoy_track: list[int] = []
