@@ -98,12 +98,14 @@ def test_batch_equals_sync_vector_env_of_single_envs(spec_name):
     ("seed-cache", {"observation__grid": {"size": 3}, "observation__pixels": {"height": 24, "width": 24},
                     "observation__distractors": {"decoy_probability": 0.3, "lure_probability": 0.4}}),
     ("lantern-hall", {"observation__distractors": {"decoy_probability": 0.3}}),
+    ("seed-cache", {"observation__grid": {"size": 3}, "observation__pixels": {"height": 24, "width": 24},
+                    "observation__distractors": {"decoy_probability": 0.4}}),
     ("orchard-hives", {"agent__actions": "turns", "observation__first_person": {"height": 16, "width": 20},
                        "observation__distractors": {"decoy_probability": 0.5}}),
     ("marsh-stones", {"observation__pixels": {"height": 24, "width": 24},
                       "observation__distractors": {"decoy_probability": 0.3}}),
     ("marsh-stones", {"observation__distractors": {"decoy_probability": 0.3}}),
-], ids=["cue-all-distractors", "cue-vector-decoys", "first-person-decoys", "field-pixel-decoys", "field-vector-decoys"])
+], ids=["cue-all-distractors", "cue-vector-decoys", "cue-pictures-decoys", "first-person-decoys", "field-pixel-decoys", "field-vector-decoys"])
 def test_batch_with_distractors_equals_single_envs(spec_name, overrides):
     """Decoys and lures are drawn per environment and step from the episode's stream: the batch
     (column draws) and the single envs (a draw block, a scalar decoy path) show the same ones

@@ -20,8 +20,8 @@ from ..model import TaskModel
 from ..render import TopDownRenderer, truth_picture
 from ..render.observations import ObservationSet, assemble
 from ..render.vector import common_blocks, padded_table, scatter_index, with_noise_columns
-from .core import Core
-from .distractors import apply_distractors, distract_one
+from .core import ROW, Core
+from .distractors import apply_distractors, distract_one, show_decoys
 from .noise import EpisodeBlocks, EpisodeNoise
 from .streams import (add_pixel_noise, categorical_bits, categorical_one, subkey, subkeys, uniform, uniform_bits,
                       uniform_one, unit_thresholds)
@@ -125,6 +125,7 @@ class TableCore(Core):
         self._one_hot = np.eye(max(cue_bits.stop - cue_bits.start, 1), dtype=np.float32)   # a decoy's cue bits
         self._blocks = EpisodeBlocks(self.noise, self._episode_flips)   # a single env's draws, by blocks
         self._decoy_track: list[int] = []
+        self._decoy_pictures: dict[tuple[int, int], dict[str, np.ndarray]] = {}   # see _show_kept_decoy
 
     @property
     def models(self) -> list[TaskModel]:
@@ -432,12 +433,34 @@ class TableCore(Core):
         if self._first_person is not None:
             parts["first_person"] = self._first_person[key].copy()
         decoy = self._decoy_track[t] if self._decoy_track else -1
-        if self._lured or (decoy >= 0 and not self._shown_list[state]):   # something may show on this step
+        if decoy >= 0 and self._shown_list[state]:     # a decoy never shows with the real cue
+            decoy = -1
+        if decoy >= 0 and not self._lured and self.observations.pixel_noise is None:
+            self._show_kept_decoy(parts, key, decoy)
+        elif self._lured or decoy >= 0:     # something may show on this step
             j = self._variant
             distract_one(self.observations, {k: v[None] for k, v in parts.items()}, self._distractor_key, t,
                          bool(self._key_cue[key] >= 0), self._per.tile_count[j:j + 1], self._per.tile_offset[j:j + 1],
                          self._tiles, decoy)
         return assemble(self.observations, parts)
+
+    def _show_kept_decoy(self, parts: dict[str, np.ndarray], key: int, decoy: int) -> None:
+        """Show decoy value ``decoy`` in a single env's noise-free ``parts`` (in place), the pictures from
+        those kept by (key, value): an agent sees the same few again and again, and lighting a lamp
+        costs more than copying a kept picture."""
+        kept = self._decoy_pictures.get((key, decoy))
+        if kept is None:
+            lit = {name: part.copy() for name, part in parts.items() if name != "vector"}
+            if lit:
+                show_decoys(self.observations, {name: part[None] for name, part in lit.items()}, ROW,
+                            np.array([decoy]))
+            if len(self._decoy_pictures) >= 4096:
+                self._decoy_pictures.clear()
+            self._decoy_pictures[(key, decoy)] = kept = lit
+        for name, picture in kept.items():
+            parts[name] = picture.copy()
+        if "vector" in parts and self._cue_stop > self._cue_start:
+            parts["vector"][self._cue_start + decoy] = 1.0     # the cue bits are all 0 where a decoy shows
 
     def _info_scalar(self) -> dict[str, Any]:
         state = self._s
