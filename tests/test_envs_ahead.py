@@ -90,7 +90,7 @@ def test_refills_come_for_many_environments_at_once(monkeypatch):
 
 def test_window_size_follows_the_memory_cap(monkeypatch):
     """The windows hold at most AHEAD episodes per environment and about AHEAD_BYTES in all, and at
-    least one episode however large the batch."""
+    least one episode however large the batch (common practice: a bounded cache)."""
     small = taskgen.make_vec("lantern-hall", 4)
     assert small._next.size == ahead.AHEAD
     monkeypatch.setattr(ahead, "AHEAD_BYTES", 1 << 16)

@@ -108,7 +108,8 @@ class EpisodeBlocks:
     def __init__(self, noise: EpisodeNoise, flip: Callable[[np.ndarray], float | np.ndarray]) -> None:
         self.noise, self.flip = noise, flip   # flip(keys): the noise bits' flip probability of each episode
         self._block: _Block | None = None
-        per_episode = noise.steps * (noise.bits + (2 if noise.decoy_probability else 0)) + 16
+        sample = noise.draws(np.zeros(1, dtype=np.uint64), 0.0)
+        per_episode = sum(value.nbytes for value in sample.values()) + 8     # and its key
         self._most = max(1, min(BLOCK, BLOCK_BYTES // per_episode))
 
     def draws(self, key: int, origin: tuple[int, int] | None) -> dict[str, np.ndarray]:

@@ -52,10 +52,9 @@ class PathCore(Core):
         self.start = np.zeros(n, dtype=np.int64)
         self.until = np.zeros((n, C), dtype=np.int64)
         self.missteps = np.zeros(n, dtype=np.int64)
-        self.decoy = observations.decoy_probability
         # a decoy mark is on one of the cells other than the agent's
         self.noise = EpisodeNoise(n, self.bits, self.rule.horizon, observations.pixel_noise is not None,
-                                  decoy_probability=self.decoy, decoy_values=C - 1)
+                                  decoy_probability=observations.decoy_probability, decoy_values=C - 1)
         self.rows = np.arange(n)
         self._ids = np.full(n, model.variant_id, dtype=object)
         self._ids.flags.writeable = False    # shared by every info dict: read-only
@@ -288,7 +287,7 @@ class PathCore(Core):
             self._shown = frozenset(self._until_of)
             self._expiry = min(self._until_of.values(), default=MARK_FOREVER)
         shown = self._shown
-        decoy = self._decoy_one(cell, step) if self._decoys else -1   # laid over the kept picture below
+        decoy = self._decoy_one(cell, step)      # laid over the kept picture below
         key = (cell, shown)
         seen = self._seen.get(key)
         if seen is None:

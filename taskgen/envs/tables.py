@@ -222,8 +222,7 @@ class TableCore(Core):
         """Each episode's variant (pools), start state (which holds the cue) and noise."""
         bits = uniform_bits(subkeys(keys, "cue"))
         if self._draw:    # a new variant from the pool, and a start state of it
-            count, per = len(self._models), self._per
-            chosen = np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
+            per, chosen = self._per, self._pool_draws(keys)
             drawn = self.noise.draws(keys, per.flip[chosen])
             drawn["variant"] = chosen
             drawn["state"] = per.starts[chosen, categorical_bits(bits, per.thresholds[chosen])]
@@ -408,11 +407,14 @@ class TableCore(Core):
     def _episode_flips(self, keys: np.ndarray) -> np.ndarray | float:
         """The noise bits' flip probability of the episodes whose keys are ``keys`` (a pool's episodes
         draw their variants from their keys, as :meth:`start_one` does)."""
-        per = self._per
         if self._draw:
-            count = len(self._models)
-            return per.flip[np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)]
-        return float(per.flip[int(self.env_variant[0])])
+            return self._per.flip[self._pool_draws(keys)]
+        return float(self._per.flip[int(self.env_variant[0])])
+
+    def _pool_draws(self, keys: np.ndarray) -> np.ndarray:
+        """The variant of the pool each episode whose key is in ``keys`` plays (purpose 'variant')."""
+        count = len(self._models)
+        return np.minimum((uniform(subkeys(keys, "variant")) * count).astype(np.int64), count - 1)
 
     def _observe_scalar(self) -> Any:
         """The single env's observation, every modality (the vector-only case is inlined in step_one)."""
